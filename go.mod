@@ -1,0 +1,11 @@
+module orbitwatch
+
+go 1.26.8
+
+require github.com/RoaringBitmap/roaring/v2 v2.30.0
+
+require (
+	github.com/bits-and-blooms/bitset v1.24.4 // indirect
+	github.com/mschoch/smat v0.2.0 // indirect
+	golang.org/x/sys v0.49.0 // indirect
+)
