@@ -11,7 +11,7 @@ import (
 // fakeClock is a clock the test moves by hand.
 type fakeClock struct{ t atomic.Int64 }
 
-func (c *fakeClock) now() time.Time           { return time.Unix(0, c.t.Load()) }
+func (c *fakeClock) now() time.Time          { return time.Unix(0, c.t.Load()) }
 func (c *fakeClock) advance(d time.Duration) { c.t.Add(int64(d)) }
 
 // lines is a writer that hands every Write to the test.
