@@ -1,0 +1,109 @@
+package generic
+
+import (
+	"slices"
+
+	"github.com/RoaringBitmap/roaring/v2"
+
+	"orbitwatch/delta"
+)
+
+// member marks, in halo.adj, a node that is in the current set S.
+const member = 0x80
+
+// halo is the scratch state of one edge change: the current node set S
+// (nodes[:depth], u at 0 and v at 1) and, per graph node x, the positions
+// of S it is joined to. Bit q of adj[x] says S[q]→x (undirected: S[q]—x),
+// bit q of adjR[x] says x→S[q]; adj also holds the member flag. Outside an
+// event every mask is zero, so an event costs only the nodes it touches.
+type halo struct {
+	t     *tables
+	adj   []uint8
+	adjR  []uint8
+	nodes [maxNodes]uint32
+	// nbr[q] lists the successors then the predecessors of S[q] (the
+	// neighbours, undirected), nOut[q] of them successors; kept to clear the
+	// masks again without reading the bitmaps twice.
+	nbr  [maxNodes][]uint32
+	nOut [maxNodes]int
+	it   roaring.ManyIntIterator
+}
+
+// reserve makes the masks cover n nodes. It allocates only when the graph
+// has grown past every size seen before.
+func (h *halo) reserve(n int) {
+	if n > len(h.adj) {
+		m := max(n, 2*len(h.adj))
+		h.adj = make([]uint8, m)
+		h.adjR = make([]uint8, m)
+	}
+}
+
+// load appends the members of b to buf, in increasing order, reading them
+// with it. It allocates only when buf is too small.
+func load(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap) []uint32 {
+	n := int(b.GetCardinality())
+	buf = slices.Grow(buf, n)
+	it.Initialize(b)
+	got := it.NextMany(buf[len(buf) : len(buf)+n])
+	return buf[:len(buf)+got]
+}
+
+// join records node s as S[q]: it marks s a member and sets bit q in the
+// masks of its neighbours. Every neighbour that was joined to no member
+// before and is no member itself — an exclusive neighbour of s — is
+// appended to ext, once. join returns ext.
+func (h *halo) join(g *delta.Graph, q int, s uint32, ext []uint32) []uint32 {
+	h.nodes[q] = s
+	h.adj[s] |= member
+	bit := uint8(1) << q
+	list := load(&h.it, h.nbr[q][:0], g.Out(s))
+	h.nOut[q] = len(list)
+	for _, x := range list {
+		if h.adj[x]|h.adjR[x] == 0 {
+			ext = append(ext, x)
+		}
+		h.adj[x] |= bit
+	}
+	if g.Kind() == delta.Directed {
+		list = load(&h.it, list, g.In(s))
+		for _, x := range list[h.nOut[q]:] {
+			if h.adj[x]|h.adjR[x] == 0 {
+				ext = append(ext, x)
+			}
+			h.adjR[x] |= bit
+		}
+	}
+	h.nbr[q] = list
+	return ext
+}
+
+// leave undoes join(g, q, S[q], ·).
+func (h *halo) leave(q int) {
+	bit := uint8(1) << q
+	list := h.nbr[q]
+	for _, x := range list[:h.nOut[q]] {
+		h.adj[x] &^= bit
+	}
+	for _, x := range list[h.nOut[q]:] {
+		h.adjR[x] &^= bit
+	}
+	h.adj[h.nodes[q]] &^= member
+}
+
+// codeAt returns the code of the arcs (edges) between node x, placed at
+// position p, and the members at positions below p.
+func (h *halo) codeAt(p int, x uint32) uint32 {
+	return h.t.outBits[p][h.adj[x]&(1<<maxNodes-1)] | h.t.inBits[p][h.adjR[x]&(1<<maxNodes-1)]
+}
+
+// seed joins u and v as S[0] and S[1] and returns the code of {u,v}
+// without the changing edge, and the nodes joined to u or v.
+func (h *halo) seed(g *delta.Graph, u, v uint32, ext []uint32) (uint32, []uint32) {
+	h.reserve(g.NumNodes())
+	h.adj[v] |= member
+	ext = h.join(g, 0, u, ext)
+	code := h.codeAt(1, v) &^ h.t.edgeBit
+	ext = h.join(g, 1, v, ext)
+	return code, ext
+}

@@ -1,0 +1,115 @@
+package generic
+
+import (
+	"orbitwatch/delta"
+	"orbitwatch/delta/catalog"
+)
+
+// maxNodes is the largest graphlet size any catalog holds.
+const maxNodes = 5
+
+// change is one orbit change of one member of a node set when the edge
+// between positions 0 and 1 appears: the member at position pos leaves or
+// enters orbit; d is +1 for the orbit held with the edge, −1 for the one
+// held without it.
+type change struct {
+	pos   uint8
+	d     int8
+	orbit int32
+}
+
+// tables holds what the engines precompute from a catalog.
+//
+// For a set of m members with tuple positions 0..m−1, where u is at 0 and v
+// at 1, code is the adjacency code of the induced subgraph with the bit of
+// the changing edge u→v (or {u,v}) cleared. changes[m][start[m][code]:
+// start[m][code+1]] are the member orbit changes from the subgraph without
+// the edge to the one with it; a member whose orbit is the same in both is
+// not listed, and a subgraph that is disconnected without the edge
+// contributes only +1 entries.
+//
+// outBits[p][mask] is the code of the arcs q→p (undirected: edges {q,p})
+// for every position q in mask; inBits[p][mask] the code of the arcs p→q.
+type tables struct {
+	kind    delta.Kind
+	k       int
+	orbits  int
+	edgeBit uint32 // code bit of u→v, or of {u,v}
+	start   [maxNodes + 1][]uint32
+	changes [maxNodes + 1][]change
+	outBits [maxNodes][1 << maxNodes]uint32
+	inBits  [maxNodes][1 << maxNodes]uint32
+}
+
+// newTables derives the engine tables of cat; it panics on a catalog whose
+// size is outside 2..5.
+func newTables(cat *catalog.Catalog) *tables {
+	k := cat.MaxNodes
+	if k < 2 || k > maxNodes {
+		panic("generic: catalog size outside 2..5")
+	}
+	t := &tables{kind: cat.Kind, k: k, orbits: cat.NumOrbits()}
+	directed := cat.Kind == delta.Directed
+	bit := func(i, j int) uint32 {
+		if directed {
+			return 1 << catalog.ArcBit(i, j)
+		}
+		return 1 << catalog.PairBit(i, j)
+	}
+	t.edgeBit = bit(0, 1)
+	for p := 0; p < maxNodes; p++ {
+		for mask := 0; mask < 1<<maxNodes; mask++ {
+			for q := 0; q < maxNodes; q++ {
+				if mask&(1<<q) == 0 || q == p {
+					continue
+				}
+				t.outBits[p][mask] |= bit(q, p)
+				if directed {
+					t.inBits[p][mask] |= bit(p, q)
+				}
+			}
+		}
+	}
+	for m := 2; m <= k; m++ {
+		bits := m * (m - 1) / 2
+		if directed {
+			bits *= 2
+		}
+		n := uint32(1) << bits
+		start := make([]uint32, n+1)
+		var list []change
+		for code := uint32(0); code < n; code++ {
+			start[code] = uint32(len(list))
+			if code&t.edgeBit != 0 {
+				continue
+			}
+			gWith, with := cat.Lookup(m, code|t.edgeBit)
+			gWithout, without := cat.Lookup(m, code)
+			if gWith < 0 {
+				continue
+			}
+			for i := 0; i < m; i++ {
+				if gWithout >= 0 && without[i] == with[i] {
+					continue
+				}
+				if gWithout >= 0 {
+					list = append(list, change{pos: uint8(i), d: -1, orbit: int32(without[i])})
+				}
+				list = append(list, change{pos: uint8(i), d: +1, orbit: int32(with[i])})
+			}
+		}
+		start[n] = uint32(len(list))
+		t.start[m], t.changes[m] = start, list
+	}
+	return t
+}
+
+// emitSet emits the changes of the m-member set nodes[:m] whose code
+// without the changing edge is code, each multiplied by sign (+1 insert,
+// −1 delete). code must not hold edgeBit.
+func (t *tables) emitSet(m int, code uint32, nodes *[maxNodes]uint32, sign int64, emit delta.Emit) {
+	s := t.start[m]
+	for _, c := range t.changes[m][s[code]:s[code+1]] {
+		emit(nodes[c.pos], int(c.orbit), int64(c.d)*sign)
+	}
+}
