@@ -1,0 +1,157 @@
+package storage
+
+import (
+	"encoding/binary"
+	"fmt"
+	"math"
+	"time"
+)
+
+// Key layout. Every key starts with one prefix byte; ids and sequences are
+// big-endian so that Badger's key order is numeric order.
+//
+//	's'                    settings record (written once, version 1)
+//	'f'                    retention floor: uvarint seq
+//	'm'                    meta: the latest version of this key is the last
+//	                       complete checkpoint; value = uvarint dictionary size
+//	'c' seq(8)             checkpoint record: watermark(8), uvarint dictionary size
+//	'w' watermark(8) seq(8) watermark index, empty value
+//	'd' id(4)              dictionary: node name
+//	'n' name               dictionary: id(4)
+//	'e' u(4) v(4)          edge {u,v} (u<v) or arc u→v: uvarint multiplicity
+//	'v' id(4)              orbit vector, uvarints with trailing zeros dropped
+//	'b' name               applier blob
+//
+// Adjacency is stored per edge, not per node bitmap: a changed edge costs
+// one small entry per checkpoint, while a per-node bitmap would rewrite both
+// endpoints' whole neighbour sets (kilobytes for a hub) into the history at
+// every checkpoint that touches them. BenchmarkCheckpoint reports both
+// sizes.
+const (
+	pSettings   = 's'
+	pFloor      = 'f'
+	pMeta       = 'm'
+	pCheckpoint = 'c'
+	pWatermark  = 'w'
+	pDictID     = 'd'
+	pDictName   = 'n'
+	pEdge       = 'e'
+	pVector     = 'v'
+	pBlob       = 'b'
+)
+
+// checkpointPrefixes are the prefixes a checkpoint writes through its
+// (possibly several) write-batch transactions, so a crash can tear them.
+// The meta, checkpoint and watermark records are written in the final
+// single transaction and are never torn.
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pVector, pBlob}
+
+func keyID(p byte, x uint32) []byte {
+	k := make([]byte, 5)
+	k[0] = p
+	binary.BigEndian.PutUint32(k[1:], x)
+	return k
+}
+
+func keySeq(p byte, s uint64) []byte {
+	k := make([]byte, 9)
+	k[0] = p
+	binary.BigEndian.PutUint64(k[1:], s)
+	return k
+}
+
+func keyName(p byte, name string) []byte {
+	k := make([]byte, 1+len(name))
+	k[0] = p
+	copy(k[1:], name)
+	return k
+}
+
+// appendEdgeKey appends 'e' u v; for undirected graphs the caller passes
+// u < v.
+func appendEdgeKey(b []byte, u, v uint32) []byte {
+	b = append(b, pEdge)
+	b = binary.BigEndian.AppendUint32(b, u)
+	return binary.BigEndian.AppendUint32(b, v)
+}
+
+// appendVector appends vec as uvarints, dropping trailing zeros, so an
+// all-zero vector is empty.
+func appendVector(b []byte, vec []uint64) []byte {
+	n := len(vec)
+	for n > 0 && vec[n-1] == 0 {
+		n--
+	}
+	for _, c := range vec[:n] {
+		b = binary.AppendUvarint(b, c)
+	}
+	return b
+}
+
+// decodeVector fills vec (length NumOrbits) from a value written by
+// appendVector.
+func decodeVector(b []byte, vec []uint64) error {
+	i := 0
+	for len(b) > 0 {
+		if i == len(vec) {
+			return fmt.Errorf("vector has more than %d counts", len(vec))
+		}
+		c, n := binary.Uvarint(b)
+		if n <= 0 {
+			return fmt.Errorf("vector count %d is not a valid uvarint", i)
+		}
+		vec[i] = c
+		b = b[n:]
+		i++
+	}
+	clear(vec[i:])
+	return nil
+}
+
+// Watermarks are stored as 8 bytes that sort like the time: Unix
+// nanoseconds with the sign bit flipped. The zero time.Time is stored as the
+// smallest value.
+var (
+	minWatermark = time.Unix(0, math.MinInt64+1)
+	maxWatermark = time.Unix(0, math.MaxInt64)
+)
+
+func watermarkBits(t time.Time) (uint64, error) {
+	if t.IsZero() {
+		return 0, nil
+	}
+	if t.Before(minWatermark) || t.After(maxWatermark) {
+		return 0, fmt.Errorf("watermark %v is outside the storable range (years 1678 to 2262)", t)
+	}
+	return uint64(t.UnixNano()) ^ (1 << 63), nil
+}
+
+func watermarkTime(b uint64) time.Time {
+	if b == 0 {
+		return time.Time{}
+	}
+	return time.Unix(0, int64(b^(1<<63))).UTC()
+}
+
+func getUvarint(b []byte, what string) (uint64, error) {
+	x, n := binary.Uvarint(b)
+	if n <= 0 || n != len(b) {
+		return 0, fmt.Errorf("%s record is not a single uvarint (%d bytes)", what, len(b))
+	}
+	return x, nil
+}
+
+func beUint64(b []byte) uint64 { return binary.BigEndian.Uint64(b) }
+
+// decodeCheckpointRecord reads a 'c' record: watermark(8), uvarint
+// dictionary size.
+func decodeCheckpointRecord(seq uint64, b []byte) (CheckpointInfo, error) {
+	if len(b) < 9 {
+		return CheckpointInfo{}, fmt.Errorf("corrupt record of checkpoint %d: %d bytes", seq, len(b))
+	}
+	n, err := getUvarint(b[8:], "checkpoint")
+	if err != nil {
+		return CheckpointInfo{}, fmt.Errorf("checkpoint %d: %w", seq, err)
+	}
+	return CheckpointInfo{Seq: seq, Watermark: watermarkTime(beUint64(b)), Nodes: int(n)}, nil
+}
