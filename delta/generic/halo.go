@@ -8,18 +8,25 @@ import (
 	"orbitwatch/delta"
 )
 
-// member marks, in halo.adj, a node that is in the current set S.
-const member = 0x80
+// Layout of halo.mask: bit q says S[q]→x (undirected: S[q]—x), bit
+// inShift+q says x→S[q], and member says x is in S.
+const (
+	inShift = maxNodes
+	posMask = 1<<maxNodes - 1
+	member  = 1 << 15
+	// loadChunk is the least free room load offers the bitmap iterator.
+	loadChunk = 64
+	seedBits  = 3 | 3<<inShift // the bits that join x to S[0] = u or S[1] = v
+)
 
 // halo is the scratch state of one edge change: the current node set S
 // (nodes[:depth], u at 0 and v at 1) and, per graph node x, the positions
-// of S it is joined to. Bit q of adj[x] says S[q]→x (undirected: S[q]—x),
-// bit q of adjR[x] says x→S[q]; adj also holds the member flag. Outside an
-// event every mask is zero, so an event costs only the nodes it touches.
+// of S it is joined to, in mask[x]. One array keeps the masks of a node in
+// one cache line. Outside an event every mask is zero, so an event costs
+// only the nodes it touches.
 type halo struct {
 	t     *tables
-	adj   []uint8
-	adjR  []uint8
+	mask  []uint16
 	nodes [maxNodes]uint32
 	// nbr[q] lists the successors then the predecessors of S[q] (the
 	// neighbours, undirected), nOut[q] of them successors; kept to clear the
@@ -32,21 +39,23 @@ type halo struct {
 // reserve makes the masks cover n nodes. It allocates only when the graph
 // has grown past every size seen before.
 func (h *halo) reserve(n int) {
-	if n > len(h.adj) {
-		m := max(n, 2*len(h.adj))
-		h.adj = make([]uint8, m)
-		h.adjR = make([]uint8, m)
+	if n > len(h.mask) {
+		h.mask = make([]uint16, max(n, 2*len(h.mask)))
 	}
 }
 
 // load appends the members of b to buf, in increasing order, reading them
 // with it. It allocates only when buf is too small.
 func load(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap) []uint32 {
-	n := int(b.GetCardinality())
-	buf = slices.Grow(buf, n)
 	it.Initialize(b)
-	got := it.NextMany(buf[len(buf) : len(buf)+n])
-	return buf[:len(buf)+got]
+	for {
+		buf = slices.Grow(buf, loadChunk)
+		got := it.NextMany(buf[len(buf):cap(buf)])
+		buf = buf[:len(buf)+got]
+		if got == 0 || len(buf) < cap(buf) {
+			return buf
+		}
+	}
 }
 
 // join records node s as S[q]: it marks s a member and sets bit q in the
@@ -55,23 +64,24 @@ func load(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap) []uint32
 // appended to ext, once. join returns ext.
 func (h *halo) join(g *delta.Graph, q int, s uint32, ext []uint32) []uint32 {
 	h.nodes[q] = s
-	h.adj[s] |= member
-	bit := uint8(1) << q
+	h.mask[s] |= member
+	bit := uint16(1) << q
 	list := load(&h.it, h.nbr[q][:0], g.Out(s))
 	h.nOut[q] = len(list)
 	for _, x := range list {
-		if h.adj[x]|h.adjR[x] == 0 {
+		if h.mask[x] == 0 {
 			ext = append(ext, x)
 		}
-		h.adj[x] |= bit
+		h.mask[x] |= bit
 	}
 	if g.Kind() == delta.Directed {
 		list = load(&h.it, list, g.In(s))
+		bit <<= inShift
 		for _, x := range list[h.nOut[q]:] {
-			if h.adj[x]|h.adjR[x] == 0 {
+			if h.mask[x] == 0 {
 				ext = append(ext, x)
 			}
-			h.adjR[x] |= bit
+			h.mask[x] |= bit
 		}
 	}
 	h.nbr[q] = list
@@ -80,28 +90,30 @@ func (h *halo) join(g *delta.Graph, q int, s uint32, ext []uint32) []uint32 {
 
 // leave undoes join(g, q, S[q], ·).
 func (h *halo) leave(q int) {
-	bit := uint8(1) << q
+	bit := uint16(1) << q
 	list := h.nbr[q]
 	for _, x := range list[:h.nOut[q]] {
-		h.adj[x] &^= bit
+		h.mask[x] &^= bit
 	}
+	bit <<= inShift
 	for _, x := range list[h.nOut[q]:] {
-		h.adjR[x] &^= bit
+		h.mask[x] &^= bit
 	}
-	h.adj[h.nodes[q]] &^= member
+	h.mask[h.nodes[q]] &^= member
 }
 
 // codeAt returns the code of the arcs (edges) between node x, placed at
 // position p, and the members at positions below p.
 func (h *halo) codeAt(p int, x uint32) uint32 {
-	return h.t.outBits[p][h.adj[x]&(1<<maxNodes-1)] | h.t.inBits[p][h.adjR[x]&(1<<maxNodes-1)]
+	m := h.mask[x]
+	return h.t.outBits[p][m&posMask] | h.t.inBits[p][m>>inShift&posMask]
 }
 
 // seed joins u and v as S[0] and S[1] and returns the code of {u,v}
 // without the changing edge, and the nodes joined to u or v.
 func (h *halo) seed(g *delta.Graph, u, v uint32, ext []uint32) (uint32, []uint32) {
 	h.reserve(g.NumNodes())
-	h.adj[v] |= member
+	h.mask[v] |= member
 	ext = h.join(g, 0, u, ext)
 	code := h.codeAt(1, v) &^ h.t.edgeBit
 	ext = h.join(g, 1, v, ext)

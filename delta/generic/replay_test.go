@@ -119,14 +119,17 @@ func TestReplayAgainstRecount(t *testing.T) {
 		{delta.Directed, 2, 8, 200},
 		{delta.Directed, 3, 14, 600},
 		{delta.Directed, 4, 12, 600},
+		{delta.Undirected, 4, 60, 500},
+		{delta.Directed, 4, 60, 500},
+		{delta.Undirected, 5, 40, 300},
 	}
 	for _, c := range cases {
-		t.Run(fmt.Sprintf("%v-%d", c.kind, c.k), func(t *testing.T) {
+		t.Run(fmt.Sprintf("%v-k%d-n%d", c.kind, c.k, c.nodes), func(t *testing.T) {
 			cat := mustCatalog(t, c.kind, c.k)
 			rec := NewRecounter(cat)
 			ref := newState(t, NewEnumerator(cat))
 			fast := newState(t, NewEngine(cat))
-			rng := rand.New(rand.NewPCG(uint64(c.k), uint64(c.kind)))
+			rng := rand.New(rand.NewPCG(uint64(c.k), uint64(c.nodes)<<8|uint64(c.kind)))
 			checks := 0
 			randomStream(rng, c.nodes, c.steps, 25, []*state{ref, fast}, func(step int) {
 				want := rec.Recount(ref.g)

@@ -26,7 +26,8 @@ type change struct {
 // start[m][code+1]] are the member orbit changes from the subgraph without
 // the edge to the one with it; a member whose orbit is the same in both is
 // not listed, and a subgraph that is disconnected without the edge
-// contributes only +1 entries.
+// contributes only +1 entries. The changes of the newest member, position
+// m−1, come first and end at mid[m][code].
 //
 // outBits[p][mask] is the code of the arcs q→p (undirected: edges {q,p})
 // for every position q in mask; inBits[p][mask] the code of the arcs p→q.
@@ -36,6 +37,7 @@ type tables struct {
 	orbits  int
 	edgeBit uint32 // code bit of u→v, or of {u,v}
 	start   [maxNodes + 1][]uint32
+	mid     [maxNodes + 1][]uint32
 	changes [maxNodes + 1][]change
 	outBits [maxNodes][1 << maxNodes]uint32
 	inBits  [maxNodes][1 << maxNodes]uint32
@@ -76,10 +78,11 @@ func newTables(cat *catalog.Catalog) *tables {
 			bits *= 2
 		}
 		n := uint32(1) << bits
-		start := make([]uint32, n+1)
+		start, mid := make([]uint32, n+1), make([]uint32, n)
 		var list []change
 		for code := uint32(0); code < n; code++ {
 			start[code] = uint32(len(list))
+			mid[code] = start[code]
 			if code&t.edgeBit != 0 {
 				continue
 			}
@@ -88,7 +91,8 @@ func newTables(cat *catalog.Catalog) *tables {
 			if gWith < 0 {
 				continue
 			}
-			for i := 0; i < m; i++ {
+			for j := 0; j < m; j++ {
+				i := (m - 1 + j) % m // the newest member first
 				if gWithout >= 0 && without[i] == with[i] {
 					continue
 				}
@@ -96,20 +100,37 @@ func newTables(cat *catalog.Catalog) *tables {
 					list = append(list, change{pos: uint8(i), d: -1, orbit: int32(without[i])})
 				}
 				list = append(list, change{pos: uint8(i), d: +1, orbit: int32(with[i])})
+				if i == m-1 {
+					mid[code] = uint32(len(list))
+				}
 			}
 		}
 		start[n] = uint32(len(list))
-		t.start[m], t.changes[m] = start, list
+		t.start[m], t.mid[m], t.changes[m] = start, mid, list
 	}
 	return t
+}
+
+// newest returns the changes of member m−1 of an m-member set with code
+// code (without the changing edge); older returns those of members 0..m−2.
+func (t *tables) newest(m int, code uint32) []change {
+	return t.changes[m][t.start[m][code]:t.mid[m][code]]
+}
+
+func (t *tables) older(m int, code uint32) []change {
+	return t.changes[m][t.mid[m][code]:t.start[m][code+1]]
+}
+
+// all returns the changes of every member.
+func (t *tables) all(m int, code uint32) []change {
+	return t.changes[m][t.start[m][code]:t.start[m][code+1]]
 }
 
 // emitSet emits the changes of the m-member set nodes[:m] whose code
 // without the changing edge is code, each multiplied by sign (+1 insert,
 // −1 delete). code must not hold edgeBit.
 func (t *tables) emitSet(m int, code uint32, nodes *[maxNodes]uint32, sign int64, emit delta.Emit) {
-	s := t.start[m]
-	for _, c := range t.changes[m][s[code]:s[code+1]] {
+	for _, c := range t.all(m, code) {
 		emit(nodes[c.pos], int(c.orbit), int64(c.d)*sign)
 	}
 }
