@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
+	"math"
 	"slices"
 	"testing"
 	"time"
@@ -143,8 +144,11 @@ func TestPayments(t *testing.T) {
 	}
 	sorted := slices.Clone(shopDeg)
 	slices.Sort(sorted)
-	if top, median := sorted[len(sorted)-1], sorted[len(sorted)/2]; top < 50*max(1, median) {
-		t.Errorf("shop popularity not skewed: top %d, median %d", top, median)
+	// Zipf popularity ∝ (v+k)^−s: the top shop (k = 0) against the median
+	// one (k ≈ Shops/2) is ((v+Shops/2)/v)^s, about 50 here.
+	want := math.Pow((cfg.ZipfV+float64(cfg.Shops)/2)/cfg.ZipfV, cfg.ZipfS)
+	if top, median := sorted[len(sorted)-1], sorted[len(sorted)/2]; float64(top) < want/2*float64(median) || float64(top) > 2*want*float64(median) {
+		t.Errorf("shop popularity: top %d, median %d, want a ratio near %.0f", top, median, want)
 	}
 }
 
@@ -155,6 +159,7 @@ func TestDirectedPayments(t *testing.T) {
 		t.Fatalf("%d events, want %d", len(ev), cfg.Events)
 	}
 	var purchase, repeat, payroll, refund, transfer int
+	perShop := make([]int, pop.Shops)
 	seen := make(map[uint64]bool, len(ev))
 	arc := func(u, v uint32) uint64 { return uint64(u)<<32 | uint64(v) }
 	start, end := cfg.Start.Unix(), cfg.Start.Add(cfg.Period).Unix()
@@ -168,6 +173,7 @@ func TestDirectedPayments(t *testing.T) {
 		switch ru, rv := pop.Role(e.U), pop.Role(e.V); {
 		case ru == Account && rv == Shop:
 			purchase++
+			perShop[int(e.V)-pop.Accounts]++
 			if seen[arc(e.U, e.V)] {
 				repeat++
 			}
@@ -213,6 +219,14 @@ func TestDirectedPayments(t *testing.T) {
 		t.Errorf("repeated purchase share %.4f, want %.3f ± 0.02 (drawn %.2f, coincidence %.3f)", got, want, cfg.RepeatShare, c0)
 	}
 	t.Logf("purchase %d, repeat share %.4f, coincidence share without drawn repeats %.4f", purchase, float64(repeat)/float64(purchase), c0)
+	// Top merchant's share of fresh purchases: v^−s / Σ_k (v+k)^−s.
+	var z float64
+	for k := 0; k < cfg.Merchants; k++ {
+		z += math.Pow(cfg.ZipfV+float64(k), -cfg.ZipfS)
+	}
+	if got, want := float64(slices.Max(perShop))/float64(purchase), math.Pow(cfg.ZipfV, -cfg.ZipfS)/z; got < 0.8*want || got > 1.2*want {
+		t.Errorf("top merchant share %.4f, want %.4f ± 20%%", got, want)
+	}
 	if distinct := len(seen); float64(distinct) < 0.75*n {
 		t.Errorf("%d distinct arcs of %d events: too many repeats", distinct, len(ev))
 	}

@@ -16,9 +16,11 @@ type PaymentsConfig struct {
 	// ShopsPerHousehold is the mean number of distinct shops a household
 	// pays; each household pays a uniform 1..2·mean−1 of them.
 	ShopsPerHousehold int
-	// ZipfS (> 1) skews shop and payroll popularity: the shop of rank k is
-	// chosen with probability ∝ (1+k)^−ZipfS.
-	ZipfS float64
+	// ZipfS (> 1) and ZipfV (≥ 1) skew shop popularity: the shop of rank
+	// k is chosen with probability ∝ (ZipfV+k)^−ZipfS. A larger ZipfV caps
+	// the biggest shops (ZipfV 1 gives the top shop about a fifth of all
+	// custom). Payroll providers use ZipfS with offset 1.
+	ZipfS, ZipfV float64
 	// PayrollShare is the fraction of households paid by a payroll
 	// provider (each by exactly one).
 	PayrollShare float64
@@ -32,8 +34,8 @@ type PaymentsConfig struct {
 
 // DefaultPayments returns the scenario used by the benchmarks for a given
 // number of households: one shop per 40 households, 3 payroll providers,
-// 4 shops per household, Zipf exponent 1.2, 60 % on payroll, groups of 5
-// with pair share 0.4.
+// 4 shops per household, Zipf exponent 1.2 with offset 20, 60 % on
+// payroll, groups of 5 with pair share 0.4.
 func DefaultPayments(households int) PaymentsConfig {
 	return PaymentsConfig{
 		Households:        households,
@@ -41,6 +43,7 @@ func DefaultPayments(households int) PaymentsConfig {
 		Payrolls:          3,
 		ShopsPerHousehold: 4,
 		ZipfS:             1.2,
+		ZipfV:             20,
 		PayrollShare:      0.6,
 		GroupSize:         5,
 		GroupPairShare:    0.4,
@@ -49,7 +52,7 @@ func DefaultPayments(households int) PaymentsConfig {
 
 func (c PaymentsConfig) check() {
 	if c.Households < 1 || c.Shops < 1 || c.Payrolls < 1 || c.ShopsPerHousehold < 1 ||
-		c.ZipfS <= 1 || c.PayrollShare < 0 || c.PayrollShare > 1 || c.GroupSize < 1 ||
+		c.ZipfS <= 1 || c.ZipfV < 1 || c.PayrollShare < 0 || c.PayrollShare > 1 || c.GroupSize < 1 ||
 		c.GroupPairShare < 0 || c.GroupPairShare > 1 || c.ShopsPerHousehold > c.Shops {
 		panic(fmt.Sprintf("gen: invalid payments config %+v", c))
 	}
@@ -62,7 +65,7 @@ func Payments(c PaymentsConfig, seed uint64) (Population, []Edge) {
 	c.check()
 	pop := Population{Accounts: c.Households, Shops: c.Shops, Payrolls: c.Payrolls}
 	r := newRand(seed)
-	shopRank := rand.NewZipf(r, c.ZipfS, 1, uint64(c.Shops-1))
+	shopRank := rand.NewZipf(r, c.ZipfS, c.ZipfV, uint64(c.Shops-1))
 	payRank := rand.NewZipf(r, c.ZipfS, 1, uint64(c.Payrolls-1))
 	edges := make([]Edge, 0, c.Households*(c.ShopsPerHousehold+2))
 	picked := make([]uint32, 0, 2*c.ShopsPerHousehold)
