@@ -1,0 +1,81 @@
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"fmt"
+	"os"
+	"text/tabwriter"
+
+	"orbitwatch/delta"
+	"orbitwatch/delta/catalog"
+)
+
+type catalogJSON struct {
+	Kind      string          `json:"kind"`
+	MaxNodes  int             `json:"max_nodes"`
+	Graphlets []graphletJSON  `json:"graphlets"`
+}
+
+type graphletJSON struct {
+	ID     int          `json:"id"`
+	Nodes  int          `json:"nodes"`
+	Edges  [][2]int     `json:"edges"`
+	Name   string       `json:"name"`
+	Orbits []orbitJSON  `json:"orbits"`
+}
+
+type orbitJSON struct {
+	ID        int    `json:"id"`
+	Positions []int  `json:"positions"`
+	Name      string `json:"name"`
+}
+
+func runCatalog(args []string) int {
+	fs := flag.NewFlagSet("catalog", flag.ContinueOnError)
+	kindName := fs.String("kind", "undirected", "graph kind: undirected or directed")
+	maxNodes := fs.Int("max-nodes", 4, "largest graphlet size counted")
+	asJSON := fs.Bool("json", false, "print JSON instead of a table")
+	if err := fs.Parse(args); err != nil {
+		return 2
+	}
+	kind, err := delta.ParseKind(*kindName)
+	if err != nil {
+		return fail("catalog", err)
+	}
+	cat, err := catalog.New(kind, *maxNodes)
+	if err != nil {
+		return fail("catalog", err)
+	}
+	if *asJSON {
+		out := catalogJSON{Kind: kind.String(), MaxNodes: cat.MaxNodes, Graphlets: []graphletJSON{}}
+		for _, g := range cat.Graphlets {
+			gj := graphletJSON{ID: g.ID, Nodes: g.Nodes, Edges: g.Edges, Name: g.Name, Orbits: []orbitJSON{}}
+			if gj.Edges == nil {
+				gj.Edges = [][2]int{}
+			}
+			for _, o := range cat.Orbits {
+				if o.Graphlet == g.ID {
+					gj.Orbits = append(gj.Orbits, orbitJSON{ID: o.ID, Positions: o.Positions, Name: o.Name})
+				}
+			}
+			out.Graphlets = append(out.Graphlets, gj)
+		}
+		enc := json.NewEncoder(os.Stdout)
+		if err := enc.Encode(out); err != nil {
+			return fail("catalog", err)
+		}
+		return 0
+	}
+	fmt.Printf("%s graphlets on 2–%d nodes: %d graphlets, %d orbits\n\n", kind, cat.MaxNodes, len(cat.Graphlets), cat.NumOrbits())
+	tw := tabwriter.NewWriter(os.Stdout, 0, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "orbit\tgraphlet\tnodes\tpositions\torbit name\tgraphlet name")
+	for _, o := range cat.Orbits {
+		g := cat.Graphlets[o.Graphlet]
+		fmt.Fprintf(tw, "%d\t%d\t%d\t%v\t%s\t%s\n", o.ID, g.ID, g.Nodes, o.Positions, o.Name, g.Name)
+	}
+	if err := tw.Flush(); err != nil {
+		return fail("catalog", err)
+	}
+	return 0
+}

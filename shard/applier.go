@@ -1,0 +1,256 @@
+package shard
+
+import (
+	"errors"
+	"fmt"
+	"time"
+
+	"orbitwatch/delta"
+	"orbitwatch/stream"
+)
+
+// Reasons an event is rejected by the applier, beyond delta's.
+var (
+	ErrLate    = errors.New("late: older than the window on arrival")
+	ErrNoTime  = errors.New("missing ts (a window is set)")
+	ErrUnknown = errors.New("remove of absent edge")
+)
+
+// Reject is a rejected event: it changed nothing.
+type Reject struct {
+	Seq    uint64
+	Line   int
+	Reason error
+}
+
+func (r *Reject) Error() string { return fmt.Sprintf("seq %d: %v", r.Seq, r.Reason) }
+func (r *Reject) Unwrap() error { return r.Reason }
+
+// Applier applies edge events in log order and keeps every node's orbit
+// vector exact. It is not safe for concurrent use.
+type Applier struct {
+	count  *Counting
+	graph  *delta.Graph
+	vec    *delta.Vectors
+	names  []string
+	ids    map[string]uint32
+	window *window
+
+	seq       uint64
+	watermark time.Time
+
+	touchMark []uint32 // touchMark[x] == touchEpoch when x was touched since the last Touched reset
+	touched   []uint32
+	epoch     uint32
+	fault     error
+
+	applied, expired uint64
+	rejected         map[string]uint64
+	emit             delta.Emit
+}
+
+// NewApplier returns an applier over an empty graph. A window of zero
+// keeps every edge until it is removed.
+func NewApplier(c *Counting, win time.Duration) *Applier {
+	a := &Applier{
+		count:    c,
+		graph:    delta.NewGraph(c.Catalog.Kind),
+		vec:      delta.NewVectors(0, c.Catalog.NumOrbits()),
+		ids:      make(map[string]uint32),
+		rejected: make(map[string]uint64),
+		epoch:    1,
+	}
+	if win > 0 {
+		a.window = newWindow(win, c.Catalog.Kind)
+	}
+	a.emit = a.add
+	return a
+}
+
+func (a *Applier) add(x uint32, o int, d int64) {
+	if a.fault != nil {
+		return
+	}
+	if err := a.vec.Add(x, o, d); err != nil {
+		a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
+		return
+	}
+	if a.touchMark[x] != a.epoch {
+		a.touchMark[x] = a.epoch
+		a.touched = append(a.touched, x)
+	}
+}
+
+// Apply applies the event at log position seq (seqs must increase). A
+// rejected event returns a *Reject and changes nothing. Any other error is
+// an invariant violation: the applier's state is no longer trustworthy and
+// the caller must stop.
+func (a *Applier) Apply(seq uint64, ev stream.Event) error {
+	if seq <= a.seq {
+		panic("shard: Apply with a sequence that does not increase")
+	}
+	a.seq = seq
+	if a.fault != nil {
+		return a.fault
+	}
+	if a.window != nil && !ev.HasTS {
+		return a.rejectWith(ev, ErrNoTime)
+	}
+	// Time passes with every event that carries it, accepted or not: the
+	// expiries it makes due are applied before the event is judged.
+	if ev.HasTS && ev.TS.After(a.watermark) {
+		a.watermark = ev.TS
+		if a.window != nil {
+			if err := a.expire(); err != nil {
+				return err
+			}
+		}
+	}
+	if err := a.check(ev); err != nil {
+		return a.rejectWith(ev, err)
+	}
+	u, v := a.intern(ev.Src), a.intern(ev.Dst)
+	var err error
+	if ev.Op == stream.OpAdd {
+		err = a.increment(u, v)
+		if err == nil && a.window != nil {
+			a.window.push(ev.TS.Add(a.window.width), seq, u, v)
+		}
+	} else {
+		err = a.decrement(u, v)
+		if err == nil && a.window != nil {
+			a.window.cancel(u, v)
+		}
+	}
+	if err != nil {
+		return err
+	}
+	a.applied++
+	return a.fault
+}
+
+func (a *Applier) rejectWith(ev stream.Event, err error) error {
+	a.rejected[err.Error()]++
+	return &Reject{Seq: a.seq, Line: ev.Line, Reason: err}
+}
+
+// check decides, without changing anything, whether ev is rejected.
+func (a *Applier) check(ev stream.Event) error {
+	if a.window != nil && ev.Op == stream.OpAdd && !ev.TS.Add(a.window.width).After(a.watermark) {
+		return ErrLate
+	}
+	if ev.Src == ev.Dst {
+		return delta.ErrSelfLoop
+	}
+	if ev.Op == stream.OpRemove {
+		u, ok1 := a.ids[ev.Src]
+		v, ok2 := a.ids[ev.Dst]
+		if !ok1 || !ok2 || !a.graph.HasEdge(u, v) {
+			return ErrUnknown
+		}
+	}
+	if ev.Op == stream.OpAdd {
+		u, ok1 := a.ids[ev.Src]
+		v, ok2 := a.ids[ev.Dst]
+		if ok1 && ok2 && a.graph.Multiplicity(u, v) == ^uint32(0) {
+			return delta.ErrMultiplicity
+		}
+	}
+	return nil
+}
+
+func (a *Applier) increment(u, v uint32) error {
+	if !a.graph.HasEdge(u, v) {
+		a.count.Engine.Insert(a.graph, u, v, a.emit)
+	}
+	_, err := a.graph.Increment(u, v)
+	return err
+}
+
+func (a *Applier) decrement(u, v uint32) error {
+	if a.graph.Multiplicity(u, v) == 1 {
+		a.count.Engine.Delete(a.graph, u, v, a.emit)
+	}
+	_, err := a.graph.Decrement(u, v)
+	return err
+}
+
+// expire applies the window's removes whose expiry the watermark has reached.
+func (a *Applier) expire() error {
+	for {
+		e, ok := a.window.pop(a.watermark)
+		if !ok {
+			return a.fault
+		}
+		if err := a.decrement(e.u, e.v); err != nil {
+			return fmt.Errorf("seq %d: window expiry of add at seq %d: %w", a.seq, e.seq, err)
+		}
+		a.expired++
+		if a.fault != nil {
+			return a.fault
+		}
+	}
+}
+
+func (a *Applier) intern(id string) uint32 {
+	if x, ok := a.ids[id]; ok {
+		return x
+	}
+	x := uint32(len(a.names))
+	a.names = append(a.names, id)
+	a.ids[id] = x
+	a.graph.Grow(len(a.names))
+	a.vec.Grow(len(a.names))
+	a.touchMark = append(a.touchMark, 0)
+	return x
+}
+
+// Seq returns the last log position applied (accepted or rejected).
+func (a *Applier) Seq() uint64 { return a.seq }
+
+// Watermark returns the largest event time seen.
+func (a *Applier) Watermark() time.Time { return a.watermark }
+
+// Graph returns the current simple graph with multiplicities.
+func (a *Applier) Graph() *delta.Graph { return a.graph }
+
+// Vectors returns the current orbit vectors.
+func (a *Applier) Vectors() *delta.Vectors { return a.vec }
+
+// Counting returns the counters in use.
+func (a *Applier) Counting() *Counting { return a.count }
+
+// Names returns node names by dense id. The slice belongs to the applier.
+func (a *Applier) Names() []string { return a.names }
+
+// Lookup returns the dense id of a node name.
+func (a *Applier) Lookup(id string) (uint32, bool) {
+	x, ok := a.ids[id]
+	return x, ok
+}
+
+// Touched returns the nodes whose vectors changed since the last
+// ResetTouched, in order of first change.
+func (a *Applier) Touched() []uint32 { return a.touched }
+
+// ResetTouched starts a new touched set.
+func (a *Applier) ResetTouched() {
+	a.touched = a.touched[:0]
+	a.epoch++
+}
+
+// Stats are the applier's counters.
+type Stats struct {
+	Applied  uint64
+	Expired  uint64
+	Rejected map[string]uint64 // by reason
+}
+
+// Stats returns a copy of the applier's counters.
+func (a *Applier) Stats() Stats {
+	r := make(map[string]uint64, len(a.rejected))
+	for k, n := range a.rejected {
+		r[k] = n
+	}
+	return Stats{Applied: a.applied, Expired: a.expired, Rejected: r}
+}
