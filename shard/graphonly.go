@@ -12,8 +12,8 @@ func GraphOnly(cat *catalog.Catalog) delta.Engine { return graphOnly{cat} }
 
 type graphOnly struct{ cat *catalog.Catalog }
 
-func (e graphOnly) Kind() delta.Kind                          { return e.cat.Kind }
-func (e graphOnly) MaxNodes() int                             { return e.cat.MaxNodes }
-func (e graphOnly) NumOrbits() int                            { return e.cat.NumOrbits() }
+func (e graphOnly) Kind() delta.Kind                              { return e.cat.Kind }
+func (e graphOnly) MaxNodes() int                                 { return e.cat.MaxNodes }
+func (e graphOnly) NumOrbits() int                                { return e.cat.NumOrbits() }
 func (graphOnly) Insert(*delta.Graph, uint32, uint32, delta.Emit) {}
 func (graphOnly) Delete(*delta.Graph, uint32, uint32, delta.Emit) {}

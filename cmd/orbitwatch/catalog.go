@@ -12,17 +12,17 @@ import (
 )
 
 type catalogJSON struct {
-	Kind      string          `json:"kind"`
-	MaxNodes  int             `json:"max_nodes"`
-	Graphlets []graphletJSON  `json:"graphlets"`
+	Kind      string         `json:"kind"`
+	MaxNodes  int            `json:"max_nodes"`
+	Graphlets []graphletJSON `json:"graphlets"`
 }
 
 type graphletJSON struct {
-	ID     int          `json:"id"`
-	Nodes  int          `json:"nodes"`
-	Edges  [][2]int     `json:"edges"`
-	Name   string       `json:"name"`
-	Orbits []orbitJSON  `json:"orbits"`
+	ID     int         `json:"id"`
+	Nodes  int         `json:"nodes"`
+	Edges  [][2]int    `json:"edges"`
+	Name   string      `json:"name"`
+	Orbits []orbitJSON `json:"orbits"`
 }
 
 type orbitJSON struct {
