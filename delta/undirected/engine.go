@@ -8,13 +8,14 @@ import (
 	"orbitwatch/delta"
 )
 
-// Roles of the halo nodes of a changed edge uv, kept in engine.mark.
+// Roles of the nodes around a changed edge uv, kept in engine.mark.
 const (
-	roleEnd  = iota // u or v
-	roleA           // A = N(u) \ N[v]
-	roleB           // B = N(v) \ N[u]
-	roleC           // C = N(u) ∩ N(v)
-	roleBits = 2
+	roleFar = iota // outside N[u] ∪ N[v] (set R)
+	roleA          // A = N(u) \ N[v]
+	roleB          // B = N(v) \ N[u]
+	roleC          // C = N(u) ∩ N(v)
+	roleEnd        // u or v
+	numRoles
 )
 
 // engine is the incremental counter. Its scratch state is reused across
@@ -22,12 +23,11 @@ const (
 // largest degrees seen.
 type engine struct {
 	maxNodes, orbits int
-	// mark[x] = epoch<<roleBits | role for the halo of the current event;
-	// any other value means x is outside N[u] ∪ N[v] (set R).
-	mark   []uint32
-	epoch  uint32
+	// mark[x] is x's role in the current event, roleFar outside it. One
+	// byte per node keeps the array in cache; change resets what it set.
+	mark   []uint8
 	nu, nv []uint32
-	nw     []uint32
+	chunk  [256]uint32
 	it     roaring.ManyIntIterator
 }
 
@@ -73,14 +73,17 @@ func (e *engine) check(g *delta.Graph, u, v uint32) {
 
 // change emits s times the changes of inserting uv into G − uv.
 func (e *engine) change(g *delta.Graph, u, v uint32, s int64, emit delta.Emit) {
-	ep := e.begin(g.NumNodes())
-	e.mark[u], e.mark[v] = ep|roleEnd, ep|roleEnd
+	if len(e.mark) < g.NumNodes() {
+		e.mark = append(e.mark, make([]uint8, g.NumNodes()-len(e.mark))...)
+	}
 	e.nu = e.load(e.nu, g.Out(u))
 	e.nv = e.load(e.nv, g.Out(v))
+	defer e.reset(u, v)
+	e.mark[u], e.mark[v] = roleEnd, roleEnd
 	var nu, nv, c int64
 	for _, w := range e.nu {
 		if w != v {
-			e.mark[w] = ep | roleA
+			e.mark[w] = roleA
 			nu++
 		}
 	}
@@ -89,11 +92,11 @@ func (e *engine) change(g *delta.Graph, u, v uint32, s int64, emit delta.Emit) {
 			continue
 		}
 		nv++
-		if e.mark[w] == ep|roleA {
-			e.mark[w] = ep | roleC
+		if e.mark[w] == roleA {
+			e.mark[w] = roleC
 			c++
 		} else {
-			e.mark[w] = ep | roleB
+			e.mark[w] = roleB
 		}
 	}
 	a, b := nu-c, nv-c
@@ -101,11 +104,11 @@ func (e *engine) change(g *delta.Graph, u, v uint32, s int64, emit delta.Emit) {
 	du[oEdge], dv[oEdge] = 1, 1
 	switch e.maxNodes {
 	case 3:
-		e.halo3(u, v, ep, s, emit)
+		e.halo3(s, emit)
 	case 4:
 		var h halo
-		h.size = [4]int64{roleA: a, roleB: b, roleC: c}
-		e.halo4(g, ep, s, &h, emit)
+		h.size = [numRoles]int64{roleA: a, roleB: b, roleC: c}
+		e.halo4(g, s, &h, emit)
 		endpoint4(&du, &h, roleA, roleB)
 		endpoint4(&dv, &h, roleB, roleA)
 	}
@@ -117,17 +120,15 @@ func (e *engine) change(g *delta.Graph, u, v uint32, s int64, emit delta.Emit) {
 	flush(v, &dv, s, emit)
 }
 
-// begin starts an event on a graph of n nodes and returns its mark base.
-func (e *engine) begin(n int) uint32 {
-	if len(e.mark) < n {
-		e.mark = append(e.mark, make([]uint32, n-len(e.mark))...)
+// reset clears the marks change set, also when emit panics.
+func (e *engine) reset(u, v uint32) {
+	for _, w := range e.nu {
+		e.mark[w] = roleFar
 	}
-	e.epoch++
-	if e.epoch >= 1<<(32-roleBits) {
-		clear(e.mark)
-		e.epoch = 1
+	for _, w := range e.nv {
+		e.mark[w] = roleFar
 	}
-	return e.epoch << roleBits
+	e.mark[u], e.mark[v] = roleFar, roleFar
 }
 
 // load copies bitmap b into dst, growing it only when b is larger than any
@@ -165,18 +166,18 @@ func endpoint3(d *[maxOrbits]int64, a, b, c int64) {
 // halo3 emits the 3-node changes of the halo nodes: a node of A or B
 // becomes the end of a new 3-path, a common neighbour turns its 3-path
 // into a triangle.
-func (e *engine) halo3(u, v, ep uint32, s int64, emit delta.Emit) {
+func (e *engine) halo3(s int64, emit delta.Emit) {
 	for _, w := range e.nu {
 		switch e.mark[w] {
-		case ep | roleA:
+		case roleA:
 			emit(w, oPathEnd3, s)
-		case ep | roleC:
+		case roleC:
 			emit(w, oPathMid3, -s)
 			emit(w, oTriangle, s)
 		}
 	}
 	for _, w := range e.nv {
-		if e.mark[w] == ep|roleB {
+		if e.mark[w] == roleB {
 			emit(w, oPathEnd3, s)
 		}
 	}

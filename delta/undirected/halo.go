@@ -8,27 +8,27 @@ import (
 // (roleA, roleB, roleC): set sizes, paths leaving N[u] ∪ N[v], and edges
 // inside and between the sets.
 type halo struct {
-	size [4]int64
+	size [numRoles]int64
 	// out[r] = Σ_{w of role r} |N(w) ∩ R|, R the nodes outside N[u] ∪ N[v].
-	out [4]int64
+	out [numRoles]int64
 	// edges[r][q] = Σ_{w of role r} |N(w) ∩ Q|: the edges between the sets,
 	// twice the edges inside a set when r == q.
-	edges [4][4]int64
+	edges [numRoles][numRoles]int64
 }
 
 // halo4 emits the changes of every halo node except u and v and fills h.
 // A 4-node set {u,v,w,z} changes only if w is in A ∪ B ∪ C and z is either
 // in A ∪ B ∪ C too or outside, adjacent to w; walking N(w) for every such w
 // meets each of those z once.
-func (e *engine) halo4(g *delta.Graph, ep uint32, s int64, h *halo, emit delta.Emit) {
+func (e *engine) halo4(g *delta.Graph, s int64, h *halo, emit delta.Emit) {
 	for _, w := range e.nu {
-		if r := e.mark[w]; r != ep|roleEnd {
-			e.inner(g, w, r&^ep, ep, s, h, emit)
+		if r := e.mark[w]; r != roleEnd {
+			e.inner(g, w, r, s, h, emit)
 		}
 	}
 	for _, w := range e.nv {
-		if e.mark[w] == ep|roleB {
-			e.inner(g, w, roleB, ep, s, h, emit)
+		if e.mark[w] == roleB {
+			e.inner(g, w, roleB, s, h, emit)
 		}
 	}
 }
@@ -37,24 +37,25 @@ func (e *engine) halo4(g *delta.Graph, ep uint32, s int64, h *halo, emit delta.E
 // changes of the nodes z outside the halo (per path u–w–z or v–w–z, z a new
 // 4-path end when w is in A or B; a 3-star leaf turned tailed-triangle tail
 // when w is common), then w's own changes, and adds w's counts to h.
-func (e *engine) inner(g *delta.Graph, w, role, ep uint32, s int64, h *halo, emit delta.Emit) {
-	e.nw = e.load(e.nw, g.Out(w))
-	var n [4]int64
-	var far int64
-	for _, z := range e.nw {
-		m := e.mark[z]
-		if m&^(1<<roleBits-1) == ep {
-			n[m&^ep]++
-			continue
-		}
-		far++
-		if role == roleC {
-			emit(z, oStarLeaf, -s)
-			emit(z, oTailEnd, s)
-		} else {
-			emit(z, oPathEnd4, s)
+func (e *engine) inner(g *delta.Graph, w uint32, role uint8, s int64, h *halo, emit delta.Emit) {
+	var n [numRoles]int64
+	e.it.Initialize(g.Out(w))
+	for k := e.it.NextMany(e.chunk[:]); k > 0; k = e.it.NextMany(e.chunk[:]) {
+		for _, z := range e.chunk[:k] {
+			m := e.mark[z]
+			n[m]++
+			if m != roleFar {
+				continue
+			}
+			if role == roleC {
+				emit(z, oStarLeaf, -s)
+				emit(z, oTailEnd, s)
+			} else {
+				emit(z, oPathEnd4, s)
+			}
 		}
 	}
+	far := n[roleFar]
 	var d [maxOrbits]int64
 	switch role {
 	case roleA:
@@ -83,7 +84,7 @@ func (e *engine) inner(g *delta.Graph, w, role, ep uint32, s int64, h *halo, emi
 //	turned from 4-path end w–u–z–v into tailed-triangle tail with a
 //	non-adjacent common z, or from tailed triangle into diamond with an
 //	adjacent one.
-func side(d *[maxOrbits]int64, h *halo, n [4]int64, far int64, own, other uint32) {
+func side(d *[maxOrbits]int64, h *halo, n [numRoles]int64, far int64, own, other uint8) {
 	apart := h.size[own] - 1 - n[own]
 	across := h.size[other] - n[other]
 	loose := h.size[roleC] - n[roleC]
@@ -104,7 +105,7 @@ func side(d *[maxOrbits]int64, h *halo, n [4]int64, far int64, own, other uint32
 // w at degree 2, and its tailed triangles (z adjacent) become diamonds with
 // w at degree 3; its 4-cycles with another common non-adjacent z become
 // diamonds with w at degree 2, and its diamonds (z adjacent) become K4s.
-func common(d *[maxOrbits]int64, h *halo, n [4]int64, far int64) {
+func common(d *[maxOrbits]int64, h *halo, n [numRoles]int64, far int64) {
 	loose := h.size[roleA] - n[roleA] + h.size[roleB] - n[roleB]
 	tied := n[roleA] + n[roleB]
 	apart := h.size[roleC] - 1 - n[roleC]
@@ -135,7 +136,7 @@ func common(d *[maxOrbits]int64, h *halo, n [4]int64, far int64) {
 //	tailed-triangle tail → diamond degree 2 (adjacent);
 //	w, z common: 4-cycle → diamond degree 3 (apart), diamond degree 2 →
 //	K4 (adjacent).
-func endpoint4(d *[maxOrbits]int64, h *halo, own, other uint32) {
+func endpoint4(d *[maxOrbits]int64, h *halo, own, other uint8) {
 	a, b, c := h.size[own], h.size[other], h.size[roleC]
 	eAA := h.edges[own][own] / 2
 	eBB := h.edges[other][other] / 2
