@@ -57,27 +57,7 @@ func NewEngine(cat *catalog.Catalog) delta.Engine {
 	for p := range e.acc {
 		e.acc[p] = make([]int64, t.orbits)
 	}
-	return e
-}
-
-func (e *engine) Kind() delta.Kind { return e.t.kind }
-func (e *engine) MaxNodes() int    { return e.t.k }
-func (e *engine) NumOrbits() int   { return e.t.orbits }
-
-// Insert emits the changes of adding uv (u→v) to g, which lacks it.
-func (e *engine) Insert(g *delta.Graph, u, v uint32, emit delta.Emit) {
-	if u == v || g.HasEdge(u, v) {
-		panic("generic: Insert of a self-loop or present edge")
-	}
-	e.run(g, u, v, +1, emit)
-}
-
-// Delete emits the changes of removing uv (u→v) from g, which has it.
-func (e *engine) Delete(g *delta.Graph, u, v uint32, emit delta.Emit) {
-	if !g.HasEdge(u, v) {
-		panic("generic: Delete of an absent edge")
-	}
-	e.run(g, u, v, -1, emit)
+	return &front{t: t, r: e}
 }
 
 func (e *engine) run(g *delta.Graph, u, v uint32, sign int64, emit delta.Emit) {

@@ -23,27 +23,8 @@ type enumerator struct {
 // is built from per-node adjacency masks, so no adjacency is tested twice.
 // The engine is not safe for concurrent use.
 func NewEnumerator(cat *catalog.Catalog) delta.Engine {
-	return &enumerator{halo: halo{t: newTables(cat)}}
-}
-
-func (e *enumerator) Kind() delta.Kind { return e.t.kind }
-func (e *enumerator) MaxNodes() int    { return e.t.k }
-func (e *enumerator) NumOrbits() int   { return e.t.orbits }
-
-// Insert emits the changes of adding uv (u→v) to g, which lacks it.
-func (e *enumerator) Insert(g *delta.Graph, u, v uint32, emit delta.Emit) {
-	if u == v || g.HasEdge(u, v) {
-		panic("generic: Insert of a self-loop or present edge")
-	}
-	e.run(g, u, v, +1, emit)
-}
-
-// Delete emits the changes of removing uv (u→v) from g, which has it.
-func (e *enumerator) Delete(g *delta.Graph, u, v uint32, emit delta.Emit) {
-	if !g.HasEdge(u, v) {
-		panic("generic: Delete of an absent edge")
-	}
-	e.run(g, u, v, -1, emit)
+	t := newTables(cat)
+	return &front{t: t, r: &enumerator{halo: halo{t: t}}}
 }
 
 // run enumerates the sets around uv; sign is +1 for an insert, −1 for a
