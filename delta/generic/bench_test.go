@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"orbitwatch/delta"
+	"orbitwatch/delta/undirected"
 )
 
 var (
@@ -77,4 +78,5 @@ func BenchmarkUndirected4(b *testing.B) {
 	cat := mustCatalog(b, delta.Undirected, 4)
 	b.Run("generic-engine", func(b *testing.B) { churn(b, benchBA(), NewEngine(cat)) })
 	b.Run("generic-enumerator", func(b *testing.B) { churn(b, benchBA(), NewEnumerator(cat)) })
+	b.Run("specialised", func(b *testing.B) { churn(b, benchBA(), undirected.NewEngine(4)) })
 }
