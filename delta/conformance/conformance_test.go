@@ -200,6 +200,7 @@ func TestReferenceChecksFail(t *testing.T) {
 		{delta.Undirected, 4, 1, 1, 1, "Σ(d(w)−1) − 2·triangles"},
 		{delta.Undirected, 4, 3, 8, 4, "igraph motifs_randesu"},
 		{delta.Undirected, 4, 3, 6, 1, "consistent false"},
+		{delta.Undirected, 5, 0, 46, 1, "igraph motifs_randesu class"},
 		{delta.Directed, 3, 0, 0, 1, "networkx DiGraph.degree"},
 		{delta.Directed, 3, 1, 19, 3, "networkx.triadic_census"},
 		{delta.Directed, 3, 1, 32, 3, "igraph motifs_randesu"},

@@ -197,10 +197,11 @@ func (rp *replay) countGraphlets(nodes int) int {
 }
 
 // queueMotifs queues igraph motif censuses (Graph.motifs_randesu) of the
-// final graph for sizes 3 and 4 up to MaxNodes.
+// final graph for sizes 3 up to MaxNodes (igraph has directed classes up
+// to 4 nodes, undirected up to 6).
 func (rp *replay) queueMotifs(v *delta.Vectors) {
 	gr := pyref.FromDelta(rp.g)
-	for size := 3; size <= min(4, rp.c.MaxNodes); size++ {
+	for size := 3; size <= rp.c.MaxNodes; size++ {
 		ms := rp.ref.batch.Motifs(gr, size)
 		rp.queue(func() { rp.checkMotifs(size, v, *ms) })
 	}

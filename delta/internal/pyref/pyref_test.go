@@ -62,6 +62,32 @@ func TestUndirectedMotifs(t *testing.T) {
 	}
 }
 
+func TestUndirectedMotifs5(t *testing.T) {
+	// A 5-cycle: the only connected 5-node set is the cycle itself.
+	c5 := Graph{Nodes: 5, Edges: [][2]uint32{{0, 1}, {1, 2}, {2, 3}, {3, 4}, {4, 0}}}
+	ms, err := UndirectedMotifs(c5, 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 34 graphs on 5 nodes, 21 of them connected (OEIS A000088 and A001349;
+	// recalled from memory, the 21 also checked by delta/catalog).
+	var classes, counted int
+	var total uint64
+	for _, m := range ms {
+		classes++
+		if m.Counted {
+			counted++
+		}
+		total += m.Count
+		if m.Count > 0 && len(m.Edges) != 5 {
+			t.Fatalf("class %+v counted on a 5-cycle", m)
+		}
+	}
+	if classes != 34 || counted != 21 || total != 1 {
+		t.Fatalf("%d classes, %d counted, total %d", classes, counted, total)
+	}
+}
+
 func TestDirected(t *testing.T) {
 	// A cyclic triad 0→1→2→0 is MAN type 030C (Holland & Leinhardt's
 	// triad names as networkx uses them; recalled from memory).

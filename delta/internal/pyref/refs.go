@@ -64,7 +64,8 @@ func (b *Batch) Triangles(g Graph) *[]uint64 {
 }
 
 // Motifs adds igraph's motif census of size 3 or 4 (directed or undirected
-// as g is). Run fills the slice indexed by igraph class id.
+// as g is) or 5 (undirected only; igraph 0.10 has 5-node undirected
+// isoclasses). Run fills the slice indexed by igraph class id.
 func (b *Batch) Motifs(g Graph, size int) *[]Motif {
 	out := new([]Motif)
 	b.Call("motifs", map[string]any{"graph": g, "size": size}, out)
@@ -93,7 +94,7 @@ func Triangles(g Graph) ([]uint64, error) {
 }
 
 // UndirectedMotifs returns igraph's motif census of an undirected graph for
-// size 3 or 4.
+// size 3, 4 or 5.
 func UndirectedMotifs(g Graph, size int) ([]Motif, error) {
 	if g.Directed {
 		panic("pyref: UndirectedMotifs of a directed graph")
@@ -111,8 +112,8 @@ func DirectedMotifs(g Graph, size int) ([]Motif, error) {
 }
 
 func motifs(g Graph, size int) ([]Motif, error) {
-	if size != 3 && size != 4 {
-		panic("pyref: motif size must be 3 or 4")
+	if size != 3 && size != 4 && (size != 5 || g.Directed) {
+		panic("pyref: motif size must be 3 or 4, or 5 for undirected graphs")
 	}
 	var b Batch
 	r := b.Motifs(g, size)
