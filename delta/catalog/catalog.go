@@ -93,6 +93,9 @@ func (c *Catalog) Lookup(k int, code uint32) (graphlet int, orbits *[5]int16) {
 		panic("catalog: Lookup node count out of range")
 	}
 	t := &c.tables[k]
+	if int(code) >= len(t.graphlet) {
+		panic("catalog: Lookup code out of range")
+	}
 	return int(t.graphlet[code]), &t.orbits[code]
 }
 

@@ -2,6 +2,7 @@ package catalog
 
 import (
 	"fmt"
+	"strings"
 	"testing"
 
 	"orbitwatch/delta"
@@ -420,4 +421,35 @@ func BenchmarkLookup(b *testing.B) {
 		sink += g + int(o[0])
 	}
 	_ = sink
+}
+
+func TestLookupRange(t *testing.T) {
+	c, _ := New(delta.Undirected, 4)
+	for _, bad := range []struct {
+		k    int
+		code uint32
+	}{{1, 0}, {5, 0}, {4, 64}, {3, 8}} {
+		func() {
+			defer func() {
+				if r := recover(); r == nil || !strings.HasPrefix(fmt.Sprint(r), "catalog: ") {
+					t.Errorf("Lookup(%d, %d): panic %v, want a catalog: panic", bad.k, bad.code, r)
+				}
+			}()
+			c.Lookup(bad.k, bad.code)
+		}()
+	}
+}
+
+// BenchmarkBuild measures generating the largest catalogs from scratch.
+func BenchmarkBuild(b *testing.B) {
+	for _, s := range []struct {
+		kind delta.Kind
+		max  int
+	}{{delta.Undirected, 5}, {delta.Directed, 4}} {
+		b.Run(fmt.Sprintf("%v-%d", s.kind, s.max), func(b *testing.B) {
+			for i := 0; i < b.N; i++ {
+				build(s.kind, s.max)
+			}
+		})
+	}
 }
