@@ -4,21 +4,28 @@ import (
 	"math/rand/v2"
 	"sync"
 	"testing"
+	"time"
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/undirected"
 )
 
 var (
-	paymentsOnce sync.Once
-	payments     *delta.Graph
+	paymentsOnce [2]sync.Once
+	payments     [2]*delta.Graph
 	baOnce       sync.Once
 	ba           *delta.Graph
 )
 
-func benchPayments() *delta.Graph {
-	paymentsOnce.Do(func() { payments = paymentsGraph(1) })
-	return payments
+// benchPayments returns the payments graph with merchant hubs (skewed) or
+// without them, built once per test binary.
+func benchPayments(skewed bool) *delta.Graph {
+	i := 0
+	if skewed {
+		i = 1
+	}
+	paymentsOnce[i].Do(func() { payments[i] = paymentsGraph(1, skewed) })
+	return payments[i]
 }
 
 func benchBA() *delta.Graph {
@@ -30,6 +37,8 @@ func benchBA() *delta.Graph {
 // inserting it again, two events per iteration, as the applier would: the
 // engine runs before the graph changes. Emitted changes are summed into a
 // checksum rather than a matrix so the figure is the engine's own cost.
+// ns/event includes the bitmap updates of the graph; engine-ns/event is
+// the time inside the engine calls alone.
 func churn(b *testing.B, g *delta.Graph, eng delta.Engine) {
 	var list [][2]uint32
 	rng := rand.New(rand.NewPCG(7, 7))
@@ -40,6 +49,7 @@ func churn(b *testing.B, g *delta.Graph, eng delta.Engine) {
 	})
 	rng.Shuffle(len(list), func(i, j int) { list[i], list[j] = list[j], list[i] })
 	var emits, sum int64
+	var inEngine time.Duration
 	emit := func(x uint32, o int, d int64) {
 		emits++
 		sum += d * int64(x^uint32(o))
@@ -48,30 +58,41 @@ func churn(b *testing.B, g *delta.Graph, eng delta.Engine) {
 	b.ResetTimer()
 	for i := 0; b.Loop(); i++ {
 		e := list[i%len(list)]
+		t0 := time.Now()
 		eng.Delete(g, e[0], e[1], emit)
+		t1 := time.Now()
 		g.Unlink(e[0], e[1])
+		t2 := time.Now()
 		eng.Insert(g, e[0], e[1], emit)
+		inEngine += t1.Sub(t0) + time.Since(t2)
 		g.Link(e[0], e[1])
 	}
 	events := 2 * float64(b.N)
 	b.ReportMetric(float64(b.Elapsed().Nanoseconds())/events, "ns/event")
 	b.ReportMetric(events/b.Elapsed().Seconds(), "events/s")
+	b.ReportMetric(float64(inEngine.Nanoseconds())/events, "engine-ns/event")
 	b.ReportMetric(float64(emits)/events, "emits/event")
 	if sum != 0 {
 		b.Fatalf("delete and re-insert did not cancel: checksum %d", sum)
 	}
 }
 
-func BenchmarkDirected3(b *testing.B) {
-	cat := mustCatalog(b, delta.Directed, 3)
-	b.Run("engine", func(b *testing.B) { churn(b, benchPayments(), NewEngine(cat)) })
-	b.Run("enumerator", func(b *testing.B) { churn(b, benchPayments(), NewEnumerator(cat)) })
-}
+// BenchmarkDirected3 and BenchmarkDirected4 churn the payments graph with
+// merchant hubs ("hubs") and with uniformly popular merchants ("flat").
+func BenchmarkDirected3(b *testing.B) { benchDirected(b, 3) }
 
-func BenchmarkDirected4(b *testing.B) {
-	cat := mustCatalog(b, delta.Directed, 4)
-	b.Run("engine", func(b *testing.B) { churn(b, benchPayments(), NewEngine(cat)) })
-	b.Run("enumerator", func(b *testing.B) { churn(b, benchPayments(), NewEnumerator(cat)) })
+func BenchmarkDirected4(b *testing.B) { benchDirected(b, 4) }
+
+func benchDirected(b *testing.B, k int) {
+	cat := mustCatalog(b, delta.Directed, k)
+	for _, skewed := range []bool{true, false} {
+		shape := "flat"
+		if skewed {
+			shape = "hubs"
+		}
+		b.Run(shape+"/engine", func(b *testing.B) { churn(b, benchPayments(skewed), NewEngine(cat)) })
+		b.Run(shape+"/enumerator", func(b *testing.B) { churn(b, benchPayments(skewed), NewEnumerator(cat)) })
+	}
 }
 
 func BenchmarkUndirected4(b *testing.B) {

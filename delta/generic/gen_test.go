@@ -21,14 +21,16 @@ const (
 	baAttachments = 5
 )
 
-// paymentsGraph returns a seeded directed payments-like simple graph.
+// paymentsGraph returns a seeded directed payments-like simple graph; with
+// skewed false merchants are chosen uniformly (no merchant hubs, payroll
+// fan-out stays).
 // Node ids: merchants 0..M−1, employers M..M+E−1, consumers after them.
 // Each consumer pays 1..2·payPerBuyer−1 distinct merchants chosen by a Zipf
 // law (a few merchants are paid by very many), half the consumers are paid
 // by one employer (payroll fan-out from a few hubs), and a share of the
 // purchases is refunded by an arc back from the merchant (a reciprocal
 // pair). All of it is invented.
-func paymentsGraph(seed uint64) *delta.Graph {
+func paymentsGraph(seed uint64, skewed bool) *delta.Graph {
 	rng := rand.New(rand.NewPCG(seed, 0x9a7e))
 	zipf := rand.NewZipf(rng, payZipfS, payZipfV, payMerchants-1)
 	g := delta.NewGraph(delta.Directed)
@@ -41,7 +43,10 @@ func paymentsGraph(seed uint64) *delta.Graph {
 	}
 	for c := first; c < first+payConsumers; c++ {
 		for n := 1 + rng.IntN(2*payPerBuyer-1); n > 0; n-- {
-			m := uint32(zipf.Uint64())
+			m := uint32(rng.IntN(payMerchants))
+			if skewed {
+				m = uint32(zipf.Uint64())
+			}
 			link(c, m)
 			if rng.Float64() < refundShare {
 				link(m, c)
