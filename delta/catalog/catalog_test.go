@@ -405,6 +405,14 @@ func TestBitLayout(t *testing.T) {
 			t.Errorf("(%d,%d): PairBit %d ArcBit %d, want %d %d", c.i, c.j, PairBit(c.i, c.j), ArcBit(c.i, c.j), c.pair, c.arcs)
 		}
 	}
+	// Code ORs the same bits: {0,1} is bit 0 and {2,3} bit 5; 1→0 is bit
+	// 1 and 3→2 bit 11.
+	if got := Code(delta.Undirected, [][2]int{{0, 1}, {3, 2}}); got != 1|1<<5 {
+		t.Errorf("undirected Code %b", got)
+	}
+	if got := Code(delta.Directed, [][2]int{{1, 0}, {3, 2}}); got != 1<<1|1<<11 {
+		t.Errorf("directed Code %b", got)
+	}
 	defer func() {
 		if recover() == nil {
 			t.Error("PairBit(2,2) did not panic")

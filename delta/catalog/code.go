@@ -113,3 +113,17 @@ func degrees(kind delta.Kind, arcs []arc, k int, code uint32) (out, in []int) {
 	}
 	return out, in
 }
+
+// Code returns the adjacency code of a tuple from its edges (undirected,
+// either order) or arcs i→j (directed), given as tuple positions. Positions
+// must be distinct and below 5.
+func Code(kind delta.Kind, edges [][2]int) uint32 {
+	var code uint32
+	for _, e := range edges {
+		if e[0] >= maxK || e[1] >= maxK {
+			panic("catalog: Code position out of range")
+		}
+		code |= 1 << bitFor(kind, e[0], e[1])
+	}
+	return code
+}

@@ -18,23 +18,6 @@ const (
 	orbitTriangle = 3
 )
 
-// codeOf returns the adjacency code of nodes 0..k−1 with the given edges
-// (arcs when directed); every edge must lie inside 0..k−1.
-func codeOf(kind delta.Kind, k int, edges [][2]int) uint32 {
-	var code uint32
-	for _, e := range edges {
-		if e[0] >= k || e[1] >= k || e[0] == e[1] {
-			panic("conformance: representative edge outside the tuple")
-		}
-		if kind == delta.Directed {
-			code |= 1 << catalog.ArcBit(e[0], e[1])
-		} else {
-			code |= 1 << catalog.PairBit(e[0], e[1])
-		}
-	}
-	return code
-}
-
 // occurrences returns how many times graphlet gid occurs, from the orbit
 // vectors: Σ_x count(x, o) / |o| for each orbit o of the graphlet, which
 // must all agree and divide exactly (each occurrence puts |o| nodes in o).
@@ -164,7 +147,7 @@ func (rp *replay) checkCensus(cut int, v *delta.Vectors, census *pyref.Census) {
 	hit := map[int]string{}
 	disconnected := 0
 	for name, arcs := range census.Triads {
-		gid, _ := rp.c.Lookup(3, codeOf(delta.Directed, 3, arcs))
+		gid, _ := rp.c.Lookup(3, catalog.Code(delta.Directed, arcs))
 		if gid < 0 {
 			disconnected++
 			continue
@@ -216,7 +199,7 @@ func (rp *replay) checkMotifs(size int, v *delta.Vectors, ms []pyref.Motif) {
 	rp.t.Helper()
 	hit := map[int]int{}
 	for _, m := range ms {
-		gid, _ := rp.c.Lookup(size, codeOf(rp.c.Kind, size, m.Edges))
+		gid, _ := rp.c.Lookup(size, catalog.Code(rp.c.Kind, m.Edges))
 		if gid < 0 {
 			if m.Counted {
 				rp.t.Fatalf("%s, final graph: igraph counted disconnected %d-node class %d (%d)", rp.label, size, m.Class, m.Count)
