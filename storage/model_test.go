@@ -101,7 +101,12 @@ func (m *model) setBlob(name string, b []byte) {
 	}
 }
 
-func (m *model) watermark() time.Time { return time.Unix(1_800_000_000+int64(m.seq/7), 0).UTC() }
+func (m *model) watermark() time.Time {
+	if m.seq == 0 {
+		return time.Time{} // an empty store has no watermark
+	}
+	return time.Unix(1_800_000_000+int64(m.seq/7), 0).UTC()
+}
 
 // checkpoint returns the change since the last checkpoint and forgets it.
 func (m *model) checkpoint() *Checkpoint {

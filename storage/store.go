@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"sync"
 	"time"
 
@@ -103,6 +104,9 @@ func OpenReadOnly(dir string) (*Store, error) {
 	}
 	st, err := openBadger(dir, true)
 	if err != nil {
+		if strings.Contains(err.Error(), "truncate required") {
+			return nil, fmt.Errorf("storage: open %s read-only: the store was not closed cleanly; open it read-write once to recover it: %w", dir, err)
+		}
 		return nil, err
 	}
 	if err = st.readSettings(); err == nil {
@@ -144,6 +148,9 @@ func openBadger(dir string, readOnly bool) (st *Store, err error) {
 		WithDetectConflicts(false).
 		WithMetricsEnabled(false).
 		WithReadOnly(readOnly)
+	if err := checkTables(dir, opts); err != nil {
+		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
+	}
 	defer func() {
 		if p := recover(); p != nil {
 			st, err = nil, fmt.Errorf("storage: open %s: damaged Badger directory: %v", dir, p)
@@ -273,19 +280,20 @@ func (st *Store) repair() error {
 			var vers []uint64
 			var old []byte
 			had := false
+			found := false
 			for ; it.Valid() && bytes.Equal(it.Item().Key(), key); it.Next() {
 				item := it.Item()
 				if item.Version() > st.complete {
 					vers = append(vers, item.Version())
-					continue
-				}
-				if had = !item.IsDeletedOrExpired(); had {
-					var err error
-					if old, err = item.ValueCopy(nil); err != nil {
-						return err
+				} else if !found {
+					found = true
+					if had = !item.IsDeletedOrExpired(); had {
+						var err error
+						if old, err = item.ValueCopy(nil); err != nil {
+							return err
+						}
 					}
 				}
-				break
 			}
 			for _, v := range vers {
 				var err error
@@ -301,7 +309,6 @@ func (st *Store) repair() error {
 			if len(vers) > 0 {
 				st.torn[string(key)] = vers
 			}
-			it.Seek(append(key, 0))
 		}
 	}
 	if err := wb.Flush(); err != nil {

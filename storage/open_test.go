@@ -1,0 +1,185 @@
+package storage
+
+import (
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	badger "github.com/dgraph-io/badger/v4"
+
+	"orbitwatch/delta"
+)
+
+// TestSettingsMismatch: reopening with any other setting names it.
+func TestSettingsMismatch(t *testing.T) {
+	dir := t.TempDir()
+	st := mustOpen(t, dir, undirected4)
+	if err := st.Close(); err != nil {
+		t.Fatal(err)
+	}
+	cases := []struct {
+		field string
+		edit  func(*Settings)
+	}{
+		{"Kind", func(s *Settings) { s.Kind = delta.Directed }},
+		{"MaxNodes", func(s *Settings) { s.MaxNodes = 5 }},
+		{"NumOrbits", func(s *Settings) { s.NumOrbits = 73 }},
+		{"Window", func(s *Settings) { s.Window = time.Hour }},
+	}
+	for _, c := range cases {
+		s := undirected4
+		c.edit(&s)
+		st, err := Open(dir, s)
+		if err == nil {
+			st.Close()
+			t.Fatalf("%s changed: open succeeded", c.field)
+		}
+		if !strings.Contains(err.Error(), "setting "+c.field+" ") {
+			t.Fatalf("%s changed: error %q does not name the setting", c.field, err)
+		}
+	}
+	st = mustOpen(t, dir, undirected4)
+	st.Close()
+}
+
+// TestNotOurs: missing, foreign and plain-Badger directories are refused.
+func TestNotOurs(t *testing.T) {
+	base := t.TempDir()
+	if _, err := OpenReadOnly(filepath.Join(base, "missing")); err == nil {
+		t.Fatal("read-only open of a missing directory succeeded")
+	}
+	foreign := filepath.Join(base, "foreign")
+	if err := os.MkdirAll(foreign, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(foreign, "notes.txt"), []byte("ledger notes"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, open := range []func() (*Store, error){
+		func() (*Store, error) { return Open(foreign, undirected4) },
+		func() (*Store, error) { return OpenReadOnly(foreign) },
+	} {
+		if st, err := open(); err == nil || !strings.Contains(err.Error(), "not an orbitwatch store") {
+			if st != nil {
+				st.Close()
+			}
+			t.Fatalf("foreign directory: err %v", err)
+		}
+	}
+	plain := filepath.Join(base, "plain")
+	db, err := badger.OpenManaged(badger.DefaultOptions(plain).WithLoggingLevel(badger.WARNING))
+	if err != nil {
+		t.Fatal(err)
+	}
+	txn := db.NewTransactionAt(1, true)
+	if err := txn.Set([]byte("k"), []byte("v")); err != nil {
+		t.Fatal(err)
+	}
+	if err := txn.CommitAt(1, nil); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if st, err := Open(plain, undirected4); err == nil || !strings.Contains(err.Error(), "without a settings record") {
+		if st != nil {
+			st.Close()
+		}
+		t.Fatalf("plain Badger directory: err %v", err)
+	}
+	if _, err := Open(base, Settings{Kind: delta.Undirected, MaxNodes: 4}); err == nil {
+		t.Fatal("open with NumOrbits 0 succeeded")
+	}
+}
+
+// TestDamaged: a store whose Badger files were truncated, deleted or
+// overwritten gives an error from Open and OpenReadOnly, never a panic or a
+// silently fresh store.
+func TestDamaged(t *testing.T) {
+	cases := []struct {
+		name   string
+		damage func(t *testing.T, dir string)
+	}{
+		{"MANIFEST truncated", func(t *testing.T, dir string) { truncate(t, filepath.Join(dir, badger.ManifestFilename), 5) }},
+		{"MANIFEST deleted", func(t *testing.T, dir string) { remove(t, filepath.Join(dir, badger.ManifestFilename)) }},
+		{"table deleted", func(t *testing.T, dir string) { remove(t, firstFile(t, dir, ".sst")) }},
+		{"table truncated", func(t *testing.T, dir string) {
+			f := firstFile(t, dir, ".sst")
+			fi, err := os.Stat(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			truncate(t, f, fi.Size()/2)
+		}},
+		{"table overwritten", func(t *testing.T, dir string) {
+			f := firstFile(t, dir, ".sst")
+			fi, err := os.Stat(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			junk := make([]byte, fi.Size())
+			for i := range junk {
+				junk[i] = byte(mix(uint64(i)))
+			}
+			if err := os.WriteFile(f, junk, 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			dir := t.TempDir()
+			st := mustOpen(t, dir, undirected4)
+			m := newModel(delta.Undirected, 15, 11, 400)
+			m.run(3000)
+			if err := st.Commit(m.checkpoint()); err != nil {
+				t.Fatal(err)
+			}
+			if err := st.Close(); err != nil {
+				t.Fatal(err)
+			}
+			c.damage(t, dir)
+			for mode, open := range map[string]func() (*Store, error){
+				"read-write": func() (*Store, error) { return Open(dir, undirected4) },
+				"read-only":  func() (*Store, error) { return OpenReadOnly(dir) },
+			} {
+				st, err := open()
+				if err == nil {
+					// Damage Badger cannot see at open must still surface
+					// when the state is read.
+					_, err = st.Load()
+					st.Close()
+				}
+				if err == nil {
+					t.Fatalf("%s open and load of a damaged store succeeded", mode)
+				}
+				t.Logf("%s: %v", mode, err)
+			}
+		})
+	}
+}
+
+func truncate(t *testing.T, path string, size int64) {
+	t.Helper()
+	if err := os.Truncate(path, size); err != nil {
+		t.Fatal(err)
+	}
+}
+
+func remove(t *testing.T, path string) {
+	t.Helper()
+	if err := os.Remove(path); err != nil {
+		t.Fatal(err)
+	}
+}
+
+func firstFile(t *testing.T, dir, ext string) string {
+	t.Helper()
+	m, err := filepath.Glob(filepath.Join(dir, "*"+ext))
+	if err != nil || len(m) == 0 {
+		t.Fatalf("no %s file in %s (%v)", ext, dir, err)
+	}
+	return m[0]
+}
