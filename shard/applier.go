@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"orbitwatch/delta"
+	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
@@ -32,9 +33,9 @@ type Applier struct {
 	count  *Counting
 	graph  *delta.Graph
 	vec    *delta.Vectors
-	names  []string
-	ids    map[string]uint32
+	dict   *storage.Dict
 	window *window
+	edges  [][2]uint32 // pairs whose multiplicity changed since ResetTouched
 
 	seq       uint64
 	watermark time.Time
@@ -56,7 +57,7 @@ func NewApplier(c *Counting, win time.Duration) *Applier {
 		count:    c,
 		graph:    delta.NewGraph(c.Catalog.Kind),
 		vec:      delta.NewVectors(0, c.Catalog.NumOrbits()),
-		ids:      make(map[string]uint32),
+		dict:     storage.NewDict(),
 		rejected: make(map[string]uint64),
 		epoch:    1,
 	}
@@ -129,6 +130,17 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 	return a.fault
 }
 
+// RejectLine uses up log position seq for a line that did not decode to an
+// event: it changes nothing but the position and the count of rejects by
+// reason.
+func (a *Applier) RejectLine(seq uint64, reason string) {
+	if seq <= a.seq {
+		panic("shard: RejectLine with a sequence that does not increase")
+	}
+	a.seq = seq
+	a.rejected[reason]++
+}
+
 func (a *Applier) rejectWith(ev stream.Event, err error) error {
 	a.rejected[err.Error()]++
 	return &Reject{Seq: a.seq, Line: ev.Line, Reason: err}
@@ -143,15 +155,15 @@ func (a *Applier) check(ev stream.Event) error {
 		return delta.ErrSelfLoop
 	}
 	if ev.Op == stream.OpRemove {
-		u, ok1 := a.ids[ev.Src]
-		v, ok2 := a.ids[ev.Dst]
+		u, ok1 := a.dict.Lookup(ev.Src)
+		v, ok2 := a.dict.Lookup(ev.Dst)
 		if !ok1 || !ok2 || !a.graph.HasEdge(u, v) {
 			return ErrUnknown
 		}
 	}
 	if ev.Op == stream.OpAdd {
-		u, ok1 := a.ids[ev.Src]
-		v, ok2 := a.ids[ev.Dst]
+		u, ok1 := a.dict.Lookup(ev.Src)
+		v, ok2 := a.dict.Lookup(ev.Dst)
 		if ok1 && ok2 && a.graph.Multiplicity(u, v) == ^uint32(0) {
 			return delta.ErrMultiplicity
 		}
@@ -164,6 +176,7 @@ func (a *Applier) increment(u, v uint32) error {
 		a.count.Engine.Insert(a.graph, u, v, a.emit)
 	}
 	_, err := a.graph.Increment(u, v)
+	a.edges = append(a.edges, [2]uint32{u, v})
 	return err
 }
 
@@ -172,6 +185,7 @@ func (a *Applier) decrement(u, v uint32) error {
 		a.count.Engine.Delete(a.graph, u, v, a.emit)
 	}
 	_, err := a.graph.Decrement(u, v)
+	a.edges = append(a.edges, [2]uint32{u, v})
 	return err
 }
 
@@ -193,15 +207,12 @@ func (a *Applier) expire() error {
 }
 
 func (a *Applier) intern(id string) uint32 {
-	if x, ok := a.ids[id]; ok {
-		return x
+	x, isNew := a.dict.Intern(id)
+	if isNew {
+		a.graph.Grow(a.dict.Len())
+		a.vec.Grow(a.dict.Len())
+		a.touchMark = append(a.touchMark, 0)
 	}
-	x := uint32(len(a.names))
-	a.names = append(a.names, id)
-	a.ids[id] = x
-	a.graph.Grow(len(a.names))
-	a.vec.Grow(len(a.names))
-	a.touchMark = append(a.touchMark, 0)
 	return x
 }
 
@@ -220,14 +231,24 @@ func (a *Applier) Vectors() *delta.Vectors { return a.vec }
 // Counting returns the counters in use.
 func (a *Applier) Counting() *Counting { return a.count }
 
-// Names returns node names by dense id. The slice belongs to the applier.
-func (a *Applier) Names() []string { return a.names }
+// Names returns node names by dense id, in order of first appearance.
+func (a *Applier) Names() []string {
+	names := make([]string, a.dict.Len())
+	for i := range names {
+		names[i] = a.dict.Name(uint32(i))
+	}
+	return names
+}
+
+// Dict returns the node dictionary.
+func (a *Applier) Dict() *storage.Dict { return a.dict }
 
 // Lookup returns the dense id of a node name.
-func (a *Applier) Lookup(id string) (uint32, bool) {
-	x, ok := a.ids[id]
-	return x, ok
-}
+func (a *Applier) Lookup(id string) (uint32, bool) { return a.dict.Lookup(id) }
+
+// ChangedEdges returns the pairs whose multiplicity changed since the last
+// ResetTouched (with repeats).
+func (a *Applier) ChangedEdges() [][2]uint32 { return a.edges }
 
 // Touched returns the nodes whose vectors changed since the last
 // ResetTouched, in order of first change.
@@ -236,6 +257,7 @@ func (a *Applier) Touched() []uint32 { return a.touched }
 // ResetTouched starts a new touched set.
 func (a *Applier) ResetTouched() {
 	a.touched = a.touched[:0]
+	a.edges = a.edges[:0]
 	a.epoch++
 }
 

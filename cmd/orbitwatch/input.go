@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 
+	"orbitwatch/internal/progress"
 	"orbitwatch/shard"
 	"orbitwatch/stream"
 )
@@ -59,10 +60,21 @@ func (f *inputFlags) options() stream.Options {
 type ingest struct {
 	flags    *inputFlags
 	applier  *shard.Applier
-	afterSeq func(seq uint64) error // called after every data line, accepted or not
+	afterSeq func(seq uint64) error // called after every data line applied or rejected
+
+	// For resuming (backfill): lines at or below resume are read past
+	// without being applied; skip says a whole input is known to be done
+	// and how many lines it has; fileDone hears of every input read to its
+	// end; stop is polled between lines.
+	resume   uint64
+	skip     func(i int) (lines uint64, done bool)
+	fileDone func(i int, lines uint64)
+	stop     func() error
+	progress *progress.Reporter
+	// appendRejects keeps an existing rejects file and adds to it.
+	appendRejects bool
 
 	read      uint64
-	badLines  map[string]uint64
 	rejectOut *csv.Writer
 	seq       uint64
 }
@@ -72,19 +84,34 @@ func (in *ingest) run() error {
 		return errors.New("no --input given")
 	}
 	if in.flags.rejects != "" {
-		f, err := os.Create(in.flags.rejects)
+		mode := os.O_CREATE | os.O_WRONLY | os.O_TRUNC
+		if in.appendRejects {
+			mode = os.O_CREATE | os.O_WRONLY | os.O_APPEND
+		}
+		f, err := os.OpenFile(in.flags.rejects, mode, 0o644)
 		if err != nil {
 			return err
 		}
 		defer f.Close()
 		in.rejectOut = csv.NewWriter(f)
-		in.rejectOut.Write([]string{"input", "line", "reason", "raw"})
+		if st, err := f.Stat(); err == nil && st.Size() == 0 {
+			in.rejectOut.Write([]string{"input", "line", "reason", "raw"})
+		}
 		defer in.rejectOut.Flush()
 	}
-	in.badLines = map[string]uint64{}
-	for _, path := range in.flags.inputs {
-		if err := in.file(path); err != nil {
+	for i, path := range in.flags.inputs {
+		if in.skip != nil {
+			if lines, done := in.skip(i); done {
+				in.seq += lines
+				continue
+			}
+		}
+		lines, err := in.file(path)
+		if err != nil {
 			return err
+		}
+		if in.fileDone != nil {
+			in.fileDone(i, lines)
 		}
 	}
 	if in.rejectOut != nil {
@@ -94,45 +121,69 @@ func (in *ingest) run() error {
 	return nil
 }
 
-func (in *ingest) file(path string) error {
+// file applies one input and returns its number of data lines.
+func (in *ingest) file(path string) (uint64, error) {
 	r, err := stream.Open(path, in.flags.options())
 	if err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return 0, fmt.Errorf("%s: %w", path, err)
 	}
 	defer r.Close()
 	base := in.seq
-	for {
+	var offset int64
+	for n := 0; ; n++ {
+		if in.progress != nil && n%4096 == 0 {
+			o := r.Offset()
+			in.progress.Add(0, o-offset)
+			offset = o
+		}
+		if in.stop != nil && n%1024 == 0 {
+			if err := in.stop(); err != nil {
+				return 0, err
+			}
+		}
 		ev, err := r.Next()
 		if err == io.EOF {
-			return nil
+			if in.progress != nil {
+				in.progress.Add(0, r.Offset()-offset)
+			}
+			return in.seq - base, nil
 		}
 		var le *stream.LineError
 		switch {
 		case errors.As(err, &le):
 			in.seq = base + uint64(le.Line)
+			if in.seq <= in.resume {
+				continue
+			}
 			in.read++
-			in.badLines[reasonClass(le.Reason)]++
+			in.applier.RejectLine(in.seq, reasonClass(le.Reason))
 			if err := in.reject(path, le.Line, le.Reason, string(le.Raw)); err != nil {
-				return err
+				return 0, err
 			}
 		case err != nil:
-			return fmt.Errorf("%s: %w", path, err)
+			return 0, fmt.Errorf("%s: %w", path, err)
 		default:
 			in.seq = base + uint64(ev.Line)
+			if in.seq <= in.resume {
+				continue
+			}
 			in.read++
 			err := in.applier.Apply(in.seq, ev)
 			var rj *shard.Reject
 			if errors.As(err, &rj) {
 				if err := in.reject(path, ev.Line, rj.Reason.Error(), ""); err != nil {
-					return err
+					return 0, err
 				}
 			} else if err != nil {
-				return fmt.Errorf("%s line %d: %w", path, ev.Line, err)
+				return 0, fmt.Errorf("%s line %d: %w", path, ev.Line, err)
 			}
+		}
+		if in.progress != nil {
+			in.progress.Add(1, 0)
 		}
 		if in.afterSeq != nil {
 			if err := in.afterSeq(in.seq); err != nil {
-				return err
+				return 0, err
 			}
 		}
 	}
@@ -162,10 +213,6 @@ func (in *ingest) summary(name string) {
 	st := in.applier.Stats()
 	reasons := map[string]uint64{}
 	var rejected uint64
-	for r, n := range in.badLines {
-		reasons[r] += n
-		rejected += n
-	}
 	for r, n := range st.Rejected {
 		reasons[r] += n
 		rejected += n

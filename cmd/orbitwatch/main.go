@@ -14,6 +14,8 @@ type command struct {
 	run     func(args []string) int
 }
 
+// commands is filled by the command table here and by init functions of
+// files that add commands of their own.
 var commands = map[string]command{
 	"catalog": {"list the graphlets and orbits counted for a kind and size", runCatalog},
 	"count":   {"apply an edge log and recount the final graph statically", runCount},

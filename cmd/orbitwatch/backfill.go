@@ -1,0 +1,252 @@
+package main
+
+import (
+	"context"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"os"
+	"os/signal"
+	"strconv"
+	"strings"
+	"syscall"
+	"time"
+
+	"orbitwatch/internal/progress"
+	"orbitwatch/shard"
+	"orbitwatch/storage"
+	"orbitwatch/stream"
+)
+
+func init() {
+	commands["backfill"] = command{"apply archived edge logs to a data directory, with crash-safe checkpoints", runBackfill}
+}
+
+// inputsBlob is the storage blob recording which inputs a data directory
+// has applied: by content hash, so a renamed file is still known.
+const inputsBlob = "inputs"
+
+type inputRecord struct {
+	SHA256 string `json:"sha256"`
+	Name   string `json:"name"` // as last given, for messages only
+	Lines  uint64 `json:"lines"`
+	Done   bool   `json:"done"`
+}
+
+func runBackfill(args []string) int {
+	fs := flag.NewFlagSet("backfill", flag.ContinueOnError)
+	var cf countingFlags
+	var inf inputFlags
+	cf.register(fs)
+	inf.register(fs)
+	data := fs.String("data", "", "data directory (created when missing)")
+	windowFlag := fs.String("window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
+	every := fs.Uint64("checkpoint-every", 0, "checkpoint after every N data lines (default 100000 unless --checkpoint-interval is set)")
+	interval := fs.Duration("checkpoint-interval", 0, "checkpoint when this much wall time has passed since the last one")
+	keepFlag := fs.String("keep-history", "", "keep checkpoint versions this far back in event time, e.g. 90d (default: all)")
+	if err := fs.Parse(args); err != nil {
+		return 2
+	}
+	if *data == "" {
+		fmt.Fprintln(os.Stderr, "orbitwatch backfill: --data DIR is required")
+		return 2
+	}
+	if *every == 0 && *interval == 0 {
+		*every = 100000
+	}
+	window, err := parseDays(*windowFlag)
+	if err != nil {
+		return fail("backfill", fmt.Errorf("--window: %w", err))
+	}
+	keep, err := parseDays(*keepFlag)
+	if err != nil {
+		return fail("backfill", fmt.Errorf("--keep-history: %w", err))
+	}
+	c, err := cf.counting()
+	if err != nil {
+		return fail("backfill", err)
+	}
+	// Every input is checked before anything is applied, so a file that is
+	// not an edge log changes no state.
+	hashes, total, err := checkInputs(inf)
+	if err != nil {
+		return fail("backfill", err)
+	}
+	st, err := storage.Open(*data, storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits(), Window: window})
+	if err != nil {
+		return fail("backfill", err)
+	}
+	defer st.Close()
+	state, err := st.Load()
+	if err != nil {
+		return fail("backfill", err)
+	}
+	a, err := shard.Restore(c, window, state)
+	if err != nil {
+		return fail("backfill", err)
+	}
+	records, err := matchInputs(state.Blobs[inputsBlob], inf.inputs, hashes)
+	if err != nil {
+		return fail("backfill", err)
+	}
+
+	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer cancel()
+	b := &backfill{st: st, applier: a, records: records, keep: keep}
+	rep := progress.New(os.Stderr, total, "backfill")
+	in := &ingest{
+		flags: &inf, applier: a, resume: state.Seq, progress: rep, appendRejects: true,
+		skip: func(i int) (uint64, bool) {
+			r := records[i]
+			if r.Done {
+				rep.Add(0, sizeOf(inf.inputs[i]))
+			}
+			return r.Lines, r.Done
+		},
+		fileDone: func(i int, lines uint64) { records[i].Lines, records[i].Done = lines, true },
+		stop:     func() error { return context.Cause(ctx) },
+	}
+	last := time.Now()
+	in.afterSeq = func(seq uint64) error {
+		if (*every > 0 && seq%*every == 0) || (*interval > 0 && time.Since(last) >= *interval) {
+			last = time.Now()
+			return b.checkpoint()
+		}
+		return nil
+	}
+	runErr := in.run()
+	rep.Done()
+	if runErr == nil || errors.Is(runErr, context.Canceled) || errors.Is(runErr, errStrict) {
+		// Stopped cleanly (finished, Ctrl-C, or --strict): what was applied
+		// is made durable, so a rerun goes on from here.
+		if err := b.checkpoint(); err != nil {
+			return fail("backfill", err)
+		}
+	}
+	in.summary("backfill")
+	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges)\n", *data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges())
+	if errors.Is(runErr, context.Canceled) {
+		fmt.Fprintln(os.Stderr, "orbitwatch backfill: interrupted; rerun with the same arguments to go on")
+		return 130
+	}
+	if runErr != nil {
+		return exitCode("backfill", runErr)
+	}
+	return 0
+}
+
+type backfill struct {
+	st      *storage.Store
+	applier *shard.Applier
+	records []inputRecord
+	keep    time.Duration
+}
+
+// checkpoint commits what changed since the last one, with the input
+// records, unless nothing was applied since.
+func (b *backfill) checkpoint() error {
+	if b.applier.Seq() <= b.st.Seq() {
+		return nil
+	}
+	blob, err := json.Marshal(b.records)
+	if err != nil {
+		return err
+	}
+	if err := b.st.Commit(b.applier.Checkpoint(map[string][]byte{inputsBlob: blob})); err != nil {
+		return fmt.Errorf("checkpoint at seq %d: %w", b.applier.Seq(), err)
+	}
+	b.applier.ResetTouched()
+	if b.keep > 0 && !b.applier.Watermark().IsZero() {
+		if seq, ok := b.st.SeqAtTime(b.applier.Watermark().Add(-b.keep)); ok {
+			if err := b.st.SetDiscardBefore(seq); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// checkInputs opens every input once (a bad header is an error here, before
+// any state changes) and hashes its content.
+func checkInputs(inf inputFlags) ([]string, int64, error) {
+	if len(inf.inputs) == 0 {
+		return nil, 0, errors.New("no --input given")
+	}
+	var total int64
+	hashes := make([]string, len(inf.inputs))
+	for i, path := range inf.inputs {
+		if path == "-" {
+			return nil, 0, errors.New("backfill reads files, not standard input: it must know a file again after a crash")
+		}
+		r, err := stream.Open(path, inf.options())
+		if err != nil {
+			return nil, 0, fmt.Errorf("%s: %w", path, err)
+		}
+		r.Close()
+		h, err := stream.HashFile(path)
+		if err != nil {
+			return nil, 0, fmt.Errorf("%s: %w", path, err)
+		}
+		hashes[i] = hex.EncodeToString(h[:])
+		total += sizeOf(path)
+	}
+	return hashes, total, nil
+}
+
+func sizeOf(path string) int64 {
+	if fi, err := os.Stat(path); err == nil {
+		return fi.Size()
+	}
+	return 0
+}
+
+// matchInputs lines the given inputs up with the recorded ones: the inputs
+// already applied must come first, in the same order, with the same
+// content; new inputs may follow.
+func matchInputs(blob []byte, paths []string, hashes []string) ([]inputRecord, error) {
+	var recs []inputRecord
+	if len(blob) > 0 {
+		if err := json.Unmarshal(blob, &recs); err != nil {
+			return nil, fmt.Errorf("stored input records: %w", err)
+		}
+	}
+	if len(paths) < len(recs) {
+		return nil, fmt.Errorf("this data directory has applied %d inputs, %d given: give the same files in the same order, then any new ones", len(recs), len(paths))
+	}
+	for i := range paths {
+		if i < len(recs) {
+			if recs[i].SHA256 != hashes[i] {
+				return nil, fmt.Errorf("input %d (%s) is not the content this data directory applied at that position (%s, sha256 %s…)", i+1, paths[i], recs[i].Name, recs[i].SHA256[:12])
+			}
+			if !recs[i].Done && i+1 < len(recs) {
+				return nil, fmt.Errorf("stored input records are inconsistent at input %d", i+1)
+			}
+			recs[i].Name = paths[i]
+			continue
+		}
+		recs = append(recs, inputRecord{SHA256: hashes[i], Name: paths[i]})
+	}
+	return recs, nil
+}
+
+// parseDays parses a duration that may be written in days ("30d", "1.5d")
+// as well as Go's units ("12h", "90m"). Empty means zero.
+func parseDays(s string) (time.Duration, error) {
+	if s == "" {
+		return 0, nil
+	}
+	if d, ok := strings.CutSuffix(s, "d"); ok {
+		f, err := strconv.ParseFloat(d, 64)
+		if err != nil || f <= 0 {
+			return 0, fmt.Errorf("bad duration %q", s)
+		}
+		return time.Duration(f * float64(24*time.Hour)), nil
+	}
+	d, err := time.ParseDuration(s)
+	if err != nil || d <= 0 {
+		return 0, fmt.Errorf("bad duration %q", s)
+	}
+	return d, nil
+}
