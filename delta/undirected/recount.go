@@ -9,9 +9,11 @@ import (
 type recounter struct{ maxNodes, orbits int }
 
 // NewRecounter returns a static recount of orbits on 2..maxNodes nodes
-// (maxNodes 2, 3 or 4). It runs in O(Σ_x deg(x)²) time on
-// runtime.GOMAXPROCS goroutines plus a K4 enumeration over a degree
-// orientation; the result does not depend on the number of goroutines.
+// (maxNodes 2, 3 or 4). It snapshots the graph into rows relabelled by
+// degree, intersects each edge's rows once for its triangles, enumerates
+// triangles, K4s and 4-cycles from their lowest or highest node, and solves
+// the orbit equations per node; all passes run on runtime.GOMAXPROCS
+// goroutines and the result does not depend on their number.
 func NewRecounter(maxNodes int) delta.Recounter {
 	return &recounter{maxNodes: maxNodes, orbits: numOrbits(maxNodes)}
 }
@@ -23,96 +25,71 @@ func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
 	n := c.numNodes()
 	vec := delta.NewVectors(n, r.orbits)
 	if r.maxNodes == 2 {
-		for x := range n {
-			vec.Set(uint32(x), oEdge, uint64(c.deg(uint32(x))))
+		for x := range uint32(n) {
+			vec.Set(c.orig[x], oEdge, uint64(c.deg(x)))
 		}
 		return vec
 	}
 	tri, t := edgeTriangles(c)
-	var k4 []uint64
-	if r.maxNodes == 4 {
-		k4 = cliques(c)
+	far := make([]int64, n)
+	forEachNode(n, func(_ int, x uint32) {
+		for _, y := range c.nbrs(x) {
+			far[x] += int64(c.deg(y)) - 1
+		}
+	})
+	if r.maxNodes == 3 {
+		forEachNode(n, func(_ int, x uint32) {
+			o := smallOrbits(c, t, far, x)
+			setRow(vec, c.orig[x], o[:4])
+		})
+		return vec
 	}
-	marks := make([][]uint32, workers())
-	common := make([][]uint32, workers())
-	touched := make([][]uint32, workers())
-	forEachNode(n, func(w int, x uint32) {
-		if r.maxNodes == 3 {
-			o := smallOrbits(c, t, x)
-			copy(vec.Row(x), o[:])
-			return
-		}
-		q := localCounts(c, tri, t, x, scratch(marks, w, n), scratch(common, w, n), &touched[w])
-		o := solve(&q, int64(k4[x]))
-		row := vec.Row(x)
-		for i, v := range o {
-			if v < 0 {
-				panic(fmt.Sprintf("undirected: negative orbit %d count %d at node %d", i, v, x))
-			}
-			row[i] = uint64(v)
-		}
+	dd2, k4 := triangleSums(c, tri)
+	cyc := cycles(c)
+	forEachNode(n, func(_ int, x uint32) {
+		q := localCounts(c, tri, t, far, x)
+		q.cycle, q.diamondDeg2 = cyc[x], dd2[x]
+		o := solve(&q, k4[x])
+		setRow(vec, c.orig[x], o[:])
 	})
 	return vec
 }
 
-// edgeTriangles returns tri, aligned with c.adj, where tri[i] for the entry
-// y of x's row is |N(x) ∩ N(y)|, the triangles on edge xy, and t[x], the
-// triangles at x: t(x) = ½ Σ_{y∈N(x)} tri(x,y).
-func edgeTriangles(c *csr) (tri []uint32, t []uint64) {
-	n := c.numNodes()
-	tri = make([]uint32, len(c.adj))
-	t = make([]uint64, n)
-	marks := make([][]uint32, workers())
-	forEachNode(n, func(w int, x uint32) {
-		mark := scratch(marks, w, n)
-		for _, y := range c.nbrs(x) {
-			mark[y] = x + 1
+// setRow stores a node's solved counts; a negative one is a bug in the
+// equations, not bad input.
+func setRow(vec *delta.Vectors, x uint32, o []int64) {
+	row := vec.Row(x)
+	for i, v := range o {
+		if v < 0 {
+			panic(fmt.Sprintf("undirected: negative orbit %d count %d at node %d", i, v, x))
 		}
-		var sum uint64
-		for i := c.off[x]; i < c.off[x+1]; i++ {
-			var k uint32
-			for _, z := range c.nbrs(c.adj[i]) {
-				if mark[z] == x+1 {
-					k++
-				}
-			}
-			tri[i] = k
-			sum += uint64(k)
-		}
-		t[x] = sum / 2
-		for _, y := range c.nbrs(x) {
-			mark[y] = 0
-		}
-	})
-	return tri, t
+		row[i] = uint64(v)
+	}
 }
 
-// smallOrbits returns orbits 0–3 of x:
+// smallOrbits returns orbits 0–3 of x, with far(x) = Σ_{y∈N(x)} (d(y) − 1):
 //
-//	o0 = d,  o3 = t(x),  o2 = C(d,2) − t(x),
-//	o1 = Σ_{y∈N(x)} (d(y) − 1) − 2t(x)
+//	o0 = d,  o3 = t(x),  o2 = C(d,2) − t(x),  o1 = far(x) − 2t(x)
 //
 // (a 3-path x–y–z with z adjacent to x is a triangle, met once per
 // middle y ∈ {y, z}).
-func smallOrbits(c *csr, t []uint64, x uint32) [4]uint64 {
-	d := uint64(c.deg(x))
-	var far uint64
-	for _, y := range c.nbrs(x) {
-		far += uint64(c.deg(y)) - 1
-	}
-	return [4]uint64{d, far - 2*t[x], d*(d-1)/2 - t[x], t[x]}
+func smallOrbits(c *csr, t, far []int64, x uint32) [maxOrbits]int64 {
+	d := int64(c.deg(x))
+	return [maxOrbits]int64{d, far[x] - 2*t[x], d*(d-1)/2 - t[x], t[x]}
 }
 
 // local holds, for one node x, the number of non-induced copies of each
 // 4-node pattern with x at a given position (a copy is a subgraph, not
 // necessarily induced, on 4 distinct nodes).
 type local struct {
-	small [4]uint64
+	small [maxOrbits]int64
 	// starCentre = C(d,3): 3-stars centred on x.
 	starCentre int64
 	// starLeaf = Σ_{y∈N(x)} C(d(y)−1, 2): 3-stars with x a leaf.
 	starLeaf int64
-	// pathEnd: 3-edge paths x–y–z–w, = Σ_{z≠x} cn(x,z)(d(z)−1) − 2t(x).
+	// pathEnd: 3-edge paths x–y–z–w, = Σ_{y∈N(x)} (far(y) − (d−1)) − 2t(x):
+	// w ranges over N(z) \ {y}, minus w = x, which happens once per
+	// triangle edge (y, z).
 	pathEnd int64
 	// pathMid: 3-edge paths y–x–z–w, = Σ_{z∈N(x)} (d−1)(d(z)−1) − 2t(x).
 	pathMid int64
@@ -134,57 +111,28 @@ type local struct {
 	diamondDeg2 int64
 }
 
-// localCounts fills the non-induced pattern counts of x. mark and common
-// are zeroed scratch arrays of length n and are zero again on return;
-// cn(x,z) = |N(x) ∩ N(z)| is gathered in common over the 2-hop paths.
-func localCounts(c *csr, tri []uint32, t []uint64, x uint32, mark, common []uint32, touched *[]uint32) local {
-	var q local
-	q.small = smallOrbits(c, t, x)
+// localCounts fills the non-induced pattern counts of x that its own row
+// and its neighbours' degrees, triangles and far sums give; cycle and
+// diamondDeg2 come from the enumerations (cycles, triangleSums).
+func localCounts(c *csr, tri []uint32, t, far []int64, x uint32) local {
+	q := local{small: smallOrbits(c, t, far, x)}
 	d := int64(c.deg(x))
-	tx := int64(t[x])
-	for _, y := range c.nbrs(x) {
-		mark[y] = x + 1
-	}
-	seen := (*touched)[:0]
-	var twice int64 // 2·diamondDeg2
+	tx := t[x]
 	for i := c.off[x]; i < c.off[x+1]; i++ {
 		y := c.adj[i]
 		dy := int64(c.deg(y))
 		k := int64(tri[i])
 		q.starLeaf += (dy - 1) * (dy - 2) / 2
+		q.pathEnd += far[y] - (d - 1)
 		q.pathMid += (d - 1) * (dy - 1)
-		q.tailEnd += int64(t[y]) - k
+		q.tailEnd += t[y] - k
 		q.tailDeg2 += k * (dy - 2)
 		q.diamondDeg3 += k * (k - 1) / 2
-		for j := c.off[y]; j < c.off[y+1]; j++ {
-			z := c.adj[j]
-			if z == x {
-				continue
-			}
-			if common[z] == 0 {
-				seen = append(seen, z)
-			}
-			common[z]++
-			if mark[z] == x+1 {
-				twice += int64(tri[j]) - 1
-			}
-		}
-	}
-	for _, z := range seen {
-		k := int64(common[z])
-		q.pathEnd += k * int64(c.deg(z)-1)
-		q.cycle += k * (k - 1) / 2
-		common[z] = 0
-	}
-	*touched = seen
-	for _, y := range c.nbrs(x) {
-		mark[y] = 0
 	}
 	q.starCentre = d * (d - 1) * (d - 2) / 6
 	q.pathEnd -= 2 * tx
 	q.pathMid -= 2 * tx
 	q.tailDeg3 = tx * (d - 2)
-	q.diamondDeg2 = twice / 2
 	return q
 }
 
@@ -207,10 +155,7 @@ func localCounts(c *csr, tri []uint32, t []uint64, x uint32, mark, common []uint
 //
 // The system is triangular once o14 is known, solved here top down.
 func solve(q *local, k int64) [maxOrbits]int64 {
-	var o [maxOrbits]int64
-	for i, v := range q.small {
-		o[i] = int64(v)
-	}
+	o := q.small
 	o[oClique] = k
 	o[oDiamondDeg3] = q.diamondDeg3 - 3*k
 	o[oDiamondDeg2] = q.diamondDeg2 - 3*k

@@ -3,6 +3,7 @@ package undirected
 import (
 	"math/rand/v2"
 	"runtime"
+	"slices"
 	"testing"
 
 	"orbitwatch/delta"
@@ -100,4 +101,42 @@ func TestRecountDeterministic(t *testing.T) {
 	runtime.GOMAXPROCS(prev)
 	mustEqual(t, "one goroutine vs default", one, many)
 	mustEqual(t, "four goroutines vs default", four, many)
+}
+
+// TestCountCommon checks both intersection strategies (merge and binary
+// search) against a set count on random ascending slices.
+func TestCountCommon(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for trial := range 200 {
+		sizes := [2]int{rng.IntN(40), rng.IntN(40)}
+		if trial%2 == 0 {
+			sizes[1] = 17*sizes[0] + rng.IntN(50)
+		}
+		var s [2][]uint32
+		in := map[uint32]int{}
+		for i := range s {
+			seen := map[uint32]bool{}
+			for len(s[i]) < sizes[i] {
+				v := uint32(rng.IntN(4 * (sizes[0] + sizes[1] + 1)))
+				if !seen[v] {
+					seen[v] = true
+					s[i] = append(s[i], v)
+					in[v]++
+				}
+			}
+			slices.Sort(s[i])
+		}
+		want := 0
+		for _, k := range in {
+			if k == 2 {
+				want++
+			}
+		}
+		if got := countCommon(s[0], s[1]); got != want {
+			t.Fatalf("trial %d: countCommon %d, want %d", trial, got, want)
+		}
+		if got := countCommon(s[1], s[0]); got != want {
+			t.Fatalf("trial %d swapped: countCommon %d, want %d", trial, got, want)
+		}
+	}
 }
