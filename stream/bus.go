@@ -1,0 +1,234 @@
+package stream
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"slices"
+	"time"
+
+	"github.com/nats-io/nats.go/jetstream"
+)
+
+// DefaultDuplicateWindow is how long the server remembers message ids to
+// drop a republished event. It bounds how late a republish of the same
+// file is still caught; the server keeps one id per message of the window.
+const DefaultDuplicateWindow = time.Hour
+
+// EnsureStream creates the file-backed stream name on subject with the
+// given replicas and DefaultDuplicateWindow, or returns it when it exists
+// with that configuration. A stream of that name with other subjects,
+// replicas or duplicate window is an error (it is not changed).
+// Precondition: replicas ≥ 1.
+func EnsureStream(ctx context.Context, js jetstream.JetStream, name, subject string, replicas int) (jetstream.Stream, error) {
+	if replicas < 1 {
+		panic("stream: EnsureStream: replicas must be at least 1")
+	}
+	cfg := jetstream.StreamConfig{
+		Name:       name,
+		Subjects:   []string{subject},
+		Storage:    jetstream.FileStorage,
+		Retention:  jetstream.LimitsPolicy,
+		Replicas:   replicas,
+		Duplicates: DefaultDuplicateWindow,
+	}
+	s, err := js.CreateStream(ctx, cfg)
+	if err == nil {
+		return s, nil
+	}
+	if !errors.Is(err, jetstream.ErrStreamNameAlreadyInUse) {
+		return nil, fmt.Errorf("stream: create stream %s: %w", name, err)
+	}
+	s, err = js.Stream(ctx, name)
+	if err != nil {
+		return nil, fmt.Errorf("stream: stream %s: %w", name, err)
+	}
+	have := s.CachedInfo().Config
+	if !slices.Equal(have.Subjects, cfg.Subjects) || have.Replicas != cfg.Replicas || have.Duplicates != cfg.Duplicates {
+		return nil, fmt.Errorf("stream: stream %s exists with subjects %v, replicas %d, duplicate window %v; want %v, %d, %v",
+			name, have.Subjects, have.Replicas, have.Duplicates, cfg.Subjects, cfg.Replicas, cfg.Duplicates)
+	}
+	return s, nil
+}
+
+// PublisherOptions configures a Publisher.
+type PublisherOptions struct {
+	// JSON publishes the JSON form instead of the binary one.
+	JSON bool
+	// Stream, when set, makes the server reject a message whose subject
+	// is not stored in this stream.
+	Stream string
+	// MaxPending is how many publishes may await their ack before Publish
+	// waits for them all; 0 means 4096.
+	MaxPending int
+}
+
+// PublishStats counts acknowledged publishes.
+type PublishStats struct {
+	// Stored is the number of events the stream stored.
+	Stored int
+	// Duplicates is the number of events the server dropped as already
+	// stored within the duplicate window (same event id).
+	Duplicates int
+	// LastSeq is the highest stream sequence acknowledged.
+	LastSeq uint64
+}
+
+// Publisher publishes events asynchronously with their id as the
+// Nats-Msg-Id, so that the server stores each id once. It is not safe for
+// concurrent use.
+type Publisher struct {
+	js      jetstream.JetStream
+	subject string
+	opts    PublisherOptions
+	pending []pendingAck
+	stats   PublishStats
+}
+
+type pendingAck struct {
+	id  string
+	fut jetstream.PubAckFuture
+}
+
+// NewPublisher returns a Publisher to subject.
+func NewPublisher(js jetstream.JetStream, subject string, opts PublisherOptions) *Publisher {
+	if opts.MaxPending <= 0 {
+		opts.MaxPending = 4096
+	}
+	return &Publisher{js: js, subject: subject, opts: opts}
+}
+
+// Publish sends e without waiting for its ack, except that every
+// MaxPending events it waits for all acks (see Flush). An event without an
+// id, or one the JSON form cannot carry, is an error and is not sent.
+func (p *Publisher) Publish(ctx context.Context, e Event) error {
+	if e.ID == "" {
+		return fmt.Errorf("stream: publish: event at line %d has no id", e.Line)
+	}
+	// A new buffer per message: the client keeps it for retries.
+	var data []byte
+	if p.opts.JSON {
+		var err error
+		if data, err = EncodeJSON(nil, e); err != nil {
+			return err
+		}
+	} else {
+		data = EncodeBinary(nil, e)
+	}
+	popts := []jetstream.PublishOpt{jetstream.WithMsgID(e.ID)}
+	if p.opts.Stream != "" {
+		popts = append(popts, jetstream.WithExpectStream(p.opts.Stream))
+	}
+	fut, err := p.js.PublishAsync(p.subject, data, popts...)
+	if err != nil {
+		return fmt.Errorf("stream: publish event %s: %w", e.ID, err)
+	}
+	p.pending = append(p.pending, pendingAck{id: e.ID, fut: fut})
+	if len(p.pending) >= p.opts.MaxPending {
+		return p.Flush(ctx)
+	}
+	return nil
+}
+
+// Flush waits for the acks of all events published so far. It returns the
+// server's rejects, each naming its event id, joined; the events acked
+// count in Stats either way.
+func (p *Publisher) Flush(ctx context.Context) error {
+	var errs []error
+	for i, pa := range p.pending {
+		select {
+		case ack := <-pa.fut.Ok():
+			if ack.Duplicate {
+				p.stats.Duplicates++
+			} else {
+				p.stats.Stored++
+			}
+			p.stats.LastSeq = max(p.stats.LastSeq, ack.Sequence)
+		case err := <-pa.fut.Err():
+			errs = append(errs, fmt.Errorf("stream: publish event %s: %w", pa.id, err))
+		case <-ctx.Done():
+			p.pending = p.pending[:copy(p.pending, p.pending[i:])]
+			return errors.Join(append(errs, ctx.Err())...)
+		}
+	}
+	clear(p.pending)
+	p.pending = p.pending[:0]
+	return errors.Join(errs...)
+}
+
+// Stats returns the counts of acknowledged publishes.
+func (p *Publisher) Stats() PublishStats { return p.stats }
+
+// MessageError is a stream message that does not decode to an event. The
+// consumer goes on with the next message on the following Next call.
+type MessageError struct {
+	// Seq is the stream sequence of the message.
+	Seq uint64
+	Err error
+}
+
+func (e *MessageError) Error() string {
+	return fmt.Sprintf("message %d: %v", e.Seq, e.Err)
+}
+
+func (e *MessageError) Unwrap() error { return e.Err }
+
+// Consumer reads a stream in order from a start sequence, through an
+// ordered consumer (no acks, recreated by the client after a gap).
+type Consumer struct {
+	it      jetstream.MessagesContext
+	pending uint64
+}
+
+// NewConsumer starts reading stream name at stream sequence startSeq (0
+// and 1 both mean the first message). To resume after the last applied
+// sequence s, pass s+1.
+func NewConsumer(ctx context.Context, js jetstream.JetStream, name string, startSeq uint64) (*Consumer, error) {
+	cfg := jetstream.OrderedConsumerConfig{DeliverPolicy: jetstream.DeliverAllPolicy}
+	if startSeq > 1 {
+		cfg.DeliverPolicy, cfg.OptStartSeq = jetstream.DeliverByStartSequencePolicy, startSeq
+	}
+	oc, err := js.OrderedConsumer(ctx, name, cfg)
+	if err != nil {
+		return nil, fmt.Errorf("stream: consumer on %s: %w", name, err)
+	}
+	it, err := oc.Messages()
+	if err != nil {
+		return nil, fmt.Errorf("stream: consumer on %s: %w", name, err)
+	}
+	return &Consumer{it: it}, nil
+}
+
+// Next waits for the next message and returns its stream sequence and
+// event, with ev.Line set to the sequence and ev.ID, when the message has
+// none, taken from its Nats-Msg-Id. A message that does not decode gives a
+// *MessageError (with its sequence) and the consumer goes on; any other
+// error (ctx done, connection closed) is from the transport.
+func (c *Consumer) Next(ctx context.Context) (uint64, Event, error) {
+	msg, err := c.it.Next(jetstream.NextContext(ctx))
+	if err != nil {
+		return 0, Event{}, fmt.Errorf("stream: consume: %w", err)
+	}
+	md, err := msg.Metadata()
+	if err != nil {
+		return 0, Event{}, fmt.Errorf("stream: consume: %w", err)
+	}
+	seq := md.Sequence.Stream
+	c.pending = md.NumPending
+	ev, err := DecodeMessage(msg.Data())
+	if err != nil {
+		return seq, Event{}, &MessageError{Seq: seq, Err: err}
+	}
+	ev.Line = int(seq)
+	if ev.ID == "" {
+		ev.ID = msg.Headers().Get(jetstream.MsgIDHeader)
+	}
+	return seq, ev, nil
+}
+
+// Pending is the number of messages in the stream after the last one
+// returned by Next, as the server said with it; 0 means caught up then.
+func (c *Consumer) Pending() uint64 { return c.pending }
+
+// Close stops the consumer.
+func (c *Consumer) Close() { c.it.Stop() }
