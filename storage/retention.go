@@ -49,10 +49,11 @@ func (st *Store) Floor() uint64 {
 	return st.floor
 }
 
-// Compact merges Badger's levels now, which applies the discard timestamp
-// to everything already flushed from memory, then runs value-log GC.
-// Background compaction does the same eventually; Compact is for tests,
-// tooling and quiet hours.
+// Compact merges Badger's levels into one now when tables sit on more than
+// one level, applying the discard timestamp to them, then runs value-log
+// GC. Data still in memory or in level 0 alone is compacted by Badger's own
+// compactions as it grows, and on Close. Dropping old versions is thus
+// eventual; reads below the floor fail either way.
 func (st *Store) Compact() error {
 	if st.readOnly {
 		return fmt.Errorf("storage: compact: store opened read-only")
