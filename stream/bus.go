@@ -58,8 +58,10 @@ type PublisherOptions struct {
 	// Stream, when set, makes the server reject a message whose subject
 	// is not stored in this stream.
 	Stream string
-	// MaxPending is how many publishes may await their ack before Publish
-	// waits for them all; 0 means 4096.
+	// MaxPending is how many publishes may await their ack; at that many
+	// Publish first waits for the oldest. 0 means 1024. The client's own
+	// limit (jetstream.WithPublishAsyncMaxPending, 4000 by default) must
+	// not be lower.
 	MaxPending int
 }
 
@@ -81,7 +83,9 @@ type Publisher struct {
 	js      jetstream.JetStream
 	subject string
 	opts    PublisherOptions
+	// pending[head:] await their acks, oldest first.
 	pending []pendingAck
+	head    int
 	stats   PublishStats
 }
 
@@ -93,14 +97,16 @@ type pendingAck struct {
 // NewPublisher returns a Publisher to subject.
 func NewPublisher(js jetstream.JetStream, subject string, opts PublisherOptions) *Publisher {
 	if opts.MaxPending <= 0 {
-		opts.MaxPending = 4096
+		opts.MaxPending = 1024
 	}
 	return &Publisher{js: js, subject: subject, opts: opts}
 }
 
-// Publish sends e without waiting for its ack, except that every
-// MaxPending events it waits for all acks (see Flush). An event without an
-// id, or one the JSON form cannot carry, is an error and is not sent.
+// Publish sends e without waiting for its ack, except that with
+// MaxPending acks outstanding it first waits for the oldest. It returns
+// the server's reject of that oldest event, if any (naming its id). An
+// event without an id, or one the JSON form cannot carry, is an error and
+// is not sent.
 func (p *Publisher) Publish(ctx context.Context, e Event) error {
 	if e.ID == "" {
 		return fmt.Errorf("stream: publish: event at line %d has no id", e.Line)
@@ -123,36 +129,59 @@ func (p *Publisher) Publish(ctx context.Context, e Event) error {
 	if err != nil {
 		return fmt.Errorf("stream: publish event %s: %w", e.ID, err)
 	}
+	if p.head > 0 && p.head >= len(p.pending)/2 {
+		n := copy(p.pending, p.pending[p.head:])
+		clear(p.pending[n:])
+		p.pending, p.head = p.pending[:n], 0
+	}
 	p.pending = append(p.pending, pendingAck{id: e.ID, fut: fut})
-	if len(p.pending) >= p.opts.MaxPending {
-		return p.Flush(ctx)
+	if len(p.pending)-p.head >= p.opts.MaxPending {
+		return p.awaitOldest(ctx)
 	}
 	return nil
 }
 
+// awaitOldest waits for the ack of the oldest outstanding publish and
+// counts it; on ctx done it returns ctx.Err() and leaves it outstanding.
+func (p *Publisher) awaitOldest(ctx context.Context) error {
+	pa := p.pending[p.head]
+	select {
+	case ack := <-pa.fut.Ok():
+		if ack.Duplicate {
+			p.stats.Duplicates++
+		} else {
+			p.stats.Stored++
+		}
+		p.stats.LastSeq = max(p.stats.LastSeq, ack.Sequence)
+	case err := <-pa.fut.Err():
+		err = fmt.Errorf("stream: publish event %s: %w", pa.id, err)
+		p.pending[p.head] = pendingAck{}
+		p.head++
+		return err
+	case <-ctx.Done():
+		return ctx.Err()
+	}
+	p.pending[p.head] = pendingAck{}
+	p.head++
+	return nil
+}
+
 // Flush waits for the acks of all events published so far. It returns the
-// server's rejects, each naming its event id, joined; the events acked
-// count in Stats either way.
+// server's rejects, each naming its event id, joined; acked events count
+// in Stats either way.
 func (p *Publisher) Flush(ctx context.Context) error {
 	var errs []error
-	for i, pa := range p.pending {
-		select {
-		case ack := <-pa.fut.Ok():
-			if ack.Duplicate {
-				p.stats.Duplicates++
-			} else {
-				p.stats.Stored++
+	for p.head < len(p.pending) {
+		if err := p.awaitOldest(ctx); err != nil {
+			errs = append(errs, err)
+			if ctx.Err() != nil {
+				break
 			}
-			p.stats.LastSeq = max(p.stats.LastSeq, ack.Sequence)
-		case err := <-pa.fut.Err():
-			errs = append(errs, fmt.Errorf("stream: publish event %s: %w", pa.id, err))
-		case <-ctx.Done():
-			p.pending = p.pending[:copy(p.pending, p.pending[i:])]
-			return errors.Join(append(errs, ctx.Err())...)
 		}
 	}
-	clear(p.pending)
-	p.pending = p.pending[:0]
+	if p.head == len(p.pending) {
+		p.pending, p.head = p.pending[:0], 0
+	}
 	return errors.Join(errs...)
 }
 

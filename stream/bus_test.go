@@ -238,6 +238,15 @@ func TestPublishRejectedByServer(t *testing.T) {
 	if err == nil || !strings.Contains(err.Error(), "pay-000000") {
 		t.Errorf("publish to the wrong stream: %v, want a reject naming the event", err)
 	}
+	// With room for one outstanding ack, the second Publish waits for the
+	// first and returns its reject.
+	p1 := NewPublisher(js, "edges.in", PublisherOptions{Stream: "ELSEWHERE", MaxPending: 1})
+	if err := p1.Publish(ctx, payments(2)[1]); err == nil || !strings.Contains(err.Error(), "pay-000001") {
+		t.Errorf("Publish with MaxPending 1 to the wrong stream: %v, want the reject of pay-000001", err)
+	}
+	if err := p1.Flush(ctx); err != nil {
+		t.Errorf("Flush with nothing outstanding: %v", err)
+	}
 	if err := p.Publish(ctx, Event{Src: "a", Dst: "b", Line: 4}); err == nil {
 		t.Error("an event without id was published")
 	}
@@ -285,4 +294,48 @@ func TestRestartKeepsStream(t *testing.T) {
 	}
 	defer c.Close()
 	consumeN(t, ctx, c, 1, evs)
+}
+
+// BenchmarkPublishConsume publishes b.N events (binary form) to an
+// embedded server and reads them back, and reports the rate of each.
+func BenchmarkPublishConsume(b *testing.B) {
+	srv, err := StartEmbedded(EmbeddedOptions{StoreDir: b.TempDir()})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer srv.Shutdown()
+	nc, err := nats.Connect(srv.URL())
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer nc.Close()
+	js, _ := jetstream.New(nc)
+	ctx := context.Background()
+	if _, err := EnsureStream(ctx, js, "BENCH", "bench.in", 1); err != nil {
+		b.Fatal(err)
+	}
+	evs := payments(b.N)
+	b.ResetTimer()
+	p := NewPublisher(js, "bench.in", PublisherOptions{})
+	for _, e := range evs {
+		if err := p.Publish(ctx, e); err != nil {
+			b.Fatal(err)
+		}
+	}
+	if err := p.Flush(ctx); err != nil {
+		b.Fatal(err)
+	}
+	published := b.Elapsed()
+	c, err := NewConsumer(ctx, js, "BENCH", 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer c.Close()
+	for range evs {
+		if _, _, err := c.Next(ctx); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(b.N)/published.Seconds(), "published/s")
+	b.ReportMetric(float64(b.N)/(b.Elapsed()-published).Seconds(), "consumed/s")
 }

@@ -26,7 +26,8 @@
 // counts once; blank lines (skipped by CSV, skipped in JSON lines) are not
 // counted. A bad line counts.
 //
-// An event without an id gets one derived from the content: the hex of the
+// An event without an id (no id column or key, or an empty one) gets one
+// derived from the content: the hex of the
 // first 16 bytes of the SHA-256 of the (decompressed) content from its
 // first byte to the end of the event's record, then ":" and the line
 // number. The same file published twice, or gzipped, or read from standard
