@@ -1,0 +1,284 @@
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"os"
+	"sort"
+	"strconv"
+	"text/tabwriter"
+	"time"
+
+	"orbitwatch/delta/catalog"
+	"orbitwatch/storage"
+	"orbitwatch/stream"
+)
+
+func init() {
+	commands["query"] = command{"print one node's orbit vector as of a checkpoint of a data directory", runQuery}
+}
+
+// NodeVector is one node's orbit vector at one checkpoint, in the shape
+// `query --json` prints and the HTTP API serves:
+//
+//	{"node":…,"kind":…,"max_nodes":…,"seq":…,"event_time":…,"orbits":[c0,c1,…]}
+//
+// Seq is the checkpoint's sequence; EventTime its event-time watermark
+// (RFC 3339 with nanoseconds, UTC), nil (JSON null) when no event before it
+// carried a time. Orbits[i] is the count of orbit i of the catalog for Kind
+// and MaxNodes. JSON strings are UTF-8, so a node id that is not valid UTF-8
+// is not carried byte for byte.
+type NodeVector struct {
+	Node      string     `json:"node"`
+	Kind      string     `json:"kind"`
+	MaxNodes  int        `json:"max_nodes"`
+	Seq       uint64     `json:"seq"`
+	EventTime *time.Time `json:"event_time"`
+	Orbits    []uint64   `json:"orbits"`
+}
+
+func runQuery(args []string) int {
+	c := newReadCommand("query", true)
+	node := c.fs.String("node", "", "node id to read (required)")
+	asJSON := c.fs.Bool("json", false, "print one JSON object instead of a table")
+	all := c.fs.Bool("all", false, "list orbits with a zero count too")
+	if code := c.parse(args, c.required("node")); code != 0 {
+		return code
+	}
+	st, cut, err := c.open()
+	if err != nil {
+		return fail("query", err)
+	}
+	defer st.Close()
+	vec, seq, wm, err := st.VectorAt(*node, cut.Seq)
+	if errors.Is(err, storage.ErrUnknownNode) {
+		return fail("query", fmt.Errorf("node %q is not in %s at checkpoint %d", *node, c.dir, cut.Seq))
+	}
+	if err != nil {
+		return fail("query", err)
+	}
+	set := st.Settings()
+	nv := NodeVector{Node: *node, Kind: set.Kind.String(), MaxNodes: set.MaxNodes, Seq: seq, EventTime: eventTime(wm), Orbits: vec}
+	if *asJSON {
+		b, err := json.Marshal(nv)
+		if err != nil {
+			return fail("query", err)
+		}
+		if _, err := os.Stdout.Write(append(b, '\n')); err != nil {
+			return fail("query", err)
+		}
+		return 0
+	}
+	cat, err := catalog.New(set.Kind, set.MaxNodes)
+	if err != nil {
+		return fail("query", err)
+	}
+	if err := writeVectorTable(os.Stdout, cat, nv, *all); err != nil {
+		return fail("query", err)
+	}
+	return 0
+}
+
+// writeVectorTable prints a header line with node, seq and event time, then
+// one row per orbit (id, count, orbit name, graphlet name), zeros only when
+// all is set.
+func writeVectorTable(w *os.File, cat *catalog.Catalog, nv NodeVector, all bool) error {
+	fmt.Fprintf(w, "node %s  seq %d  event time %s\n", strconv.Quote(nv.Node), nv.Seq, formatEventTime(nv.EventTime, "none"))
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "orbit\tcount\torbit name\tgraphlet")
+	for i, c := range nv.Orbits {
+		if c == 0 && !all {
+			continue
+		}
+		o := cat.Orbits[i]
+		fmt.Fprintf(tw, "%d\t%d\t%s\t%s\n", i, c, o.Name, cat.Graphlets[o.Graphlet].Name)
+	}
+	return tw.Flush()
+}
+
+// readCommand holds the flags every read-side command shares: --data, and
+// for commands that read one checkpoint, --at or --seq.
+type readCommand struct {
+	name  string
+	fs    *flag.FlagSet
+	dir   string
+	point *pointFlags // nil when the command takes no --at/--seq
+}
+
+func newReadCommand(name string, withPoint bool) *readCommand {
+	c := &readCommand{name: name, fs: flag.NewFlagSet(name, flag.ContinueOnError)}
+	c.fs.StringVar(&c.dir, "data", "", "data directory written by backfill (required)")
+	if withPoint {
+		c.point = &pointFlags{}
+		c.point.register(c.fs)
+	}
+	return c
+}
+
+// parse parses args and checks --data, the point flags and then checks in
+// order. It returns 0 to go on, else the exit code (2: usage) after
+// printing the reason.
+func (c *readCommand) parse(args []string, checks ...func() error) int {
+	if err := c.fs.Parse(args); err != nil {
+		return 2
+	}
+	if c.dir == "" {
+		return c.usage(errors.New("--data DIR is required"))
+	}
+	if c.fs.NArg() > 0 {
+		return c.usage(fmt.Errorf("unexpected argument %q", c.fs.Arg(0)))
+	}
+	if c.point != nil {
+		if err := c.point.check(); err != nil {
+			return c.usage(err)
+		}
+	}
+	for _, check := range checks {
+		if err := check(); err != nil {
+			return c.usage(err)
+		}
+	}
+	return 0
+}
+
+// required is a check that flag name was given.
+func (c *readCommand) required(name string) func() error {
+	return func() error {
+		given := false
+		c.fs.Visit(func(f *flag.Flag) { given = given || f.Name == name })
+		if !given {
+			return fmt.Errorf("--%s is required", name)
+		}
+		return nil
+	}
+}
+
+// usage prints err and the command's flags and returns exit code 2.
+func (c *readCommand) usage(err error) int {
+	fmt.Fprintf(os.Stderr, "orbitwatch %s: %v\n", c.name, err)
+	c.fs.Usage()
+	return 2
+}
+
+// open opens the data directory read-only and resolves the checkpoint the
+// point flags name (the latest without them).
+func (c *readCommand) open() (*storage.Store, storage.CheckpointInfo, error) {
+	st, err := openData(c.dir)
+	if err != nil {
+		return nil, storage.CheckpointInfo{}, err
+	}
+	p := c.point
+	if p == nil {
+		p = &pointFlags{}
+	}
+	cut, err := p.resolve(st)
+	if err != nil {
+		st.Close()
+		return nil, storage.CheckpointInfo{}, err
+	}
+	return st, cut, nil
+}
+
+// openData opens dir read-only and checks that it holds a checkpoint. A
+// missing directory, one that is not an orbitwatch store, or a corrupt one
+// is an error; nothing is written to it.
+func openData(dir string) (*storage.Store, error) {
+	st, err := storage.OpenReadOnly(dir)
+	if err != nil {
+		return nil, fmt.Errorf("data directory %s: %w", dir, err)
+	}
+	if len(st.Checkpoints()) == 0 {
+		st.Close()
+		return nil, fmt.Errorf("data directory %s holds no complete checkpoint", dir)
+	}
+	return st, nil
+}
+
+// pointFlags choose a checkpoint: --at TIME (event time) or --seq N (log
+// position); neither means the latest.
+type pointFlags struct {
+	at     string
+	seq    uint64
+	seqSet bool
+}
+
+func (p *pointFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&p.at, "at", "", "read as of the latest checkpoint whose event-time watermark is ≤ TIME (RFC 3339 or Unix seconds/ms)")
+	fs.Func("seq", "read as of the latest checkpoint at or before log position N", func(s string) error {
+		n, err := strconv.ParseUint(s, 10, 64)
+		if err != nil {
+			return fmt.Errorf("not a sequence number: %q", s)
+		}
+		p.seq, p.seqSet = n, true
+		return nil
+	})
+}
+
+func (p *pointFlags) check() error {
+	if p.at != "" && p.seqSet {
+		return errors.New("give --at or --seq, not both")
+	}
+	if p.at != "" {
+		if _, err := stream.ParseTime(p.at); err != nil {
+			return fmt.Errorf("--at: %w", err)
+		}
+	}
+	return nil
+}
+
+// resolve returns the checkpoint the flags name: for --seq N the latest
+// with Seq ≤ N, for --at T the latest whose watermark is ≤ T (a checkpoint
+// before any event time has the smallest watermark, so it is ≤ every T),
+// else the latest. st must hold a checkpoint.
+func (p *pointFlags) resolve(st *storage.Store) (storage.CheckpointInfo, error) {
+	cps := st.Checkpoints()
+	first := cps[0]
+	var seq uint64
+	switch {
+	case p.seqSet:
+		if p.seq < first.Seq {
+			if st.Floor() > 0 {
+				return storage.CheckpointInfo{}, fmt.Errorf("seq %d is before the retained history, which starts at checkpoint %d", p.seq, first.Seq)
+			}
+			return storage.CheckpointInfo{}, fmt.Errorf("no checkpoint at or before seq %d: the first checkpoint is at seq %d", p.seq, first.Seq)
+		}
+		seq = p.seq
+	case p.at != "":
+		t, err := stream.ParseTime(p.at)
+		if err != nil {
+			return storage.CheckpointInfo{}, fmt.Errorf("--at: %w", err)
+		}
+		s, ok := st.SeqAtTime(t)
+		if !ok {
+			if s > 0 {
+				return storage.CheckpointInfo{}, fmt.Errorf("the latest checkpoint at or before %s (seq %d) is before the retained history, which starts at checkpoint %d", t.Format(time.RFC3339Nano), s, first.Seq)
+			}
+			return storage.CheckpointInfo{}, fmt.Errorf("no checkpoint at or before event time %s: the first checkpoint (seq %d) has event time %s", t.Format(time.RFC3339Nano), first.Seq, formatEventTime(eventTime(first.Watermark), "none"))
+		}
+		seq = s
+	default:
+		return cps[len(cps)-1], nil
+	}
+	i := sort.Search(len(cps), func(i int) bool { return cps[i].Seq > seq }) - 1
+	return cps[i], nil
+}
+
+// eventTime is a checkpoint watermark for output: nil when no event had
+// carried a time, else the time in UTC.
+func eventTime(wm time.Time) *time.Time {
+	if wm.IsZero() {
+		return nil
+	}
+	t := wm.UTC()
+	return &t
+}
+
+// formatEventTime writes t as RFC 3339 with nanoseconds, or none for nil.
+func formatEventTime(t *time.Time, none string) string {
+	if t == nil {
+		return none
+	}
+	return t.Format(time.RFC3339Nano)
+}
