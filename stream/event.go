@@ -62,7 +62,6 @@ type Event struct {
 // being Unix milliseconds: 1e11 seconds is the year 5138, 1e11 ms is 1973.
 const msThreshold = 100_000_000_000
 
-var errBadTS = errors.New("bad ts")
 
 // ParseTime reads an event time: RFC 3339 with an optional fraction
 // ("2026-03-01T09:30:00.25+01:00"), or a decimal Unix time with an optional
@@ -75,21 +74,25 @@ func ParseTime(s string) (time.Time, error) { return parseTime(s) }
 
 func parseTime[T string | []byte](s T) (time.Time, error) {
 	if len(s) == 0 {
-		return time.Time{}, errBadTS
+		return time.Time{}, errors.New("empty time")
 	}
 	if c := s[0]; c == '-' || c == '+' || (c >= '0' && c <= '9') {
 		if t, ok := parseUnix(s); ok {
 			return t, nil
 		}
 		if c == '-' || c == '+' {
-			return time.Time{}, errBadTS
+			return time.Time{}, badTime(s)
 		}
 	}
 	t, err := time.Parse(time.RFC3339Nano, string(s))
 	if err != nil || !time.Unix(0, t.UnixNano()).Equal(t) {
-		return time.Time{}, errBadTS
+		return time.Time{}, badTime(s)
 	}
 	return t.UTC(), nil
+}
+
+func badTime[T string | []byte](s T) error {
+	return fmt.Errorf("bad time %q: want RFC 3339 or Unix seconds or milliseconds, years 1678 to 2262", s)
 }
 
 // parseUnix reads [sign]digits[.digits] exactly, without floating point.

@@ -177,10 +177,22 @@ func chooseFormat(format, path string, br *bufio.Reader) (string, error) {
 	case strings.HasSuffix(base, ".jsonl"), strings.HasSuffix(base, ".ndjson"):
 		return "jsonl", nil
 	}
-	head, _ := br.Peek(512)
-	head = []byte(strings.TrimLeft(strings.TrimPrefix(string(head), "\xef\xbb\xbf"), " \t\r\n"))
-	if len(head) > 0 && head[0] == '{' {
-		return "jsonl", nil
+	// Peek one more byte at a time, so that a live stream (a pipe) is
+	// not held up waiting for bytes that have not been written yet.
+	for i := 1; i <= 512; i++ {
+		head, err := br.Peek(i)
+		if err != nil {
+			break
+		}
+		switch c := head[i-1]; {
+		case c == ' ' || c == '\t' || c == '\r' || c == '\n':
+		case i <= 3 && string(head) == "\xef\xbb\xbf"[:i]:
+		default:
+			if c == '{' {
+				return "jsonl", nil
+			}
+			return "csv", nil
+		}
 	}
 	return "csv", nil
 }

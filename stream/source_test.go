@@ -335,3 +335,35 @@ func TestOpString(t *testing.T) {
 	}()
 	_ = Op(7).String()
 }
+
+// TestLiveStream reads from a pipe whose writer stays open: each event
+// must come as soon as its line is written, format decided by sniffing.
+func TestLiveStream(t *testing.T) {
+	for _, tc := range []struct{ head, line string }{
+		{"src,dst\n", "a,b\n"},
+		{"", "{\"src\":\"a\",\"dst\":\"b\"}\n"},
+	} {
+		pr, pw := io.Pipe()
+		done := make(chan error, 1)
+		var ev Event
+		go func() {
+			r, err := NewReader("pipe", pr, Options{})
+			if err == nil {
+				ev, err = r.Next()
+			}
+			done <- err
+		}()
+		if _, err := io.WriteString(pw, tc.head+tc.line); err != nil {
+			t.Fatal(err)
+		}
+		select {
+		case err := <-done:
+			if err != nil || ev.Src != "a" || ev.Dst != "b" {
+				t.Errorf("%q: %+v, %v", tc.line, ev, err)
+			}
+		case <-time.After(10 * time.Second):
+			t.Errorf("%q: no event while the writer is still open", tc.line)
+		}
+		pw.Close()
+	}
+}
