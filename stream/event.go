@@ -62,7 +62,6 @@ type Event struct {
 // being Unix milliseconds: 1e11 seconds is the year 5138, 1e11 ms is 1973.
 const msThreshold = 100_000_000_000
 
-
 // ParseTime reads an event time: RFC 3339 with an optional fraction
 // ("2026-03-01T09:30:00.25+01:00"), or a decimal Unix time with an optional
 // sign and fraction ("1772353800", "1772353800.25", "1772353800250").
