@@ -1,0 +1,252 @@
+package shard
+
+import (
+	"bufio"
+	"io"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"sync"
+	"sync/atomic"
+	"time"
+)
+
+// MetricsContentType is the media type of the Prometheus text exposition
+// format, version 0.0.4, that Metrics.WriteTo writes.
+const MetricsContentType = "text/plain; version=0.0.4; charset=utf-8"
+
+// MaxRejectReasons bounds the distinct reason labels of the reject
+// counter. Reasons are short fixed phrases in practice; should a caller pass
+// free text, the reasons beyond the bound are counted under "other" so that
+// the series count stays bounded.
+const MaxRejectReasons = 32
+
+// otherReason is the label of rejects beyond MaxRejectReasons.
+const otherReason = "other"
+
+// LatencyBuckets are the upper bounds, in seconds, of the batch and cut
+// latency histograms: 1 ms to 30 s, roughly ×2.5 per step.
+var LatencyBuckets = []float64{0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30}
+
+// Metrics are one worker's counters for the /metrics page. Every update is
+// one or a few atomic operations and allocates nothing, so the worker may
+// call them per event; WriteTo may run concurrently with the updates. The
+// zero value is not usable: call NewMetrics. No metric carries a node id.
+type Metrics struct {
+	applied, expired, checkpoints atomic.Uint64
+	appliedSeq, cutSeq, lag       atomic.Uint64
+	ready                         atomic.Bool
+
+	// rejects maps a reason to its counter. Reads go through the atomic
+	// pointer without locking; a new reason copies the map under mu.
+	rejects atomic.Pointer[map[string]*atomic.Uint64]
+	mu      sync.Mutex
+
+	batch, cut *Histogram
+}
+
+// NewMetrics returns zeroed metrics with empty latency histograms over
+// LatencyBuckets.
+func NewMetrics() *Metrics {
+	m := &Metrics{batch: NewHistogram(LatencyBuckets), cut: NewHistogram(LatencyBuckets)}
+	empty := map[string]*atomic.Uint64{}
+	m.rejects.Store(&empty)
+	return m
+}
+
+// AddApplied counts n more accepted events.
+func (m *Metrics) AddApplied(n uint64) { m.applied.Add(n) }
+
+// AddExpired counts n more window expiries (removes the window made).
+func (m *Metrics) AddExpired(n uint64) { m.expired.Add(n) }
+
+// AddRejected counts n more rejected events or messages with the given
+// reason. A reason seen before costs one map read and one atomic add; the
+// first sighting of a reason allocates once.
+func (m *Metrics) AddRejected(reason string, n uint64) {
+	if c, ok := (*m.rejects.Load())[reason]; ok {
+		c.Add(n)
+		return
+	}
+	m.rejectCounter(reason).Add(n)
+}
+
+// rejectCounter returns the counter of reason, adding it (or folding it
+// into "other" beyond MaxRejectReasons).
+func (m *Metrics) rejectCounter(reason string) *atomic.Uint64 {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	old := *m.rejects.Load()
+	if c, ok := old[reason]; ok {
+		return c
+	}
+	if len(old) >= MaxRejectReasons-1 && reason != otherReason {
+		if c, ok := old[otherReason]; ok {
+			return c
+		}
+		reason = otherReason
+	}
+	next := make(map[string]*atomic.Uint64, len(old)+1)
+	for k, v := range old {
+		next[k] = v
+	}
+	c := new(atomic.Uint64)
+	next[reason] = c
+	m.rejects.Store(&next)
+	return c
+}
+
+// AddCheckpoint counts one more committed checkpoint.
+func (m *Metrics) AddCheckpoint() { m.checkpoints.Add(1) }
+
+// SetAppliedSeq records the last log position applied.
+func (m *Metrics) SetAppliedSeq(seq uint64) { m.appliedSeq.Store(seq) }
+
+// SetCutSeq records the last complete cut.
+func (m *Metrics) SetCutSeq(seq uint64) { m.cutSeq.Store(seq) }
+
+// SetLag records how many log positions the worker is behind the end of
+// the log.
+func (m *Metrics) SetLag(events uint64) { m.lag.Store(events) }
+
+// SetReady records whether the worker has caught up (see /readyz).
+func (m *Metrics) SetReady(ready bool) { m.ready.Store(ready) }
+
+// ObserveBatch records the time one batch took to apply.
+func (m *Metrics) ObserveBatch(d time.Duration) { m.batch.Observe(d) }
+
+// ObserveCut records the time from a batch's end until its cut was
+// complete (all shards' deltas applied and committed).
+func (m *Metrics) ObserveCut(d time.Duration) { m.cut.Observe(d) }
+
+// Histogram counts durations in fixed buckets. Observe is a short bucket
+// search and two atomic adds.
+type Histogram struct {
+	bounds []float64       // upper bounds in seconds, increasing
+	counts []atomic.Uint64 // counts[i]: observations in (bounds[i-1], bounds[i]]; the last one above every bound
+	sumNs  atomic.Uint64
+}
+
+// NewHistogram returns an empty histogram with the given upper bounds (in
+// seconds). The bounds must be finite, positive and strictly increasing.
+func NewHistogram(bounds []float64) *Histogram {
+	for i, b := range bounds {
+		if !(b > 0) || math.IsInf(b, 0) || (i > 0 && b <= bounds[i-1]) {
+			panic("shard: histogram bounds must be finite, positive and strictly increasing")
+		}
+	}
+	return &Histogram{bounds: slices.Clone(bounds), counts: make([]atomic.Uint64, len(bounds)+1)}
+}
+
+// Observe records one duration; a negative one counts as zero.
+func (h *Histogram) Observe(d time.Duration) {
+	if d < 0 {
+		d = 0
+	}
+	s := d.Seconds()
+	i := 0
+	for i < len(h.bounds) && s > h.bounds[i] {
+		i++
+	}
+	h.counts[i].Add(1)
+	h.sumNs.Add(uint64(d))
+}
+
+// snapshot returns the cumulative bucket counts (the last is the total) and
+// the sum in seconds.
+func (h *Histogram) snapshot() ([]uint64, float64) {
+	cum := make([]uint64, len(h.counts))
+	var run uint64
+	for i := range h.counts {
+		run += h.counts[i].Load()
+		cum[i] = run
+	}
+	return cum, float64(h.sumNs.Load()) / 1e9
+}
+
+// WriteTo writes every metric in the Prometheus text exposition format
+// 0.0.4: a HELP and a TYPE line per metric family, then its samples;
+// histogram buckets are cumulative and end with le="+Inf", which equals
+// _count.
+func (m *Metrics) WriteTo(w io.Writer) (int64, error) {
+	cw := &countWriter{w: w}
+	b := bufio.NewWriter(cw)
+	family(b, "orbitwatch_events_applied_total", "counter", "Events accepted by the applier.")
+	sample(b, "orbitwatch_events_applied_total", "", m.applied.Load())
+	family(b, "orbitwatch_events_expired_total", "counter", "Removes made by the window when an add aged out.")
+	sample(b, "orbitwatch_events_expired_total", "", m.expired.Load())
+	family(b, "orbitwatch_events_rejected_total", "counter", "Events and bus messages rejected, by reason.")
+	rejects := *m.rejects.Load()
+	reasons := make([]string, 0, len(rejects))
+	for r := range rejects {
+		reasons = append(reasons, r)
+	}
+	slices.Sort(reasons)
+	for _, r := range reasons {
+		sample(b, "orbitwatch_events_rejected_total", `reason="`+escapeLabel(r)+`"`, rejects[r].Load())
+	}
+	family(b, "orbitwatch_checkpoints_total", "counter", "Checkpoints committed to the store.")
+	sample(b, "orbitwatch_checkpoints_total", "", m.checkpoints.Load())
+	family(b, "orbitwatch_applied_seq", "gauge", "Last log position applied.")
+	sample(b, "orbitwatch_applied_seq", "", m.appliedSeq.Load())
+	family(b, "orbitwatch_cut_seq", "gauge", "Last complete cut (log position).")
+	sample(b, "orbitwatch_cut_seq", "", m.cutSeq.Load())
+	family(b, "orbitwatch_lag_events", "gauge", "Log positions between the last applied and the end of the log.")
+	sample(b, "orbitwatch_lag_events", "", m.lag.Load())
+	family(b, "orbitwatch_ready", "gauge", "1 once the worker has caught up to the cut it started behind, else 0.")
+	var ready uint64
+	if m.ready.Load() {
+		ready = 1
+	}
+	sample(b, "orbitwatch_ready", "", ready)
+	histogram(b, "orbitwatch_batch_seconds", "Time to apply one batch of events.", m.batch)
+	histogram(b, "orbitwatch_cut_seconds", "Time from the end of a batch until its cut is complete.", m.cut)
+	err := b.Flush()
+	return cw.n, err
+}
+
+func family(b *bufio.Writer, name, typ, help string) {
+	b.WriteString("# HELP " + name + " " + help + "\n# TYPE " + name + " " + typ + "\n")
+}
+
+func sample(b *bufio.Writer, name, labels string, v uint64) {
+	b.WriteString(name)
+	if labels != "" {
+		b.WriteString("{" + labels + "}")
+	}
+	b.WriteByte(' ')
+	b.WriteString(strconv.FormatUint(v, 10))
+	b.WriteByte('\n')
+}
+
+func histogram(b *bufio.Writer, name, help string, h *Histogram) {
+	family(b, name, "histogram", help)
+	cum, sum := h.snapshot()
+	for i, bound := range h.bounds {
+		sample(b, name+"_bucket", `le="`+strconv.FormatFloat(bound, 'g', -1, 64)+`"`, cum[i])
+	}
+	total := cum[len(cum)-1]
+	sample(b, name+"_bucket", `le="+Inf"`, total)
+	b.WriteString(name + "_sum " + strconv.FormatFloat(sum, 'g', -1, 64) + "\n")
+	sample(b, name+"_count", "", total)
+}
+
+// labelEscaper escapes a label value as the text format requires:
+// backslash, double quote and line feed.
+var labelEscaper = strings.NewReplacer(`\`, `\\`, `"`, `\"`, "\n", `\n`)
+
+// escapeLabel returns s as a label value: valid UTF-8 (the format requires
+// it; bad bytes become U+FFFD) with the escapes of labelEscaper.
+func escapeLabel(s string) string { return labelEscaper.Replace(strings.ToValidUTF8(s, "\uFFFD")) }
+
+type countWriter struct {
+	w io.Writer
+	n int64
+}
+
+func (c *countWriter) Write(p []byte) (int, error) {
+	n, err := c.w.Write(p)
+	c.n += int64(n)
+	return n, err
+}
