@@ -211,6 +211,32 @@ func TestMalformedMessage(t *testing.T) {
 	consumeN(t, ctx, c, 4, evs[1:])
 }
 
+// TestConsumerWaitsWhenCaughtUp: Next on a caught-up stream ends with the
+// context, not with a MessageError, and the consumer still delivers what
+// is published later.
+func TestConsumerWaitsWhenCaughtUp(t *testing.T) {
+	ctx := testContext(t)
+	_, js := startBus(t, t.TempDir())
+	if _, err := EnsureStream(ctx, js, "EDGES", "edges.in", 1); err != nil {
+		t.Fatal(err)
+	}
+	c, err := NewConsumer(ctx, js, "EDGES", 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer c.Close()
+	short, cancel := context.WithTimeout(ctx, 300*time.Millisecond)
+	_, _, err = c.Next(short)
+	cancel()
+	var me *MessageError
+	if err == nil || errors.As(err, &me) {
+		t.Fatalf("Next on an empty stream: %v, want the context's end", err)
+	}
+	evs := payments(5)
+	publishAll(t, ctx, NewPublisher(js, "edges.in", PublisherOptions{}), evs)
+	consumeN(t, ctx, c, 1, evs)
+}
+
 func TestEnsureStreamIdempotent(t *testing.T) {
 	ctx := testContext(t)
 	_, js := startBus(t, t.TempDir())
@@ -221,6 +247,13 @@ func TestEnsureStreamIdempotent(t *testing.T) {
 	}
 	if _, err := EnsureStream(ctx, js, "EDGES", "edges.other", 1); err == nil || !strings.Contains(err.Error(), "exists with subjects [edges.in]") {
 		t.Errorf("a stream with another subject: %v", err)
+	}
+	// One server refuses 3 replicas before it looks at the name.
+	if _, err := EnsureStream(ctx, js, "EDGES", "edges.in", 3); err == nil {
+		t.Error("3 replicas accepted on one server")
+	}
+	if n := streamMsgs(t, ctx, js, "EDGES"); n != 0 {
+		t.Errorf("EnsureStream wrote %d messages", n)
 	}
 }
 

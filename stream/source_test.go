@@ -367,3 +367,28 @@ func TestLiveStream(t *testing.T) {
 		pw.Close()
 	}
 }
+
+// TestLargeLogBoundedBuffer reads a log far larger than the read buffers
+// and checks the events, the last derived id and that the spool, which
+// holds bytes until their record is hashed, stays small.
+func TestLargeLogBoundedBuffer(t *testing.T) {
+	n := 60_000
+	if testing.Short() {
+		n = 15_000
+	}
+	data := benchLog(n, "csv")
+	r, err := NewReader("big", bytes.NewReader(data), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	evs := readAll(t, r)
+	if len(evs) != n || evs[n-1].Line != n {
+		t.Fatalf("%d events, want %d", len(evs), n)
+	}
+	if want := prefixID(string(data), len(data), n); evs[n-1].ID != want {
+		t.Errorf("last id %s, want %s", evs[n-1].ID, want)
+	}
+	if c := cap(r.sp.buf); c > 512<<10 {
+		t.Errorf("spool grew to %d bytes for a %d byte log", c, len(data))
+	}
+}
