@@ -50,5 +50,18 @@
 //	uvarint  length of dst, then its bytes (not 0)
 //
 // and nothing after. JSON cannot carry node ids that are not UTF-8; the
-// binary form carries any bytes.
+// binary form carries any bytes. Publisher sends the binary form unless
+// told otherwise; DecodeMessage reads both.
+//
+// # JetStream
+//
+// The event log is one file-backed stream (EnsureStream). Publisher sets
+// each message's Nats-Msg-Id to the event id, so within the duplicate
+// window (DefaultDuplicateWindow, kept across server restarts) the server
+// stores an id once and acks a republish as a duplicate. Consumer reads
+// the stream in order from a stream sequence with an ordered consumer;
+// the stream sequence is the event's log position (seq) and its Line. A
+// message that does not decode is returned as a *MessageError with its
+// sequence and reading goes on. StartEmbedded runs a server in-process,
+// for tests and single-machine use.
 package stream
