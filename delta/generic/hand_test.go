@@ -128,6 +128,49 @@ func TestDirectedHubByHand(t *testing.T) {
 	})
 }
 
+// TestDirectedRefundByHand checks an in-star, a merchant 0 paid by n
+// consumers 1..n, before and after the merchant refunds consumer 1 (arc
+// 0→1, making {0,1} a reciprocal pair). Before: the merchant is paid n
+// times and is the centre of C(n,2) induced in-stars {0,i,j}; each consumer
+// pays once and is a leaf of n−1 in-stars. After: the pair {0,1} is
+// reciprocal; the n−1 sets {0,1,j} become the graphlet "reciprocal pair
+// 0↔1 with j→0"; the C(n−1,2) sets {0,i,j} with i,j ≥ 2 stay in-stars.
+func TestDirectedRefundByHand(t *testing.T) {
+	cat := mustCatalog(t, delta.Directed, 3)
+	in := arcs([2]int{1, 0}, [2]int{2, 0})
+	centre, leaf := orbitOf(t, cat, 3, in, 0), orbitOf(t, cat, 3, in, 1)
+	mixed := arcs([2]int{0, 1}, [2]int{1, 0}, [2]int{2, 0})
+	mCentre, mPair, mPayer := orbitOf(t, cat, 3, mixed, 0), orbitOf(t, cat, 3, mixed, 1), orbitOf(t, cat, 3, mixed, 2)
+	// The three positions have (out, in) degrees (1,2), (1,1), (1,0): no
+	// automorphism maps one onto another.
+	if mCentre == mPair || mPair == mPayer || mCentre == mPayer || centre == leaf {
+		t.Fatalf("orbits that differ by degree share an id: %d %d %d, in-star %d %d", mCentre, mPair, mPayer, centre, leaf)
+	}
+	payer := orbitOf(t, cat, 2, arcs([2]int{0, 1}), 0)
+	payee := orbitOf(t, cat, 2, arcs([2]int{0, 1}), 1)
+	recip := orbitOf(t, cat, 2, arcs([2]int{0, 1}, [2]int{1, 0}), 0)
+	const n = 5
+	bothEngines(t, cat, func(t *testing.T, s *state) {
+		for i := uint32(1); i <= n; i++ {
+			s.apply(true, i, 0)
+		}
+		want := []map[int]uint64{{payee: n, centre: n * (n - 1) / 2}}
+		for i := 1; i <= n; i++ {
+			want = append(want, map[int]uint64{payer: 1, leaf: n - 1})
+		}
+		expect(t, "in-star", s.vec, want)
+		s.apply(true, 0, 1)
+		want = []map[int]uint64{
+			{recip: 1, payee: n - 1, centre: (n - 1) * (n - 2) / 2, mCentre: n - 1},
+			{recip: 1, mPair: n - 1},
+		}
+		for i := 2; i <= n; i++ {
+			want = append(want, map[int]uint64{payer: 1, leaf: n - 2, mPayer: 1})
+		}
+		expect(t, "in-star with a refund", s.vec, want)
+	})
+}
+
 // TestUndirectedCyclesByHand checks the 4-cycle on the 2–4 node catalog
 // and the 5-cycle on the 2–5 node one. In the 4-cycle each node has 2
 // edges, is the middle of 1 induced 3-path (its two neighbours) and an end
