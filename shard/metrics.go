@@ -29,10 +29,12 @@ const otherReason = "other"
 // latency histograms: 1 ms to 30 s, roughly ×2.5 per step.
 var LatencyBuckets = []float64{0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30}
 
-// Metrics are one worker's counters for the /metrics page. Every update is
-// one or a few atomic operations and allocates nothing, so the worker may
-// call them per event; WriteTo may run concurrently with the updates. The
-// zero value is not usable: call NewMetrics. No metric carries a node id.
+// Metrics are one worker's counters for the /metrics page. The worker
+// reports batch and cut timings through the Observer methods Batch and Cut
+// (a short bucket search and a few atomic adds, no allocation); event
+// counts, positions, lag and readiness come from its Status (SyncStatus).
+// WriteTo may run concurrently with the updates. The zero value is not
+// usable: call NewMetrics. No metric carries a node id.
 type Metrics struct {
 	applied, expired, checkpoints atomic.Uint64
 	appliedSeq, cutSeq, lag       atomic.Uint64
@@ -55,25 +57,49 @@ func NewMetrics() *Metrics {
 	return m
 }
 
-// AddApplied counts n more accepted events.
-func (m *Metrics) AddApplied(n uint64) { m.applied.Add(n) }
+var _ Observer = (*Metrics)(nil)
 
-// AddExpired counts n more window expiries (removes the window made).
-func (m *Metrics) AddExpired(n uint64) { m.expired.Add(n) }
+// Batch records the time one batch took (Observer).
+func (m *Metrics) Batch(d time.Duration) { m.batch.Observe(d) }
 
-// AddRejected counts n more rejected events or messages with the given
-// reason. A reason seen before costs one map read and one atomic add; the
-// first sighting of a reason allocates once.
-func (m *Metrics) AddRejected(reason string, n uint64) {
-	if c, ok := (*m.rejects.Load())[reason]; ok {
-		c.Add(n)
-		return
-	}
-	m.rejectCounter(reason).Add(n)
+// Cut records the time from a batch's last message until its cut was
+// committed on this worker, and counts the checkpoint that committed it
+// (Observer).
+func (m *Metrics) Cut(d time.Duration) {
+	m.cut.Observe(d)
+	m.checkpoints.Add(1)
 }
 
-// rejectCounter returns the counter of reason, adding it (or folding it
-// into "other" beyond MaxRejectReasons).
+// SyncStatus sets the progress gauges and the event counters from a
+// worker's Status, whose counts are totals since the worker started. The
+// API calls it at every scrape, so the worker keeps its counts in one place
+// (its Status) and reports only timings here (as Observer).
+func (m *Metrics) SyncStatus(s Status) {
+	m.applied.Store(s.Applied)
+	m.expired.Store(s.Expired)
+	m.appliedSeq.Store(s.AppliedSeq)
+	m.cutSeq.Store(s.CutSeq)
+	m.lag.Store(s.Lag)
+	m.ready.Store(s.Ready)
+	if len(s.Rejected) == 0 {
+		return
+	}
+	// Several reasons may fold into "other": sum per counter, then store.
+	sums := make(map[*atomic.Uint64]uint64, len(s.Rejected))
+	for reason, n := range s.Rejected {
+		c, ok := (*m.rejects.Load())[reason]
+		if !ok {
+			c = m.rejectCounter(reason)
+		}
+		sums[c] += n
+	}
+	for c, n := range sums {
+		c.Store(n)
+	}
+}
+
+// rejectCounter returns the counter of reason, adding it, or the "other"
+// counter once MaxRejectReasons labels exist.
 func (m *Metrics) rejectCounter(reason string) *atomic.Uint64 {
 	m.mu.Lock()
 	defer m.mu.Unlock()
@@ -96,29 +122,6 @@ func (m *Metrics) rejectCounter(reason string) *atomic.Uint64 {
 	m.rejects.Store(&next)
 	return c
 }
-
-// AddCheckpoint counts one more committed checkpoint.
-func (m *Metrics) AddCheckpoint() { m.checkpoints.Add(1) }
-
-// SetAppliedSeq records the last log position applied.
-func (m *Metrics) SetAppliedSeq(seq uint64) { m.appliedSeq.Store(seq) }
-
-// SetCutSeq records the last complete cut.
-func (m *Metrics) SetCutSeq(seq uint64) { m.cutSeq.Store(seq) }
-
-// SetLag records how many log positions the worker is behind the end of
-// the log.
-func (m *Metrics) SetLag(events uint64) { m.lag.Store(events) }
-
-// SetReady records whether the worker has caught up (see /readyz).
-func (m *Metrics) SetReady(ready bool) { m.ready.Store(ready) }
-
-// ObserveBatch records the time one batch took to apply.
-func (m *Metrics) ObserveBatch(d time.Duration) { m.batch.Observe(d) }
-
-// ObserveCut records the time from a batch's end until its cut was
-// complete (all shards' deltas applied and committed).
-func (m *Metrics) ObserveCut(d time.Duration) { m.cut.Observe(d) }
 
 // Histogram counts durations in fixed buckets. Observe is a short bucket
 // search and two atomic adds.

@@ -199,24 +199,17 @@ func scrape(t *testing.T, m *Metrics) string {
 
 func TestMetricsExposition(t *testing.T) {
 	m := NewMetrics()
-	m.AddApplied(5)
-	m.AddApplied(2)
-	m.AddExpired(3)
-	m.AddRejected("self-loop", 1)
-	m.AddRejected("remove of absent edge", 2)
-	m.AddRejected("self-loop", 1)
-	m.AddRejected("message 7: bad \"op\"\nback\\slash", 1)
-	m.AddCheckpoint()
-	m.AddCheckpoint()
-	m.SetAppliedSeq(1200)
-	m.SetCutSeq(1024)
-	m.SetLag(76)
-	m.SetReady(true)
+	m.SyncStatus(Status{Applied: 1, Rejected: map[string]uint64{"self-loop": 1}})
+	m.SyncStatus(Status{
+		Applied: 7, Expired: 3, AppliedSeq: 1200, CutSeq: 1024, Lag: 76, Ready: true,
+		Rejected: map[string]uint64{"self-loop": 2, "remove of absent edge": 2, "message 7: bad \"op\"\nback\\slash": 1},
+	})
 	// Bucket bounds are inclusive upper bounds (le): 1 ms falls in le=0.001.
 	for _, d := range []time.Duration{500 * time.Microsecond, time.Millisecond, 3 * time.Millisecond, 40 * time.Second, -time.Second} {
-		m.ObserveBatch(d)
+		m.Batch(d)
 	}
-	m.ObserveCut(200 * time.Millisecond)
+	m.Cut(200 * time.Millisecond)
+	m.Cut(20 * time.Second)
 
 	fams, order := parseExposition(t, scrape(t, m))
 	want := map[string]string{
@@ -250,7 +243,7 @@ func TestMetricsExposition(t *testing.T) {
 	single := map[string]float64{
 		"orbitwatch_events_applied_total": 7,
 		"orbitwatch_events_expired_total": 3,
-		"orbitwatch_checkpoints_total":    2,
+		"orbitwatch_checkpoints_total":    2, // one per Cut
 		"orbitwatch_applied_seq":          1200,
 		"orbitwatch_cut_seq":              1024,
 		"orbitwatch_lag_events":           76,
@@ -296,16 +289,19 @@ func TestMetricsExposition(t *testing.T) {
 		t.Errorf("batch sum %v, want %v", sum, wantSum)
 	}
 	_, cum, sum, count = checkHistogram(t, "orbitwatch_cut_seconds", fams["orbitwatch_cut_seconds"])
-	if count != 1 || sum != 0.2 || cum[6] != 0 || cum[7] != 1 { // bounds[7] is 0.25
-		t.Errorf("cut histogram %v sum %v count %v, want the one 0.2 s in le=0.25", cum, sum, count)
+	if count != 2 || sum != 20.2 || cum[6] != 0 || cum[7] != 1 || cum[len(cum)-2] != 2 { // bounds[7] is 0.25, the last finite 30
+		t.Errorf("cut histogram %v sum %v count %v, want 0.2 s in le=0.25 and 20 s in le=30", cum, sum, count)
 	}
 }
 
 func TestMetricsRejectReasonsBounded(t *testing.T) {
 	m := NewMetrics()
+	rej := map[string]uint64{}
 	for i := range 3 * MaxRejectReasons {
-		m.AddRejected(fmt.Sprintf("message %d: bad bytes \xff", i), 1)
+		rej[fmt.Sprintf("message %d: bad bytes \xff", i)] = 1
 	}
+	m.SyncStatus(Status{Rejected: rej})
+	m.SyncStatus(Status{Rejected: rej}) // totals, not increments: a second sync changes nothing
 	fams, _ := parseExposition(t, scrape(t, m))
 	s := fams["orbitwatch_events_rejected_total"].samples
 	if len(s) != MaxRejectReasons {
@@ -336,9 +332,11 @@ func TestMetricsConcurrentUpdates(t *testing.T) {
 		go func() {
 			defer wg.Done()
 			for i := range per {
-				m.AddApplied(1)
-				m.AddRejected([]string{"a", "b", "c"}[(w+i)%3], 1)
-				m.ObserveBatch(time.Duration(i) * time.Microsecond)
+				m.Batch(time.Duration(i) * time.Microsecond)
+				m.Cut(time.Duration(w) * time.Millisecond)
+				if i%100 == 0 {
+					m.SyncStatus(Status{Applied: uint64(i), Rejected: map[string]uint64{[]string{"a", "b", "c"}[w%3]: 1}})
+				}
 			}
 		}()
 	}
@@ -349,31 +347,22 @@ func TestMetricsConcurrentUpdates(t *testing.T) {
 	}
 	wg.Wait()
 	fams, _ := parseExposition(t, scrape(t, m))
-	if v := fams["orbitwatch_events_applied_total"].samples[0].value; v != workers*per {
-		t.Errorf("applied %v, want %d", v, workers*per)
+	if v := fams["orbitwatch_checkpoints_total"].samples[0].value; v != workers*per {
+		t.Errorf("checkpoints %v, want %d", v, workers*per)
 	}
-	var rej float64
-	for _, s := range fams["orbitwatch_events_rejected_total"].samples {
-		rej += s.value
-	}
-	if rej != workers*per {
-		t.Errorf("rejects %v, want %d", rej, workers*per)
+	if n := len(fams["orbitwatch_events_rejected_total"].samples); n != 3 {
+		t.Errorf("%d reject series, want 3", n)
 	}
 	if _, _, _, c := checkHistogram(t, "orbitwatch_batch_seconds", fams["orbitwatch_batch_seconds"]); c != workers*per {
 		t.Errorf("batch count %v, want %d", c, workers*per)
 	}
 }
 
-func TestMetricsUpdatesAllocateNothing(t *testing.T) {
+func TestMetricsObserverAllocatesNothing(t *testing.T) {
 	m := NewMetrics()
-	m.AddRejected("self-loop", 1)
 	allocs := testing.AllocsPerRun(1000, func() {
-		m.AddApplied(1)
-		m.AddRejected("self-loop", 1)
-		m.ObserveBatch(3 * time.Millisecond)
-		m.ObserveCut(time.Second)
-		m.SetLag(4)
-		m.SetAppliedSeq(9)
+		m.Batch(3 * time.Millisecond)
+		m.Cut(time.Second)
 	})
 	if allocs != 0 {
 		t.Errorf("metric updates allocate %v times per call", allocs)
@@ -398,7 +387,6 @@ func BenchmarkMetricsPerEvent(b *testing.B) {
 	m := NewMetrics()
 	b.ReportAllocs()
 	for i := 0; b.Loop(); i++ {
-		m.AddApplied(1)
-		m.ObserveBatch(time.Duration(i&1023) * time.Microsecond)
+		m.Batch(time.Duration(i&1023) * time.Microsecond)
 	}
 }

@@ -1,0 +1,440 @@
+package shard
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"net/http"
+	"net/url"
+	"strconv"
+	"strings"
+	"sync"
+	"time"
+
+	"orbitwatch/storage"
+	"orbitwatch/stream"
+)
+
+// APIOptions configures the HTTP API of one worker.
+type APIOptions struct {
+	// Metrics are the counters /metrics writes. NewAPI registers them as
+	// the view's Observer (batch and cut latencies) and refreshes the
+	// progress gauges and counters from View.Status at every scrape.
+	// Nil makes a fresh set.
+	Metrics *Metrics
+	// Peers are the base URLs of every shard's API, indexed by shard
+	// (e.g. "http://orbitwatch-1.orbitwatch:7474" at index 1); this
+	// shard's own entry is not used. With them /v1/status reports every
+	// shard and ?seq= reads of another shard's node are forwarded to it
+	// over HTTP. Empty: status reports this worker only and such reads are
+	// refused (501); ?at= and latest reads go through View.Read either way.
+	Peers []string
+	// Timeout bounds a forwarded node read and a peer status request;
+	// 0 means 5 s.
+	Timeout time.Duration
+	// Client makes the peer status requests; nil means a client with
+	// Timeout.
+	Client *http.Client
+}
+
+// ShardHeader is the response header naming the shard that answered a
+// node read, so that forwarding can be seen without changing the JSON.
+const ShardHeader = "Orbitwatch-Shard"
+
+// NewAPI returns the HTTP API of the worker seen through v:
+//
+//	GET /v1/nodes/{id}   one node's orbit vector at the last complete cut,
+//	                     ?at=TIME as of the latest cut whose event-time
+//	                     watermark is ≤ TIME, ?seq=N as of the latest cut ≤ N
+//	GET /v1/status       per-shard progress (this one and reachable peers;
+//	                     ?local=true this one only)
+//	GET /healthz         200 while the process serves
+//	GET /readyz          200 once caught up to the cut it started behind, else 503
+//	GET /metrics         Prometheus text format 0.0.4
+//
+// Every answer but /metrics is JSON; errors are {"error":"…"} with a
+// fitting status. The id is one path segment, URL-escaped ("a%2Fb" is the
+// id "a/b"; an unescaped "/" is kept as part of the id too). A node owned by
+// another shard is read through v.Read, which forwards it.
+func NewAPI(v View, opts APIOptions) http.Handler {
+	if opts.Metrics == nil {
+		opts.Metrics = NewMetrics()
+	}
+	if opts.Timeout == 0 {
+		opts.Timeout = 5 * time.Second
+	}
+	if opts.Client == nil {
+		opts.Client = &http.Client{Timeout: opts.Timeout}
+	}
+	a := &api{v: v, opts: opts, kind: v.Counting().Catalog.Kind.String(), maxNodes: v.Counting().Catalog.MaxNodes}
+	v.SetObserver(opts.Metrics)
+	mux := http.NewServeMux()
+	mux.HandleFunc("/v1/nodes/{id...}", a.get(a.node))
+	mux.HandleFunc("/v1/status", a.get(a.status))
+	mux.HandleFunc("/healthz", a.get(a.healthz))
+	mux.HandleFunc("/readyz", a.get(a.readyz))
+	mux.HandleFunc("/metrics", a.get(a.metrics))
+	mux.HandleFunc("/", func(w http.ResponseWriter, r *http.Request) {
+		writeError(w, http.StatusNotFound, fmt.Sprintf("no such endpoint: %s", r.URL.Path))
+	})
+	return mux
+}
+
+type api struct {
+	v        View
+	opts     APIOptions
+	kind     string
+	maxNodes int
+}
+
+// get admits GET and HEAD only.
+func (a *api) get(h http.HandlerFunc) http.HandlerFunc {
+	return func(w http.ResponseWriter, r *http.Request) {
+		if r.Method != http.MethodGet && r.Method != http.MethodHead {
+			w.Header().Set("Allow", "GET, HEAD")
+			writeError(w, http.StatusMethodNotAllowed, fmt.Sprintf("method %s not allowed; use GET", r.Method))
+			return
+		}
+		h(w, r)
+	}
+}
+
+// nodeJSON is the body of a node read: exactly these keys, event_time
+// null when the cut carries no event time.
+type nodeJSON struct {
+	Node      string     `json:"node"`
+	Kind      string     `json:"kind"`
+	MaxNodes  int        `json:"max_nodes"`
+	Seq       uint64     `json:"seq"`
+	EventTime *time.Time `json:"event_time"`
+	Orbits    []uint64   `json:"orbits"`
+}
+
+func (a *api) node(w http.ResponseWriter, r *http.Request) {
+	id := r.PathValue("id")
+	if id == "" {
+		writeError(w, http.StatusNotFound, "no node id in the path (GET /v1/nodes/{id})")
+		return
+	}
+	q := r.URL.Query()
+	for k := range q {
+		if k != "at" && k != "seq" {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("unknown query parameter %q (want at or seq)", k))
+			return
+		}
+	}
+	if q.Has("at") && q.Has("seq") {
+		writeError(w, http.StatusBadRequest, "give at or seq, not both")
+		return
+	}
+	var rep ReadReply
+	switch {
+	case q.Has("seq"):
+		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
+		if err != nil {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("seq %q: not a sequence number", q.Get("seq")))
+			return
+		}
+		self, _ := a.v.Shard()
+		if owner := a.v.Owner(id); owner != self {
+			a.forwardHTTP(w, r, owner, id)
+			return
+		}
+		rep = readStore(a.v.Store(), a.kind, a.maxNodes, self, id, time.Time{}, seq)
+	default:
+		req := ReadRequest{Node: id}
+		if q.Has("at") {
+			at, err := stream.ParseTime(q.Get("at"))
+			if err != nil {
+				writeError(w, http.StatusBadRequest, fmt.Sprintf("at %q: %v", q.Get("at"), err))
+				return
+			}
+			req.At = at
+		}
+		ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+		defer cancel()
+		var err error
+		rep, err = a.v.Read(ctx, req)
+		if err != nil {
+			owner := a.v.Owner(id)
+			status := http.StatusBadGateway
+			if errors.Is(err, context.DeadlineExceeded) {
+				status = http.StatusGatewayTimeout
+			}
+			writeError(w, status, fmt.Sprintf("node %q: shard %d did not answer: %v", id, owner, err))
+			return
+		}
+	}
+	w.Header().Set(ShardHeader, strconv.Itoa(rep.Shard))
+	if rep.Status != http.StatusOK {
+		status := rep.Status
+		if status < 400 || status > 599 {
+			status = http.StatusBadGateway
+		}
+		writeError(w, status, rep.Error)
+		return
+	}
+	body := nodeJSON{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, Orbits: rep.Orbits}
+	if !rep.EventTime.IsZero() {
+		t := rep.EventTime.UTC()
+		body.EventTime = &t
+	}
+	writeJSON(w, http.StatusOK, body)
+}
+
+// forwardHTTP relays a node read to the owner shard's API (from Peers)
+// and copies its answer back.
+func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id string) {
+	if owner >= len(a.opts.Peers) || a.opts.Peers[owner] == "" {
+		writeError(w, http.StatusNotImplemented, fmt.Sprintf("node %q is on shard %d, whose API address is not configured: reads by seq are forwarded over HTTP only (ask shard %d, or use at)", id, owner, owner))
+		return
+	}
+	if r.Header.Get(ShardHeader) != "" {
+		writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("node %q was forwarded here but shard %d owns it: the shards disagree on the shard count", id, owner))
+		return
+	}
+	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", url.PathEscape(id))
+	if err != nil {
+		writeError(w, http.StatusInternalServerError, fmt.Sprintf("address of shard %d: %v", owner, err))
+		return
+	}
+	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+	defer cancel()
+	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?"+r.URL.RawQuery, nil)
+	if err != nil {
+		writeError(w, http.StatusInternalServerError, fmt.Sprintf("request to shard %d: %v", owner, err))
+		return
+	}
+	self, _ := a.v.Shard()
+	req.Header.Set(ShardHeader, strconv.Itoa(self))
+	resp, err := a.opts.Client.Do(req)
+	if err != nil {
+		status := http.StatusBadGateway
+		if errors.Is(err, context.DeadlineExceeded) {
+			status = http.StatusGatewayTimeout
+		}
+		writeError(w, status, fmt.Sprintf("node %q: shard %d did not answer: %v", id, owner, err))
+		return
+	}
+	defer resp.Body.Close()
+	body, err := io.ReadAll(io.LimitReader(resp.Body, maxForwardBody))
+	if err != nil {
+		writeError(w, http.StatusBadGateway, fmt.Sprintf("node %q: reading shard %d's answer: %v", id, owner, err))
+		return
+	}
+	w.Header().Set("Content-Type", resp.Header.Get("Content-Type"))
+	w.Header().Set(ShardHeader, resp.Header.Get(ShardHeader))
+	w.WriteHeader(resp.StatusCode)
+	w.Write(body)
+}
+
+// maxForwardBody bounds a relayed answer: a 730-orbit vector of 20-digit
+// counts is under 16 KiB.
+const maxForwardBody = 1 << 20
+
+// readStore reads node from st as the owner shard does: as of the latest
+// cut with event-time watermark ≤ at when at is not zero, else as of the
+// latest cut ≤ seq. The reply's Status is 200, 404 (unknown node, no such
+// cut), 410 (before the retained history) or 500. Kind and maxNodes label
+// the reply.
+func readStore(st *storage.Store, kind string, maxNodes, shard int, node string, at time.Time, seq uint64) ReadReply {
+	rep := ReadReply{Node: node, Kind: kind, MaxNodes: maxNodes, Shard: shard}
+	if !at.IsZero() {
+		s, ok := st.SeqAtTime(at)
+		switch {
+		case !ok && s > 0:
+			rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", at.Format(time.RFC3339Nano), s, st.Floor())
+			return rep
+		case !ok:
+			rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", at.Format(time.RFC3339Nano))
+			return rep
+		}
+		seq = s
+	}
+	vec, cut, wm, err := st.VectorAt(node, seq)
+	switch {
+	case err == nil:
+		rep.Status, rep.Seq, rep.EventTime, rep.Orbits = http.StatusOK, cut, wm, vec
+	case errors.Is(err, storage.ErrUnknownNode):
+		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", node, cutOrSeq(st, seq))
+	case errors.Is(err, storage.ErrNoCheckpoint):
+		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut at or before seq %d", seq)
+	case errors.Is(err, storage.ErrRetention):
+		rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("seq %d is before the retained history (floor %d)", seq, st.Floor())
+	default:
+		rep.Status, rep.Error = http.StatusInternalServerError, err.Error()
+	}
+	return rep
+}
+
+// cutOrSeq returns the latest retained checkpoint ≤ seq, or seq when there
+// is none, for messages.
+func cutOrSeq(st *storage.Store, seq uint64) uint64 {
+	cps := st.Checkpoints()
+	for i := len(cps) - 1; i >= 0; i-- {
+		if cps[i].Seq <= seq {
+			return cps[i].Seq
+		}
+	}
+	return seq
+}
+
+// shardJSON is one shard's line of /v1/status.
+type shardJSON struct {
+	Shard         int               `json:"shard"`
+	Shards        int               `json:"shards"`
+	AppliedSeq    uint64            `json:"applied_seq"`
+	CutSeq        uint64            `json:"cut_seq"`
+	StreamLastSeq uint64            `json:"stream_last_seq"`
+	Lag           uint64            `json:"lag"`
+	Ready         bool              `json:"ready"`
+	Applied       uint64            `json:"applied"`
+	Expired       uint64            `json:"expired"`
+	Rejected      map[string]uint64 `json:"rejected"`
+	Watermark     *time.Time        `json:"watermark"`
+	StartedAt     *time.Time        `json:"started_at"`
+	CutAt         *time.Time        `json:"cut_at"`
+	// Error is set, and the rest empty, when a peer did not answer.
+	Error string `json:"error,omitempty"`
+}
+
+// statusJSON is the body of /v1/status: the answering shard, its own
+// entry first, then one per peer in shard order (with error set, and the
+// counts zero, when a peer did not answer).
+type statusJSON struct {
+	Shard  int         `json:"shard"`
+	Shards []shardJSON `json:"shards"`
+}
+
+func optTime(t time.Time) *time.Time {
+	if t.IsZero() {
+		return nil
+	}
+	t = t.UTC()
+	return &t
+}
+
+func shardOf(s Status) shardJSON {
+	rej := s.Rejected
+	if rej == nil {
+		rej = map[string]uint64{}
+	}
+	return shardJSON{
+		Shard: s.Shard, Shards: s.Shards, AppliedSeq: s.AppliedSeq, CutSeq: s.CutSeq,
+		StreamLastSeq: s.StreamLastSeq, Lag: s.Lag, Ready: s.Ready,
+		Applied: s.Applied, Expired: s.Expired, Rejected: rej,
+		Watermark: optTime(s.Watermark), StartedAt: optTime(s.StartedAt), CutAt: optTime(s.CutAt),
+	}
+}
+
+func (a *api) status(w http.ResponseWriter, r *http.Request) {
+	local := r.URL.Query().Get("local")
+	if local != "" && local != "true" && local != "false" {
+		writeError(w, http.StatusBadRequest, fmt.Sprintf("local %q: want true or false", local))
+		return
+	}
+	self := shardOf(a.v.Status())
+	out := statusJSON{Shard: self.Shard, Shards: []shardJSON{self}}
+	if local != "true" && len(a.opts.Peers) > 0 {
+		peers := make([]shardJSON, len(a.opts.Peers))
+		var wg sync.WaitGroup
+		for i, p := range a.opts.Peers {
+			if i == self.Shard || p == "" {
+				continue
+			}
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				peers[i] = a.peerStatus(r.Context(), i, p)
+			}()
+		}
+		wg.Wait()
+		for i, p := range peers {
+			if i == self.Shard || a.opts.Peers[i] == "" {
+				continue
+			}
+			if p.Error == "" && p.Shard != i {
+				p = shardJSON{Shard: i, Error: fmt.Sprintf("peer %s says it is shard %d, not %d", a.opts.Peers[i], p.Shard, i)}
+			}
+			out.Shards = append(out.Shards, p)
+		}
+	}
+	writeJSON(w, http.StatusOK, out)
+}
+
+// peerStatus asks the worker of shard i at base for its own status line.
+func (a *api) peerStatus(ctx context.Context, i int, base string) shardJSON {
+	fail := func(err error) shardJSON {
+		return shardJSON{Shard: i, Error: fmt.Sprintf("peer %s: %v", base, err)}
+	}
+	ctx, cancel := context.WithTimeout(ctx, a.opts.Timeout)
+	defer cancel()
+	u, err := url.JoinPath(base, "/v1/status")
+	if err != nil {
+		return fail(err)
+	}
+	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?local=true", nil)
+	if err != nil {
+		return fail(err)
+	}
+	resp, err := a.opts.Client.Do(req)
+	if err != nil {
+		return fail(err)
+	}
+	defer resp.Body.Close()
+	if resp.StatusCode != http.StatusOK {
+		return fail(fmt.Errorf("status %s", resp.Status))
+	}
+	var st statusJSON
+	if err := json.NewDecoder(resp.Body).Decode(&st); err != nil {
+		return fail(fmt.Errorf("decoding its status: %w", err))
+	}
+	if len(st.Shards) != 1 {
+		return fail(fmt.Errorf("it reported %d shards for a local status, want 1", len(st.Shards)))
+	}
+	return st.Shards[0]
+}
+
+func (a *api) healthz(w http.ResponseWriter, r *http.Request) {
+	writeJSON(w, http.StatusOK, map[string]string{"status": "alive"})
+}
+
+func (a *api) readyz(w http.ResponseWriter, r *http.Request) {
+	s := a.v.Status()
+	if !s.Ready {
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: cut %d, log at %d (lag %d)", s.CutSeq, s.StreamLastSeq, s.Lag))
+		return
+	}
+	writeJSON(w, http.StatusOK, map[string]any{"ready": true, "cut_seq": s.CutSeq, "lag": s.Lag})
+}
+
+func (a *api) metrics(w http.ResponseWriter, r *http.Request) {
+	a.opts.Metrics.SyncStatus(a.v.Status())
+	w.Header().Set("Content-Type", MetricsContentType)
+	if r.Method == http.MethodHead {
+		return
+	}
+	a.opts.Metrics.WriteTo(w)
+}
+
+func writeJSON(w http.ResponseWriter, status int, body any) {
+	b, err := json.Marshal(body)
+	if err != nil {
+		panic("shard: API response does not encode as JSON: " + err.Error())
+	}
+	w.Header().Set("Content-Type", "application/json")
+	w.Header().Set("Content-Length", strconv.Itoa(len(b)+1))
+	w.WriteHeader(status)
+	w.Write(append(b, '\n'))
+}
+
+// writeError writes {"error": msg}; an empty msg is replaced by the status
+// text so that no error body is empty.
+func writeError(w http.ResponseWriter, status int, msg string) {
+	if strings.TrimSpace(msg) == "" {
+		msg = http.StatusText(status)
+	}
+	writeJSON(w, status, map[string]string{"error": msg})
+}
