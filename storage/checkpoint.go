@@ -74,10 +74,10 @@ func (st *Store) Commit(cp *Checkpoint) error {
 	if err != nil {
 		return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
 	}
+	st.checkShapes(cp)
 	if cp.Dict.written != dictLen {
 		return fmt.Errorf("storage: commit %d: dictionary has %d stored entries, the store %d (not the dictionary loaded from this store)", cp.Seq, cp.Dict.written, dictLen)
 	}
-	st.checkShapes(cp)
 	if err := st.writeRecords(cp); err != nil {
 		st.fail(err)
 		return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
@@ -114,6 +114,9 @@ func (st *Store) fail(err error) {
 
 // checkShapes panics when cp does not fit the store's settings.
 func (st *Store) checkShapes(cp *Checkpoint) {
+	if cp.Dict == nil || cp.Graph == nil || cp.Vectors == nil {
+		panic("storage: checkpoint without dictionary, graph or vectors")
+	}
 	n := cp.Dict.Len()
 	if cp.Graph.Kind() != st.settings.Kind {
 		panic("storage: checkpoint graph kind differs from the store's")
