@@ -187,7 +187,7 @@ func (c *readCommand) open() (*storage.Store, storage.CheckpointInfo, error) {
 func openData(dir string) (*storage.Store, error) {
 	st, err := storage.OpenReadOnly(dir)
 	if err != nil {
-		return nil, fmt.Errorf("data directory %s: %w", dir, err)
+		return nil, err
 	}
 	if len(st.Checkpoints()) == 0 {
 		st.Close()

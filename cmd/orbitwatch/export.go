@@ -1,0 +1,189 @@
+package main
+
+import (
+	"encoding/csv"
+	"fmt"
+	"io"
+	"os"
+	"strconv"
+
+	"github.com/parquet-go/parquet-go"
+
+	"orbitwatch/internal/progress"
+)
+
+func init() {
+	commands["export"] = command{"write the orbit matrix of a checkpoint as CSV or Parquet", runExport}
+}
+
+// parquetRowGroup bounds the rows a Parquet row group holds, and so the
+// memory the writer buffers.
+const parquetRowGroup = 1 << 17
+
+func runExport(args []string) int {
+	c := newReadCommand("export", true)
+	format := c.fs.String("format", "", "csv (the format of count: header node,0,1,…) or parquet (columns node, o0, o1, …) (required)")
+	out := c.fs.String("out", "", "output file (required); written whole or not at all")
+	formatOK := func() error {
+		if *format != "csv" && *format != "parquet" {
+			return fmt.Errorf("--format must be csv or parquet, not %q", *format)
+		}
+		return nil
+	}
+	if code := c.parse(args, formatOK, c.required("out")); code != 0 {
+		return code
+	}
+	st, cut, err := c.open()
+	if err != nil {
+		return fail("export", err)
+	}
+	defer st.Close()
+	numOrbits := st.Settings().NumOrbits
+	prog := progress.New(os.Stderr, 0, "export nodes")
+	err = createAtomic(*out, func(w io.Writer) error {
+		cw := &countingWriter{w: w, prog: prog}
+		var m matrixWriter
+		if *format == "csv" {
+			m = newMatrixCSV(cw, numOrbits)
+		} else {
+			m = newMatrixParquet(cw, numOrbits)
+		}
+		_, err := st.ForEachAt(cut.Seq, func(node string, vec []uint64) error {
+			prog.Add(1, 0)
+			return m.row(node, vec)
+		})
+		if err != nil {
+			return err
+		}
+		return m.close()
+	})
+	prog.Done()
+	if err != nil {
+		return fail("export", err)
+	}
+	fmt.Fprintf(os.Stderr, "orbitwatch export: %d nodes × %d orbits at checkpoint %d (event time %s) to %s\n",
+		cut.Nodes, numOrbits, cut.Seq, formatEventTime(eventTime(cut.Watermark), "none"), *out)
+	return 0
+}
+
+// matrixWriter writes an orbit matrix one node at a time, in dictionary
+// order.
+type matrixWriter interface {
+	row(node string, vec []uint64) error
+	close() error
+}
+
+// matrixCSV writes the orbit matrix exactly as writeMatrix does (header
+// node,0,1,…, RFC 4180 quoting by encoding/csv), but row by row, so an
+// export never holds the whole matrix.
+type matrixCSV struct {
+	cw  *csv.Writer
+	rec []string
+}
+
+func newMatrixCSV(w io.Writer, numOrbits int) *matrixCSV {
+	m := &matrixCSV{cw: csv.NewWriter(w), rec: make([]string, numOrbits+1)}
+	m.rec[0] = "node"
+	for o := 0; o < numOrbits; o++ {
+		m.rec[o+1] = strconv.Itoa(o)
+	}
+	m.cw.Write(m.rec)
+	return m
+}
+
+func (m *matrixCSV) row(node string, vec []uint64) error {
+	m.rec[0] = node
+	for o, c := range vec {
+		m.rec[o+1] = strconv.FormatUint(c, 10)
+	}
+	return m.cw.Write(m.rec)
+}
+
+func (m *matrixCSV) close() error {
+	m.cw.Flush()
+	return m.cw.Error()
+}
+
+// matrixParquet writes the orbit matrix as Parquet: a required string
+// column "node" (BYTE_ARRAY, UTF8 logical type; ids are written byte for
+// byte) and one required column per orbit named "o<id>" (o0, o1, …),
+// physical INT64 with logical type INTEGER(64, unsigned), zstd-compressed,
+// in row groups of at most parquetRowGroup rows. The columns' physical
+// order is by name (node, o0, o1, o10, …); readers find them by name.
+type matrixParquet struct {
+	w       *parquet.GenericWriter[any]
+	nodeCol int
+	orbCol  []int // column index of orbit o
+	rows    []parquet.Row
+	n       int
+}
+
+func newMatrixParquet(w io.Writer, numOrbits int) *matrixParquet {
+	group := parquet.Group{"node": parquet.String()}
+	for o := 0; o < numOrbits; o++ {
+		group[parquetOrbitColumn(o)] = parquet.Uint(64)
+	}
+	schema := parquet.NewSchema("orbit_matrix", group)
+	m := &matrixParquet{
+		w:      parquet.NewGenericWriter[any](w, schema, parquet.Compression(&parquet.Zstd), parquet.MaxRowsPerRowGroup(parquetRowGroup)),
+		orbCol: make([]int, numOrbits),
+		rows:   make([]parquet.Row, 1024),
+	}
+	m.nodeCol = lookupColumn(schema, "node")
+	for o := range m.orbCol {
+		m.orbCol[o] = lookupColumn(schema, parquetOrbitColumn(o))
+	}
+	for i := range m.rows {
+		m.rows[i] = make(parquet.Row, numOrbits+1)
+	}
+	return m
+}
+
+// parquetOrbitColumn is the Parquet column name of orbit o: "o" and its id.
+func parquetOrbitColumn(o int) string { return "o" + strconv.Itoa(o) }
+
+func lookupColumn(s *parquet.Schema, name string) int {
+	c, ok := s.Lookup(name)
+	if !ok {
+		panic("export: parquet schema lacks column " + name)
+	}
+	return c.ColumnIndex
+}
+
+func (m *matrixParquet) row(node string, vec []uint64) error {
+	r := m.rows[m.n]
+	r[m.nodeCol] = parquet.ByteArrayValue([]byte(node)).Level(0, 0, m.nodeCol)
+	for o, c := range vec {
+		r[m.orbCol[o]] = parquet.Int64Value(int64(c)).Level(0, 0, m.orbCol[o])
+	}
+	m.n++
+	if m.n == len(m.rows) {
+		return m.flush()
+	}
+	return nil
+}
+
+func (m *matrixParquet) flush() error {
+	_, err := m.w.WriteRows(m.rows[:m.n])
+	m.n = 0
+	return err
+}
+
+func (m *matrixParquet) close() error {
+	if err := m.flush(); err != nil {
+		return err
+	}
+	return m.w.Close()
+}
+
+// countingWriter passes writes on and reports their bytes as progress.
+type countingWriter struct {
+	w    io.Writer
+	prog *progress.Reporter
+}
+
+func (c *countingWriter) Write(p []byte) (int, error) {
+	n, err := c.w.Write(p)
+	c.prog.Add(0, int64(n))
+	return n, err
+}

@@ -1,0 +1,237 @@
+package main
+
+import (
+	"bytes"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/format"
+
+	"orbitwatch/delta"
+	"orbitwatch/storage"
+)
+
+func TestExportCSVEqualsCountAndReplay(t *testing.T) {
+	f := newFixture(t, 31, true, 100)
+	dir := t.TempDir()
+	count := mustRunCmd(t, "count", "--input", f.log)
+	latest := filepath.Join(dir, "latest.csv")
+	r := mustRunCmd(t, "export", "--data", f.data, "--format", "csv", "--out", latest)
+	got, err := os.ReadFile(latest)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(got, []byte(count.stdout)) {
+		t.Fatalf("export csv differs from count on the same log:\nexport:\n%.400s\ncount:\n%.400s", got, count.stdout)
+	}
+	if !bytes.Contains(got, []byte(`"shop ""corner"", east"`)) || !bytes.Contains(got, []byte(`" acct with space"`)) {
+		t.Errorf("fixture: the ids that need quoting are not in the export")
+	}
+	if !strings.Contains(r.stderr, "export nodes: done,") {
+		t.Errorf("no progress on stderr: %q", r.stderr)
+	}
+	for _, n := range f.seqs {
+		for _, store := range []string{f.data, f.direct} {
+			out := filepath.Join(dir, strconv.FormatUint(n, 10)+filepath.Base(store)+".csv")
+			mustRunCmd(t, "export", "--data", store, "--seq", strconv.FormatUint(n, 10), "--format", "csv", "--out", out)
+			sameFile(t, out, f.replayCSV(n))
+		}
+	}
+	// --at between checkpoints 200 and 300 is checkpoint 200.
+	at := filepath.Join(dir, "at.csv")
+	mustRunCmd(t, "export", "--data", f.data, "--at", watermarkAt(t, f.lines, 250).Format(time.RFC3339), "--format", "csv", "--out", at)
+	sameFile(t, at, f.replayCSV(200))
+}
+
+func sameFile(t *testing.T, got, want string) {
+	t.Helper()
+	a, err := os.ReadFile(got)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(a, b) {
+		t.Errorf("%s differs from %s", got, want)
+	}
+}
+
+// readParquet reads an exported orbit matrix back with parquet-go, checking
+// the documented schema: a string column node and INT64 columns o0… with
+// the unsigned 64-bit integer logical type.
+func readParquet(t *testing.T, path string, numOrbits int) (order []string, rows map[string][]uint64) {
+	t.Helper()
+	fh, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fh.Close()
+	fi, err := fh.Stat()
+	if err != nil {
+		t.Fatal(err)
+	}
+	pf, err := parquet.OpenFile(fh, fi.Size())
+	if err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+	schema := pf.Schema()
+	if n := len(schema.Columns()); n != numOrbits+1 {
+		t.Fatalf("%d columns, want node and %d orbits", n, numOrbits)
+	}
+	nodeCol, ok := schema.Lookup("node")
+	if !ok || nodeCol.Node.Type().Kind() != parquet.ByteArray || !isString(nodeCol.Node.Type().LogicalType()) {
+		t.Fatalf("column node missing or not a string: %v", schema)
+	}
+	cols := make([]int, numOrbits)
+	for o := range cols {
+		c, ok := schema.Lookup("o" + strconv.Itoa(o))
+		if !ok {
+			t.Fatalf("column o%d missing", o)
+		}
+		it := intType(c.Node.Type().LogicalType())
+		if c.Node.Type().Kind() != parquet.Int64 || it == nil || it.BitWidth != 64 || it.IsSigned {
+			t.Fatalf("column o%d is %v, want INT64 with logical type unsigned 64-bit", o, c.Node.Type())
+		}
+		cols[o] = c.ColumnIndex
+	}
+	rows = map[string][]uint64{}
+	buf := make([]parquet.Row, 100)
+	for _, rg := range pf.RowGroups() {
+		rr := rg.Rows()
+		for {
+			n, err := rr.ReadRows(buf)
+			for _, row := range buf[:n] {
+				name := string(row[nodeCol.ColumnIndex].ByteArray())
+				vec := make([]uint64, numOrbits)
+				for o, c := range cols {
+					vec[o] = row[c].Uint64()
+				}
+				order = append(order, name)
+				rows[name] = vec
+			}
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+		}
+		rr.Close()
+	}
+	if int64(len(order)) != pf.NumRows() {
+		t.Fatalf("read %d rows, the file says %d", len(order), pf.NumRows())
+	}
+	return order, rows
+}
+
+func isString(lt *format.LogicalType) bool {
+	if lt == nil {
+		return false
+	}
+	_, ok := lt.Value.(*format.StringType)
+	return ok
+}
+
+func intType(lt *format.LogicalType) *format.IntType {
+	if lt == nil {
+		return nil
+	}
+	it, _ := lt.Value.(*format.IntType)
+	return it
+}
+
+func TestExportParquetEqualsCSV(t *testing.T) {
+	f := newFixture(t, 32, true, 150)
+	dir := t.TempDir()
+	for _, n := range []uint64{150, f.seqs[len(f.seqs)-1]} {
+		seq := strconv.FormatUint(n, 10)
+		pq := filepath.Join(dir, seq+".parquet")
+		mustRunCmd(t, "export", "--data", f.data, "--seq", seq, "--format", "parquet", "--out", pq)
+		csvOut := filepath.Join(dir, seq+".csv")
+		mustRunCmd(t, "export", "--data", f.data, "--seq", seq, "--format", "csv", "--out", csvOut)
+		wantOrder, want := readMatrix(t, csvOut)
+		gotOrder, got := readParquet(t, pq, 15)
+		if strings.Join(gotOrder, "\x00") != strings.Join(wantOrder, "\x00") {
+			t.Fatalf("seq %d: parquet node order differs from the CSV's", n)
+		}
+		for _, x := range wantOrder {
+			if !equalUints(got[x], want[x]) {
+				t.Errorf("seq %d node %q: parquet %v, csv %v", n, x, got[x], want[x])
+			}
+		}
+	}
+}
+
+// TestExportParquetFullUint64 commits counts above the int64 range and
+// reads them back: they travel as INT64 bits with the unsigned logical
+// type, never as negative numbers.
+func TestExportParquetFullUint64(t *testing.T) {
+	data := filepath.Join(t.TempDir(), "data")
+	st, err := storage.Open(data, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dict := storage.NewDict()
+	dict.Intern("acct-big")
+	dict.Intern("acct-small")
+	g := delta.NewGraph(delta.Undirected)
+	g.Grow(2)
+	vec := delta.NewVectors(2, 15)
+	huge := []uint64{1<<63 + 5, 1<<64 - 1, 1 << 63}
+	for o, c := range huge {
+		vec.Set(0, o, c)
+	}
+	vec.Set(1, 14, 7)
+	if err := st.Commit(&storage.Checkpoint{Seq: 1, Dict: dict, Graph: g, Vectors: vec, Nodes: []uint32{0, 1}}); err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Close(); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(t.TempDir(), "m.parquet")
+	mustRunCmd(t, "export", "--data", data, "--format", "parquet", "--out", out)
+	order, rows := readParquet(t, out, 15)
+	if strings.Join(order, ",") != "acct-big,acct-small" {
+		t.Fatalf("rows %q", order)
+	}
+	for o, c := range huge {
+		if rows["acct-big"][o] != c {
+			t.Errorf("orbit %d: %d, want %d", o, rows["acct-big"][o], c)
+		}
+	}
+	if rows["acct-small"][14] != 7 || rows["acct-small"][0] != 0 {
+		t.Errorf("acct-small: %v", rows["acct-small"])
+	}
+}
+
+func TestExportFlags(t *testing.T) {
+	f := newFixture(t, 33, false, 200)
+	dir := t.TempDir()
+	out := filepath.Join(dir, "m.csv")
+	for _, c := range []struct {
+		args []string
+		code int
+		msg  string
+	}{
+		{[]string{"--format", "xlsx", "--out", out}, 2, "--format must be csv or parquet"},
+		{[]string{"--format", "csv"}, 2, "--out is required"},
+		{[]string{"--format", "csv", "--out", out, "--seq", "199"}, 1, "no checkpoint at or before seq 199"},
+		{[]string{"--format", "csv", "--out", filepath.Join(dir, "no", "such", "dir", "m.csv")}, 1, "no such file"},
+	} {
+		r := runCmd(t, append([]string{"export", "--data", f.data}, c.args...)...)
+		if r.code != c.code || !strings.Contains(r.stderr, c.msg) {
+			t.Errorf("export %v: exit %d, stderr %q; want exit %d and %q", c.args, r.code, r.stderr, c.code, c.msg)
+		}
+	}
+	if ents, _ := os.ReadDir(dir); len(ents) != 0 {
+		t.Errorf("failed exports left files: %v", ents)
+	}
+}
