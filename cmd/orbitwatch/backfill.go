@@ -126,7 +126,8 @@ func runBackfill(args []string) int {
 		}
 	}
 	in.summary("backfill")
-	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges)\n", *data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges())
+	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges); this run wrote %d checkpoints, %d node vector versions\n",
+		*data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges(), b.checkpoints, b.versions)
 	if errors.Is(runErr, context.Canceled) {
 		fmt.Fprintln(os.Stderr, "orbitwatch backfill: interrupted; rerun with the same arguments to go on")
 		return 130
@@ -142,6 +143,8 @@ type backfill struct {
 	applier *shard.Applier
 	records []inputRecord
 	keep    time.Duration
+
+	checkpoints, versions uint64 // written by this run: checkpoints and node vector versions
 }
 
 // checkpoint commits what changed since the last one, with the input
@@ -157,6 +160,8 @@ func (b *backfill) checkpoint() error {
 	if err := b.st.Commit(b.applier.Checkpoint(map[string][]byte{inputsBlob: blob})); err != nil {
 		return fmt.Errorf("checkpoint at seq %d: %w", b.applier.Seq(), err)
 	}
+	b.checkpoints++
+	b.versions += uint64(len(b.applier.Touched()))
 	b.applier.ResetTouched()
 	if b.keep > 0 && !b.applier.Watermark().IsZero() {
 		if seq, ok := b.st.SeqAtTime(b.applier.Watermark().Add(-b.keep)); ok {
