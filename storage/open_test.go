@@ -183,3 +183,22 @@ func firstFile(t *testing.T, dir, ext string) string {
 	}
 	return m[0]
 }
+
+// TestCreateInterrupted: a Badger directory left without any record (a
+// crash between Badger creating it and the settings commit) is created
+// afresh rather than refused.
+func TestCreateInterrupted(t *testing.T) {
+	dir := t.TempDir()
+	db, err := badger.OpenManaged(badger.DefaultOptions(dir).WithLoggingLevel(badger.WARNING))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	st := mustOpen(t, dir, undirected4)
+	defer st.Close()
+	if st.Settings() != undirected4 || st.Seq() != 0 {
+		t.Fatalf("settings %+v seq %d after creating over an empty Badger directory", st.Settings(), st.Seq())
+	}
+}

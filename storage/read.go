@@ -95,8 +95,10 @@ func nodeNumber(txn *badger.Txn, node string, cut CheckpointInfo) (uint32, error
 	return x, nil
 }
 
-// SeqAtTime returns the latest complete, retained checkpoint whose
-// event-time watermark is ≤ t, read through the watermark index.
+// SeqAtTime returns the latest complete checkpoint whose event-time
+// watermark is ≤ t, read through the watermark index, with ok true. When
+// that checkpoint is below the retention floor it returns its seq with ok
+// false; when there is none, 0 and false.
 func (st *Store) SeqAtTime(t time.Time) (uint64, bool) {
 	bits, err := watermarkBits(t)
 	if err != nil {

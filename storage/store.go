@@ -32,12 +32,12 @@ type Store struct {
 	readOnly bool
 
 	mu       sync.RWMutex
-	complete uint64           // last complete checkpoint, 0 if none
-	dictLen  int              // dictionary entries stored as of complete
-	cps      []CheckpointInfo // every complete checkpoint, by Seq
-	floor    uint64           // retention floor: reads below it are refused
-	torn     map[string][]uint64
-	failed   error // a Commit that failed half-way; reopen to repair
+	complete uint64              // last complete checkpoint, 0 if none
+	dictLen  int                 // dictionary entries stored as of complete
+	cps      []CheckpointInfo    // every complete checkpoint, by Seq
+	floor    uint64              // retention floor: reads below it are refused
+	torn     map[string][]uint64 // key → versions above complete left by a torn checkpoint, newest first
+	failed   error               // a Commit that failed half-way; reopen to repair
 
 	gcStop chan struct{}
 	gcDone chan struct{}
@@ -71,13 +71,19 @@ func Open(dir string, s Settings) (*Store, error) {
 	if err != nil {
 		return nil, err
 	}
-	if fresh {
-		err = st.writeSettings(s)
-	} else {
+	if !fresh {
 		err = st.readSettings()
-		if err == nil {
+		// A crash between Badger creating the directory and the settings
+		// commit leaves a Badger directory with no records at all.
+		switch {
+		case errors.Is(err, errNoSettings) && st.empty():
+			fresh, err = true, nil
+		case err == nil:
 			err = st.settings.mismatch(s)
 		}
+	}
+	if fresh {
+		err = st.writeSettings(s)
 	}
 	if err == nil {
 		err = st.readMeta()
@@ -96,7 +102,10 @@ func Open(dir string, s Settings) (*Store, error) {
 
 // OpenReadOnly opens an existing store for queries, history, export and
 // verification. Its settings are those recorded in it. It reads as of the
-// last checkpoint complete when it was opened.
+// last checkpoint complete when it was opened. Badger cannot replay a
+// crashed writer's log without writing, so a store whose writer was killed
+// must be opened read-write once (which recovers it) before it opens
+// read-only; the error says so. A missing directory is an error.
 func OpenReadOnly(dir string) (*Store, error) {
 	if _, err := os.Stat(filepath.Join(dir, badger.ManifestFilename)); err != nil {
 		if _, derr := os.Stat(dir); derr != nil {
@@ -180,12 +189,24 @@ func (st *Store) writeSettings(s Settings) error {
 	return st.db.Sync()
 }
 
+var errNoSettings = errors.New("not an orbitwatch store: Badger directory without a settings record")
+
+// empty reports whether Badger holds no record at all.
+func (st *Store) empty() bool {
+	txn := st.db.NewTransactionAt(math.MaxUint64, false)
+	defer txn.Discard()
+	it := txn.NewIterator(badger.IteratorOptions{AllVersions: true})
+	defer it.Close()
+	it.Rewind()
+	return !it.Valid()
+}
+
 func (st *Store) readSettings() error {
 	txn := st.db.NewTransactionAt(math.MaxUint64, false)
 	defer txn.Discard()
 	item, err := txn.Get([]byte{pSettings})
 	if errors.Is(err, badger.ErrKeyNotFound) {
-		return fmt.Errorf("not an orbitwatch store: Badger directory without a settings record")
+		return errNoSettings
 	}
 	if err != nil {
 		return err
