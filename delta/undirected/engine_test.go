@@ -165,3 +165,33 @@ func TestEngineContract(t *testing.T) {
 		}()
 	}
 }
+
+// TestEngineNoAllocs checks that a warmed engine allocates nothing per
+// event, for inserts and deletes at a hub and away from it.
+func TestEngineNoAllocs(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 1))
+	g := barabasiAlbert(rng, 2000, 3)
+	e := NewEngine(4)
+	var sum int64
+	emit := func(_ uint32, _ int, d int64) { sum += d }
+	edges := [][2]uint32{{0, 1}, {1, 0}, {1500, 1999}, {3, 1700}}
+	for _, uv := range edges {
+		if !g.HasEdge(uv[0], uv[1]) {
+			g.Link(uv[0], uv[1])
+		}
+		e.Delete(g, uv[0], uv[1], emit)
+	}
+	for _, uv := range edges {
+		if n := testing.AllocsPerRun(20, func() { e.Delete(g, uv[0], uv[1], emit) }); n != 0 {
+			t.Errorf("Delete %v: %v allocations per event", uv, n)
+		}
+		g.Unlink(uv[0], uv[1])
+		if n := testing.AllocsPerRun(20, func() { e.Insert(g, uv[0], uv[1], emit) }); n != 0 {
+			t.Errorf("Insert %v: %v allocations per event", uv, n)
+		}
+		g.Link(uv[0], uv[1])
+	}
+	if sum == 0 {
+		t.Fatal("no changes emitted")
+	}
+}
