@@ -48,6 +48,10 @@ type Applier struct {
 	applied, expired uint64
 	rejected         map[string]uint64
 	emit             delta.Emit
+
+	// computes, when set, says which simple-graph changes this applier
+	// computes orbit changes for (the others only change the graph).
+	computes func(u, v uint32) bool
 }
 
 // NewApplier returns an applier over an empty graph. A window of zero
@@ -171,8 +175,46 @@ func (a *Applier) check(ev stream.Event) error {
 	return nil
 }
 
+// Route makes the applier a shard worker's: it computes the orbit changes
+// only of simple-graph changes {u,v} with computes(u, v) true and hands
+// them to emit instead of adding them to its own vectors; every event still
+// changes the graph and the dictionary. The owner's side adds the changes
+// it receives with AddDelta. Call Route before the first Apply.
+func (a *Applier) Route(computes func(u, v uint32) bool, emit delta.Emit) {
+	if computes == nil || emit == nil {
+		panic("shard: Route needs both a partition and an emit")
+	}
+	a.computes, a.emit = computes, emit
+}
+
+// AddDelta adds d to count (x, o) and marks x touched: a routed orbit
+// change arriving at the node's owner. x must be a known node. An error is
+// an invariant violation (a count leaving the uint64 range): the caller
+// must stop.
+func (a *Applier) AddDelta(x uint32, o int, d int64) error {
+	if int(x) >= a.dict.Len() {
+		return fmt.Errorf("seq %d: orbit change for node %d, only %d known", a.seq, x, a.dict.Len())
+	}
+	a.add(x, o, d)
+	return a.fault
+}
+
+// Pass uses up log position seq for a log message that is not an event (a
+// control message): it changes nothing but the position.
+func (a *Applier) Pass(seq uint64) {
+	if seq <= a.seq {
+		panic("shard: Pass with a sequence that does not increase")
+	}
+	a.seq = seq
+}
+
+// computesEdge reports whether this applier computes the change of {u,v}.
+func (a *Applier) computesEdge(u, v uint32) bool {
+	return a.computes == nil || a.computes(u, v)
+}
+
 func (a *Applier) increment(u, v uint32) error {
-	if !a.graph.HasEdge(u, v) {
+	if !a.graph.HasEdge(u, v) && a.computesEdge(u, v) {
 		a.count.Engine.Insert(a.graph, u, v, a.emit)
 	}
 	_, err := a.graph.Increment(u, v)
@@ -181,7 +223,7 @@ func (a *Applier) increment(u, v uint32) error {
 }
 
 func (a *Applier) decrement(u, v uint32) error {
-	if a.graph.Multiplicity(u, v) == 1 {
+	if a.graph.Multiplicity(u, v) == 1 && a.computesEdge(u, v) {
 		a.count.Engine.Delete(a.graph, u, v, a.emit)
 	}
 	_, err := a.graph.Decrement(u, v)

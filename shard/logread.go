@@ -1,0 +1,194 @@
+package shard
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strconv"
+	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
+
+	"orbitwatch/stream"
+)
+
+// Defaults for a deployment's names and batching.
+const (
+	DefaultStream  = "ORBITWATCH"
+	DefaultSubject = "orbitwatch.events"
+	// DefaultBatch is the number of log positions per batch: batches end
+	// at every multiple of it (and at cut control messages).
+	DefaultBatch = 1024
+	// DefaultIdle is how long the log must be idle, with shard 0 caught
+	// up and a batch partly filled, before shard 0 asks for a cut.
+	DefaultIdle = 25 * time.Millisecond
+)
+
+// Headers of the control and reject messages this package writes.
+const (
+	// ControlHeader marks a log message that is not an event; its value
+	// says what it is. "cut" ends the current batch at its position.
+	ControlHeader = "Orbitwatch-Control"
+	// RejectReasonHeader and RejectSeqHeader go with a message republished
+	// on the rejects subject: why it was rejected and its log sequence.
+	RejectReasonHeader = "Orbitwatch-Reject-Reason"
+	RejectSeqHeader    = "Orbitwatch-Reject-Seq"
+)
+
+// Metadata keys of the shuffle stream that fix a deployment's layout.
+const (
+	metaShards = "orbitwatch-shards"
+	metaBatch  = "orbitwatch-batch"
+)
+
+func shuffleStream(name string) string { return name + "_SHUFFLE" }
+func rejectsStream(name string) string { return name + "_REJECTS" }
+func shuffleSubject(subject string, owner int) string {
+	return subject + ".shuffle." + strconv.Itoa(owner)
+}
+
+// RejectsSubject is where the workers republish the log messages they
+// reject, with RejectReasonHeader and RejectSeqHeader; a stream named
+// <stream>_REJECTS keeps them.
+func RejectsSubject(subject string) string { return subject + ".rejects" }
+
+// ensureStreams creates (or checks) the log stream, the shuffle stream and
+// the rejects stream. The shuffle stream records the shard count and the
+// batch size when it is created; a worker with other values is refused,
+// because the deltas of every batch must meet at the same owners.
+func ensureStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfig) (last uint64, err error) {
+	log, err := stream.EnsureStream(ctx, js, cfg.Stream, cfg.Subject, cfg.Replicas)
+	if err != nil {
+		return 0, err
+	}
+	meta := map[string]string{metaShards: strconv.Itoa(cfg.Shards), metaBatch: strconv.FormatUint(cfg.Batch, 10)}
+	sc := jetstream.StreamConfig{
+		Name:       shuffleStream(cfg.Stream),
+		Subjects:   []string{cfg.Subject + ".shuffle.*"},
+		Storage:    jetstream.FileStorage,
+		Retention:  jetstream.LimitsPolicy,
+		Replicas:   cfg.Replicas,
+		Duplicates: stream.DefaultDuplicateWindow,
+		Metadata:   meta,
+	}
+	s, err := js.CreateStream(ctx, sc)
+	if errors.Is(err, jetstream.ErrStreamNameAlreadyInUse) {
+		s, err = js.Stream(ctx, sc.Name)
+	}
+	if err != nil {
+		return 0, fmt.Errorf("shuffle stream %s: %w", sc.Name, err)
+	}
+	have := s.CachedInfo().Config.Metadata
+	if have[metaShards] != meta[metaShards] || have[metaBatch] != meta[metaBatch] {
+		return 0, fmt.Errorf("this deployment (stream %s) was created for %s shards with batches of %s; this worker has --shards %d and batch %d: the shard count is fixed, see the offline procedure for changing it",
+			cfg.Stream, have[metaShards], have[metaBatch], cfg.Shards, cfg.Batch)
+	}
+	if _, err := stream.EnsureStream(ctx, js, rejectsStream(cfg.Stream), RejectsSubject(cfg.Subject), cfg.Replicas); err != nil {
+		return 0, err
+	}
+	info, err := log.Info(ctx)
+	if err != nil {
+		return 0, fmt.Errorf("log stream %s: %w", cfg.Stream, err)
+	}
+	return info.State.LastSeq, nil
+}
+
+// inMsg is one message read from a stream, in order.
+type inMsg struct {
+	seq     uint64 // stream sequence
+	pending uint64 // messages after it in the stream when it was delivered
+	data    []byte
+	header  nats.Header
+	read    time.Time
+}
+
+// follow reads stream name (only filter, when set) in order from sequence
+// start into out until ctx is done. A transport failure (a server restart,
+// a lost consumer) is retried from the next sequence after a pause, so out
+// sees every sequence once and in order.
+func follow(ctx context.Context, js jetstream.JetStream, name, filter string, start uint64, out chan<- inMsg) {
+	next := max(start, 1)
+	for ctx.Err() == nil {
+		cfg := jetstream.OrderedConsumerConfig{DeliverPolicy: jetstream.DeliverAllPolicy}
+		if next > 1 {
+			cfg.DeliverPolicy, cfg.OptStartSeq = jetstream.DeliverByStartSequencePolicy, next
+		}
+		if filter != "" {
+			cfg.FilterSubjects = []string{filter}
+		}
+		c, err := js.OrderedConsumer(ctx, name, cfg)
+		if err != nil {
+			pause(ctx, 200*time.Millisecond)
+			continue
+		}
+		it, err := c.Messages(jetstream.PullMaxMessages(2048))
+		if err != nil {
+			pause(ctx, 200*time.Millisecond)
+			continue
+		}
+		next = drain(ctx, it, next, out)
+		it.Stop()
+		pause(ctx, 100*time.Millisecond)
+	}
+}
+
+// drain moves messages from it to out until an error, returning the next
+// sequence wanted. Messages below next (a redelivery after a reset) are
+// dropped.
+func drain(ctx context.Context, it jetstream.MessagesContext, next uint64, out chan<- inMsg) uint64 {
+	stop := context.AfterFunc(ctx, it.Stop)
+	defer stop()
+	for {
+		m, err := it.Next()
+		if err != nil {
+			return next
+		}
+		md, err := m.Metadata()
+		if err != nil {
+			return next
+		}
+		if md.Sequence.Stream < next {
+			continue
+		}
+		select {
+		case out <- inMsg{seq: md.Sequence.Stream, pending: md.NumPending, data: m.Data(), header: m.Headers(), read: time.Now()}:
+			next = md.Sequence.Stream + 1
+		case <-ctx.Done():
+			return next
+		}
+	}
+}
+
+func pause(ctx context.Context, d time.Duration) {
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-t.C:
+	case <-ctx.Done():
+	}
+}
+
+// publishRetry publishes msg with the given message id, retrying transport
+// failures (a server restarting, no quorum yet) until ctx is done. A
+// rejection by the server that retrying cannot mend is returned.
+func publishRetry(ctx context.Context, js jetstream.JetStream, msg *nats.Msg, id string) error {
+	wait := 50 * time.Millisecond
+	for {
+		pctx, cancel := context.WithTimeout(ctx, 5*time.Second)
+		_, err := js.PublishMsg(pctx, msg, jetstream.WithMsgID(id))
+		cancel()
+		if err == nil {
+			return nil
+		}
+		var apiErr *jetstream.APIError
+		if errors.As(err, &apiErr) && apiErr.Code != 503 {
+			return fmt.Errorf("publish %s: %w", id, err)
+		}
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		pause(ctx, wait)
+		wait = min(2*wait, 2*time.Second)
+	}
+}

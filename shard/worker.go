@@ -1,0 +1,511 @@
+package shard
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
+
+	"orbitwatch/storage"
+	"orbitwatch/stream"
+)
+
+// WorkerConfig configures one shard worker of a deployment.
+type WorkerConfig struct {
+	// Conn is the NATS connection; the caller closes it after Run.
+	Conn *nats.Conn
+	// Stream and Subject name the log stream and its subject (defaults
+	// DefaultStream, DefaultSubject). Replicas is the replica count of the
+	// streams the worker creates when they are absent (default 1).
+	Stream, Subject string
+	Replicas        int
+	// Shard is this worker's shard among Shards (0 ≤ Shard < Shards ≤ 4096).
+	Shard, Shards int
+	// Batch is the number of log positions per batch (default
+	// DefaultBatch); Idle the idle time before shard 0 asks for a cut of
+	// a partly filled batch (default DefaultIdle).
+	Batch uint64
+	Idle  time.Duration
+	// Counting and Window say what is counted (Counting's engine is the
+	// worker's own: engines are not safe for concurrent use); Store is the worker's
+	// opened store, created with matching settings. The caller closes it
+	// after Run.
+	Counting *Counting
+	Window   time.Duration
+	Store    *storage.Store
+	// Logf, when set, hears of rejects and retries.
+	Logf func(format string, args ...any)
+}
+
+// workerBlob is the storage blob with the worker's shuffle positions.
+const workerBlob = "worker"
+
+// workerRecord is stored with every cut, in the same checkpoint as the
+// adjacency and the owned vectors.
+type workerRecord struct {
+	Shard  int    `json:"shard"`
+	Shards int    `json:"shards"`
+	Batch  uint64 `json:"batch"`
+	// Cut is the last complete cut (the log sequence its batch ends at).
+	Cut uint64 `json:"cut"`
+	// Origins holds the last batch applied from each origin shard.
+	Origins []uint64 `json:"origins"`
+	// ShuffleNext is the shuffle stream sequence to read on from.
+	ShuffleNext uint64 `json:"shuffle_next"`
+}
+
+// Worker is one shard of a deployment. It reads the whole log in order,
+// keeps the whole adjacency, computes the orbit changes of the edges
+// EdgeShard gives it, sends each owner one message per batch with the
+// summed changes for the owner's nodes, and applies the changes for its
+// own nodes once all shards' messages of a batch are in: that batch's end
+// is then a complete cut, committed to the store with the adjacency and
+// the shuffle positions in one checkpoint.
+//
+// Batches end at every multiple of Batch and at cut control messages,
+// which shard 0 writes into the log itself when it is caught up and a
+// partly filled batch has been idle for Idle: the cut is then at a log
+// position every worker sees.
+type Worker struct {
+	cfg WorkerConfig
+	js  jetstream.JetStream
+	a   *Applier
+	out *outbox
+	buf []byte
+
+	owners  []int32 // owning shard by dense node id, filled as ids appear
+	cut     uint64
+	origins []uint64
+	inbox   map[uint64][]*shuffleMsg // by batch end, one slot per origin
+	merged  map[uint64]int64         // a batch's changes summed over origins
+	shufNxt uint64
+
+	batchFirst time.Time // when the current batch's first message was read
+	lastRead   time.Time
+	pending    uint64
+	cutAsked   uint64
+
+	startLast  atomic.Uint64 // the log's last seq when Run started; MaxUint64 before
+	started    time.Time
+	appliedSeq atomic.Uint64
+	streamLast atomic.Uint64
+	mu         sync.Mutex
+	snap       Status // cut-time fields, under mu
+	obs        atomic.Value
+}
+
+type observerBox struct{ o Observer }
+
+// NewWorker loads the worker's state from cfg.Store. A store written by
+// another shard, or for another shard count or batch size, is refused.
+func NewWorker(cfg WorkerConfig) (*Worker, error) {
+	if cfg.Conn == nil || cfg.Store == nil || cfg.Counting == nil {
+		panic("shard: NewWorker needs a connection, a store and counters")
+	}
+	if cfg.Stream == "" {
+		cfg.Stream = DefaultStream
+	}
+	if cfg.Subject == "" {
+		cfg.Subject = DefaultSubject
+	}
+	if cfg.Replicas == 0 {
+		cfg.Replicas = 1
+	}
+	if cfg.Batch == 0 {
+		cfg.Batch = DefaultBatch
+	}
+	if cfg.Idle == 0 {
+		cfg.Idle = DefaultIdle
+	}
+	if cfg.Shards < 1 || cfg.Shards > 4096 || cfg.Shard < 0 || cfg.Shard >= cfg.Shards {
+		return nil, fmt.Errorf("shard %d of %d: want 0 ≤ shard < shards ≤ 4096", cfg.Shard, cfg.Shards)
+	}
+	if cfg.Counting.Catalog.NumOrbits() > 1<<16 {
+		return nil, fmt.Errorf("%d orbits: shuffle messages carry at most 65536", cfg.Counting.Catalog.NumOrbits())
+	}
+	js, err := jetstream.New(cfg.Conn)
+	if err != nil {
+		return nil, err
+	}
+	state, err := cfg.Store.Load()
+	if err != nil {
+		return nil, err
+	}
+	a, err := Restore(cfg.Counting, cfg.Window, state)
+	if err != nil {
+		return nil, err
+	}
+	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards), inbox: map[uint64][]*shuffleMsg{}, merged: map[uint64]int64{},
+		origins: make([]uint64, cfg.Shards), shufNxt: 1, started: time.Now()}
+	if b, ok := state.Blobs[workerBlob]; ok {
+		var rec workerRecord
+		if err := json.Unmarshal(b, &rec); err != nil {
+			return nil, fmt.Errorf("stored worker record: %w", err)
+		}
+		if rec.Shard != cfg.Shard || rec.Shards != cfg.Shards || rec.Batch != cfg.Batch || len(rec.Origins) != cfg.Shards {
+			return nil, fmt.Errorf("this data directory holds shard %d of %d with batches of %d; this worker is shard %d of %d with batches of %d",
+				rec.Shard, rec.Shards, rec.Batch, cfg.Shard, cfg.Shards, cfg.Batch)
+		}
+		if rec.Cut != state.Seq {
+			return nil, fmt.Errorf("stored worker record is at cut %d, the checkpoint at %d", rec.Cut, state.Seq)
+		}
+		w.cut, w.origins, w.shufNxt = rec.Cut, rec.Origins, rec.ShuffleNext
+	} else if state.Seq != 0 {
+		return nil, fmt.Errorf("this data directory was not written by a worker (it is at seq %d): give an empty directory", state.Seq)
+	}
+	a.Route(w.computes, w.emit)
+	w.startLast.Store(math.MaxUint64)
+	w.appliedSeq.Store(a.Seq())
+	w.snapshot()
+	return w, nil
+}
+
+// computes reports whether this shard computes the change of edge {u,v}.
+func (w *Worker) computes(u, v uint32) bool {
+	if w.cfg.Shards == 1 {
+		return true
+	}
+	return EdgeShard(w.a.dict.Name(u), w.a.dict.Name(v), w.cfg.Shards) == w.cfg.Shard
+}
+
+func (w *Worker) emit(x uint32, o int, d int64) {
+	w.out.add(w.ownerOf(x), x, o, d)
+}
+
+func (w *Worker) ownerOf(x uint32) int {
+	for int(x) >= len(w.owners) {
+		w.owners = append(w.owners, int32(OwnerOf(w.a.dict.Name(uint32(len(w.owners))), w.cfg.Shards)))
+	}
+	return int(w.owners[x])
+}
+
+// Run follows the log until ctx is done, then returns nil: the state at
+// the last complete cut is in the store, and a new Run (after NewWorker on
+// the same store) goes on from there. Any other return is an error that
+// stops the worker: an invariant violation or a server refusal.
+func (w *Worker) Run(ctx context.Context) error {
+	err := w.run(ctx)
+	if ctx.Err() != nil {
+		return nil
+	}
+	return err
+}
+
+func (w *Worker) run(ctx context.Context) error {
+	last, err := ensureStreams(ctx, w.js, &w.cfg)
+	if err != nil {
+		return err
+	}
+	w.startLast.Store(last)
+	w.streamLast.Store(max(last, w.a.Seq()))
+	w.snapshot()
+	fctx, cancel := context.WithCancel(ctx)
+	var wg sync.WaitGroup
+	defer wg.Wait()
+	defer cancel()
+	logCh := make(chan inMsg, 4096)
+	shufCh := make(chan inMsg, 256)
+	wg.Add(2)
+	go func() { defer wg.Done(); follow(fctx, w.js, w.cfg.Stream, "", w.a.Seq()+1, logCh) }()
+	go func() {
+		defer wg.Done()
+		follow(fctx, w.js, shuffleStream(w.cfg.Stream), shuffleSubject(w.cfg.Subject, w.cfg.Shard), w.shufNxt, shufCh)
+	}()
+	sub, err := w.serveReads()
+	if err != nil {
+		return err
+	}
+	defer sub.Unsubscribe()
+
+	var tick <-chan time.Time
+	if w.cfg.Shard == 0 {
+		t := time.NewTicker(max(w.cfg.Idle/2, time.Millisecond))
+		defer t.Stop()
+		tick = t.C
+	}
+	for {
+		select {
+		case <-ctx.Done():
+			return nil
+		case m := <-logCh:
+			if err := w.logMsg(ctx, m, shufCh); err != nil {
+				return err
+			}
+		case m := <-shufCh:
+			w.receive(m)
+		case <-tick:
+			if err := w.askCut(ctx); err != nil {
+				return err
+			}
+		}
+	}
+}
+
+// logMsg applies one log message and ends the batch when it is a batch's
+// last.
+func (w *Worker) logMsg(ctx context.Context, m inMsg, shufCh <-chan inMsg) error {
+	seq := m.seq
+	if seq <= w.a.Seq() {
+		return nil
+	}
+	if w.a.Seq() == w.cut {
+		w.batchFirst = m.read
+	}
+	w.lastRead, w.pending = m.read, m.pending
+	w.streamLast.Store(seq + m.pending)
+	isCut := false
+	if v := m.header.Get(ControlHeader); v != "" {
+		w.a.Pass(seq)
+		isCut = v == "cut"
+	} else if err := w.event(ctx, m); err != nil {
+		return err
+	}
+	w.appliedSeq.Store(seq)
+	if isCut || seq%w.cfg.Batch == 0 {
+		return w.endBatch(ctx, seq, m.read, shufCh)
+	}
+	return nil
+}
+
+// malformedReason is the reject reason counted for a log message that does
+// not decode; the decoder's own words go with the republished message.
+const malformedReason = "malformed bus message"
+
+func (w *Worker) event(ctx context.Context, m inMsg) error {
+	ev, err := stream.DecodeMessage(m.data)
+	if err != nil {
+		w.a.RejectLine(m.seq, malformedReason)
+		return w.reject(ctx, m, err.Error())
+	}
+	ev.Line = int(m.seq)
+	if ev.ID == "" {
+		ev.ID = m.header.Get(jetstream.MsgIDHeader)
+	}
+	err = w.a.Apply(m.seq, ev)
+	var rj *Reject
+	if errors.As(err, &rj) {
+		return w.reject(ctx, m, rj.Reason.Error())
+	}
+	if err != nil {
+		return fmt.Errorf("log seq %d: %w", m.seq, err)
+	}
+	return nil
+}
+
+// reject republishes a rejected log message on the rejects subject with
+// its reason and sequence. Every worker rejects it; the one whose shard is
+// seq mod Shards republishes it, under an id made of the sequence, so it is
+// kept once.
+func (w *Worker) reject(ctx context.Context, m inMsg, reason string) error {
+	if w.cfg.Logf != nil {
+		w.cfg.Logf("log seq %d rejected: %s", m.seq, reason)
+	}
+	if m.seq%uint64(w.cfg.Shards) != uint64(w.cfg.Shard) {
+		return nil
+	}
+	msg := nats.NewMsg(RejectsSubject(w.cfg.Subject))
+	msg.Data = m.data
+	msg.Header.Set(RejectReasonHeader, reason)
+	msg.Header.Set(RejectSeqHeader, fmt.Sprint(m.seq))
+	return publishRetry(ctx, w.js, msg, fmt.Sprintf("%s/reject/%d", w.cfg.Stream, m.seq))
+}
+
+// askCut, on shard 0, writes a cut control message into the log when a
+// batch is partly filled, the log has been idle for Idle and shard 0 has
+// read all of it. The message id names the position it follows, so a
+// restarted shard 0 does not ask twice.
+func (w *Worker) askCut(ctx context.Context) error {
+	seq := w.a.Seq()
+	if seq == w.cut || w.pending != 0 || w.cutAsked == seq || time.Since(w.lastRead) < w.cfg.Idle {
+		return nil
+	}
+	w.cutAsked = seq
+	msg := nats.NewMsg(w.cfg.Subject)
+	msg.Header.Set(ControlHeader, "cut")
+	return publishRetry(ctx, w.js, msg, fmt.Sprintf("%s/cut-after/%d", w.cfg.Stream, seq))
+}
+
+// endBatch sends this shard's summed changes of the batch ending at end to
+// every owner, waits for every origin's changes for this shard's nodes,
+// applies them and commits the cut.
+func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shufCh <-chan inMsg) error {
+	nodes := uint64(w.a.dict.Len())
+	for owner := range w.cfg.Shards {
+		w.buf = w.out.encode(w.buf[:0], w.cfg.Shard, owner, end, nodes)
+		msg := &nats.Msg{Subject: shuffleSubject(w.cfg.Subject, owner), Data: w.buf}
+		if err := publishRetry(ctx, w.js, msg, shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)); err != nil {
+			return err
+		}
+	}
+	o := w.observer()
+	if o != nil {
+		o.Batch(time.Since(w.batchFirst))
+	}
+	for !w.complete(end) {
+		select {
+		case m := <-shufCh:
+			w.receive(m)
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	// Changes are summed over all origins before any is applied: one
+	// origin's part of a batch may take a count below zero that another
+	// origin's part raises again; only the whole batch's sum is a change
+	// between two true states.
+	for origin, m := range w.inbox[end] {
+		if m.nodes != nodes {
+			return fmt.Errorf("batch %d: shard %d knew %d nodes at the batch end, this shard %d: the shards disagree on the log", end, origin, m.nodes, nodes)
+		}
+		for _, c := range m.changes {
+			w.merged[uint64(c.node)<<16|uint64(c.orbit)] += c.d
+		}
+		w.origins[origin] = end
+	}
+	for k, d := range w.merged {
+		if d == 0 {
+			continue
+		}
+		if err := w.a.AddDelta(uint32(k>>16), int(k&0xffff), d); err != nil {
+			return fmt.Errorf("batch %d: %w", end, err)
+		}
+	}
+	clear(w.merged)
+	delete(w.inbox, end)
+	w.cut = end
+	if err := w.commit(); err != nil {
+		return err
+	}
+	if o != nil {
+		o.Cut(time.Since(readAt))
+	}
+	return nil
+}
+
+// complete reports whether every origin's message of batch end is in.
+func (w *Worker) complete(end uint64) bool {
+	msgs := w.inbox[end]
+	if msgs == nil {
+		return false
+	}
+	for _, m := range msgs {
+		if m == nil {
+			return false
+		}
+	}
+	return true
+}
+
+// receive files one shuffle message by batch and origin. A message for a
+// batch already applied from its origin, or a second one for the same
+// slot, is a resend and is dropped; so is one that does not decode or is
+// not for this shard (after a note to Logf).
+func (w *Worker) receive(m inMsg) {
+	w.shufNxt = m.seq + 1
+	sm, err := decodeShuffle(m.data)
+	if err == nil && (sm.owner != w.cfg.Shard || sm.origin >= w.cfg.Shards) {
+		err = fmt.Errorf("message from shard %d for shard %d", sm.origin, sm.owner)
+	}
+	if err != nil {
+		if w.cfg.Logf != nil {
+			w.cfg.Logf("shuffle seq %d dropped: %v", m.seq, err)
+		}
+		return
+	}
+	if sm.batch <= w.origins[sm.origin] {
+		return
+	}
+	slots := w.inbox[sm.batch]
+	if slots == nil {
+		slots = make([]*shuffleMsg, w.cfg.Shards)
+		w.inbox[sm.batch] = slots
+	}
+	if slots[sm.origin] != nil {
+		return
+	}
+	sm.streamSeq = m.seq
+	slots[sm.origin] = &sm
+}
+
+// commit writes the cut: the applier's changes since the last cut and the
+// worker record, in one checkpoint.
+func (w *Worker) commit() error {
+	next := w.shufNxt
+	for _, slots := range w.inbox {
+		for _, m := range slots {
+			if m != nil {
+				next = min(next, m.streamSeq)
+			}
+		}
+	}
+	rec, err := json.Marshal(workerRecord{Shard: w.cfg.Shard, Shards: w.cfg.Shards, Batch: w.cfg.Batch, Cut: w.cut, Origins: w.origins, ShuffleNext: next})
+	if err != nil {
+		return err
+	}
+	if err := w.cfg.Store.Commit(w.a.Checkpoint(map[string][]byte{workerBlob: rec})); err != nil {
+		return fmt.Errorf("cut %d: %w", w.cut, err)
+	}
+	w.a.ResetTouched()
+	w.snapshot()
+	return nil
+}
+
+// snapshot records the cut-time status fields.
+func (w *Worker) snapshot() {
+	st := w.a.Stats()
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	w.snap = Status{Shard: w.cfg.Shard, Shards: w.cfg.Shards, CutSeq: w.cut,
+		Applied: st.Applied, Expired: st.Expired, Rejected: st.Rejected,
+		Watermark: w.a.Watermark(), StartedAt: w.started}
+	if w.cut > 0 {
+		w.snap.CutAt = time.Now()
+	}
+}
+
+func (w *Worker) observer() Observer {
+	if b, ok := w.obs.Load().(observerBox); ok {
+		return b.o
+	}
+	return nil
+}
+
+// Store returns the worker's store.
+func (w *Worker) Store() *storage.Store { return w.cfg.Store }
+
+// Counting returns the counters in use.
+func (w *Worker) Counting() *Counting { return w.cfg.Counting }
+
+// Shard returns this worker's shard and the shard count.
+func (w *Worker) Shard() (i, n int) { return w.cfg.Shard, w.cfg.Shards }
+
+// Owner returns the shard owning node id.
+func (w *Worker) Owner(node string) int { return OwnerOf(node, w.cfg.Shards) }
+
+// SetObserver registers o for batch and cut timings; nil stops them.
+func (w *Worker) SetObserver(o Observer) { w.obs.Store(observerBox{o}) }
+
+// Status returns a snapshot of the worker's progress.
+func (w *Worker) Status() Status {
+	w.mu.Lock()
+	st := w.snap
+	st.Rejected = make(map[string]uint64, len(w.snap.Rejected))
+	for k, n := range w.snap.Rejected {
+		st.Rejected[k] = n
+	}
+	w.mu.Unlock()
+	st.AppliedSeq = w.appliedSeq.Load()
+	st.StreamLastSeq = max(w.streamLast.Load(), st.AppliedSeq)
+	st.Lag = st.StreamLastSeq - min(st.CutSeq, st.StreamLastSeq)
+	st.Ready = st.CutSeq >= w.startLast.Load()
+	return st
+}
+
+var _ View = (*Worker)(nil)
