@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/csv"
 	"fmt"
 	"io"
@@ -75,34 +76,54 @@ type matrixWriter interface {
 
 // matrixCSV writes the orbit matrix exactly as writeMatrix does (header
 // node,0,1,…, RFC 4180 quoting by encoding/csv), but row by row, so an
-// export never holds the whole matrix.
+// export never holds the whole matrix. Counts never need quoting, so only
+// the node id goes through encoding/csv; the counts are appended as
+// decimal digits to a reused line, and a row allocates nothing.
 type matrixCSV struct {
-	cw  *csv.Writer
-	rec []string
+	w      io.Writer
+	field  *csv.Writer // quotes one node id into quoted
+	one    []string    // the one-field record given to field
+	quoted bytes.Buffer
+	line   []byte
+	err    error
 }
 
 func newMatrixCSV(w io.Writer, numOrbits int) *matrixCSV {
-	m := &matrixCSV{cw: csv.NewWriter(w), rec: make([]string, numOrbits+1)}
-	m.rec[0] = "node"
+	m := &matrixCSV{w: w, one: make([]string, 1)}
+	m.field = csv.NewWriter(&m.quoted)
+	m.line = append(m.line, "node"...)
 	for o := 0; o < numOrbits; o++ {
-		m.rec[o+1] = strconv.Itoa(o)
+		m.line = append(m.line, ',')
+		m.line = strconv.AppendInt(m.line, int64(o), 10)
 	}
-	m.cw.Write(m.rec)
+	m.line = append(m.line, '\n')
+	_, m.err = w.Write(m.line)
 	return m
 }
 
 func (m *matrixCSV) row(node string, vec []uint64) error {
-	m.rec[0] = node
-	for o, c := range vec {
-		m.rec[o+1] = strconv.FormatUint(c, 10)
+	if m.err != nil {
+		return m.err
 	}
-	return m.cw.Write(m.rec)
+	m.quoted.Reset()
+	m.one[0] = node
+	m.field.Write(m.one)
+	m.field.Flush()
+	if m.err = m.field.Error(); m.err != nil {
+		return m.err
+	}
+	q := m.quoted.Bytes()
+	m.line = append(m.line[:0], q[:len(q)-1]...) // without the record's newline
+	for _, c := range vec {
+		m.line = append(m.line, ',')
+		m.line = strconv.AppendUint(m.line, c, 10)
+	}
+	m.line = append(m.line, '\n')
+	_, m.err = m.w.Write(m.line)
+	return m.err
 }
 
-func (m *matrixCSV) close() error {
-	m.cw.Flush()
-	return m.cw.Error()
-}
+func (m *matrixCSV) close() error { return m.err }
 
 // matrixParquet writes the orbit matrix as Parquet: a required string
 // column "node" (BYTE_ARRAY, UTF8 logical type; ids are written byte for

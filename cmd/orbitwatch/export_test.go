@@ -2,7 +2,9 @@ package main
 
 import (
 	"bytes"
+	"fmt"
 	"io"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -233,5 +235,97 @@ func TestExportFlags(t *testing.T) {
 	}
 	if ents, _ := os.ReadDir(dir); len(ents) != 0 {
 		t.Errorf("failed exports left files: %v", ents)
+	}
+}
+
+// benchStore commits one checkpoint of n nodes with seeded vectors of
+// counts up to 2^20 (no graph: export reads vectors only).
+func benchStore(b *testing.B, n int) *storage.Store {
+	b.Helper()
+	dir := filepath.Join(b.TempDir(), "data")
+	st, err := storage.Open(dir, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	if err != nil {
+		b.Fatal(err)
+	}
+	dict := storage.NewDict()
+	g := delta.NewGraph(delta.Undirected)
+	vec := delta.NewVectors(n, 15)
+	nodes := make([]uint32, n)
+	r := rand.New(rand.NewPCG(7, 7))
+	for x := 0; x < n; x++ {
+		dict.Intern(fmt.Sprintf("acct-%07d", x))
+		for o := 0; o < 15; o++ {
+			vec.Set(uint32(x), o, r.Uint64N(1<<20))
+		}
+		nodes[x] = uint32(x)
+	}
+	g.Grow(n)
+	if err := st.Commit(&storage.Checkpoint{Seq: 1, Dict: dict, Graph: g, Vectors: vec, Nodes: nodes}); err != nil {
+		b.Fatal(err)
+	}
+	if err := st.Close(); err != nil {
+		b.Fatal(err)
+	}
+	ro, err := storage.OpenReadOnly(dir)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Cleanup(func() { ro.Close() })
+	return ro
+}
+
+// benchmarkExport measures the export walk (Badger read, encoding, no
+// file system) in nodes per second.
+func benchmarkExport(b *testing.B, newWriter func(w io.Writer) matrixWriter) {
+	const n = 50000
+	st := benchStore(b, n)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		m := newWriter(io.Discard)
+		if _, err := st.ForEachAt(1, func(node string, vec []uint64) error { return m.row(node, vec) }); err != nil {
+			b.Fatal(err)
+		}
+		if err := m.close(); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "nodes/s")
+}
+
+func BenchmarkExportCSV(b *testing.B) {
+	benchmarkExport(b, func(w io.Writer) matrixWriter { return newMatrixCSV(w, 15) })
+}
+
+func BenchmarkExportParquet(b *testing.B) {
+	benchmarkExport(b, func(w io.Writer) matrixWriter { return newMatrixParquet(w, 15) })
+}
+
+// TestMatrixCSVMatchesWriteMatrix holds the streaming CSV writer against
+// count's writeMatrix on ids that need every kind of quoting.
+func TestMatrixCSVMatchesWriteMatrix(t *testing.T) {
+	names := []string{"acct-000001", `say "hi"`, "a,b", "line\nbreak", "cr\rhere", `\.`, " lead", "\ttab", "zahlung-ü", "x"}
+	vec := delta.NewVectors(len(names), 15)
+	for x := range names {
+		for o := 0; o < 15; o++ {
+			vec.Set(uint32(x), o, uint64(x*o)<<(o*4))
+		}
+	}
+	vec.Set(3, 14, 1<<64-1)
+	var want, got bytes.Buffer
+	if err := writeMatrix(&want, names, vec); err != nil {
+		t.Fatal(err)
+	}
+	m := newMatrixCSV(&got, 15)
+	for x, n := range names {
+		if err := m.row(n, vec.Row(uint32(x))); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := m.close(); err != nil {
+		t.Fatal(err)
+	}
+	if got.String() != want.String() {
+		t.Errorf("streaming CSV:\n%q\nwriteMatrix:\n%q", got.String(), want.String())
 	}
 }

@@ -10,6 +10,7 @@ import (
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
+	"orbitwatch/storage"
 )
 
 // queryJSON runs query --json and decodes it, checking the exact key order
@@ -192,4 +193,37 @@ func equalUints(a, b []uint64) bool {
 		}
 	}
 	return true
+}
+
+// TestReadsBeforeRetention moves the retention floor past the first
+// checkpoints: reads before it say so instead of answering from what is
+// left, and history starts at the floor.
+func TestReadsBeforeRetention(t *testing.T) {
+	f := newFixture(t, 14, true, 100)
+	st, err := storage.Open(f.data, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := st.SetDiscardBefore(300); err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Close(); err != nil {
+		t.Fatal(err)
+	}
+	node := "acct-000001"
+	r := runCmd(t, "query", "--data", f.data, "--node", node, "--seq", "250")
+	if r.code != 1 || !strings.Contains(r.stderr, "before the retained history, which starts at checkpoint 300") {
+		t.Errorf("--seq 250 under floor 300: exit %d, stderr %q", r.code, r.stderr)
+	}
+	at := watermarkAt(t, f.lines, 200).Format(time.RFC3339)
+	r = runCmd(t, "query", "--data", f.data, "--node", node, "--at", at)
+	if r.code != 1 || !strings.Contains(r.stderr, "(seq 200) is before the retained history") {
+		t.Errorf("--at the time of 200 under floor 300: exit %d, stderr %q", r.code, r.stderr)
+	}
+	nv := queryJSON(t, "--data", f.data, "--node", node, "--seq", "300")
+	if want := readRowsAt(t, f, 300)[node]; nv.Seq != 300 || !equalUints(nv.Orbits, want) {
+		t.Errorf("--seq 300 at the floor: seq %d %v, replay %v", nv.Seq, nv.Orbits, want)
+	}
+	_, rows := historyCSV(t, "--data", f.data, "--node", node)
+	checkHistoryRows(t, f, node, allOrbits(15), rows, f.seqs[2:])
 }
