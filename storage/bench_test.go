@@ -69,7 +69,7 @@ func tableBytes(b *testing.B, dir string) int64 {
 // per record (changed edge or vector version) of the updates, and, for the
 // design choice, what storing each changed
 // node's whole neighbour bitmap instead would add per changed edge (raw
-// Roaring bytes, before compression).
+// Roaring bytes, before compression), and the time to Load the result.
 func BenchmarkCheckpoint(b *testing.B) {
 	const nodes, edges, change = 200_000, 1_000_000, 20_000
 	rng := rand.New(rand.NewPCG(1, 2))
@@ -143,6 +143,17 @@ func BenchmarkCheckpoint(b *testing.B) {
 	before := edgeBytes + vecBytes
 	st.Close()
 	delta := tableBytes(b, dir) - before
+	st = mustOpen(b, dir, undirected4)
+	t0 = time.Now()
+	s, err := st.Load()
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportMetric(time.Since(t0).Seconds(), "load-s")
+	st.Close()
+	if s.Graph.NumEdges() != g.NumEdges() {
+		b.Fatalf("loaded %d edges, committed %d", s.Graph.NumEdges(), g.NumEdges())
+	}
 	b.ReportMetric(float64(edgeBytes)/float64(stored), "B/edge")
 	b.ReportMetric(loadRate, "initial-edges/s")
 	b.ReportMetric(float64(vecBytes)/nodes, "B/vector")

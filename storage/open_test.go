@@ -202,3 +202,17 @@ func TestCreateInterrupted(t *testing.T) {
 		t.Fatalf("settings %+v seq %d after creating over an empty Badger directory", st.Settings(), st.Seq())
 	}
 }
+
+// TestInUse: a store open for writing cannot be opened again, and the
+// error says why.
+func TestInUse(t *testing.T) {
+	dir := t.TempDir()
+	st := mustOpen(t, dir, undirected4)
+	defer st.Close()
+	if _, err := OpenReadOnly(dir); err == nil || !strings.Contains(err.Error(), "in use") {
+		t.Fatalf("read-only open of a store open for writing: %v", err)
+	}
+	if _, err := Open(dir, undirected4); err == nil || !strings.Contains(err.Error(), "in use") {
+		t.Fatalf("second open of a store open for writing: %v", err)
+	}
+}

@@ -170,6 +170,9 @@ func openBadger(dir string, readOnly bool) (st *Store, err error) {
 		}
 	}()
 	db, err := badger.OpenManaged(opts)
+	if err != nil && strings.Contains(err.Error(), "Cannot acquire directory lock") {
+		return nil, fmt.Errorf("storage: open %s: the store is in use by another open store or process: %w", dir, err)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("storage: open %s: damaged or unreadable Badger directory: %w", dir, err)
 	}
