@@ -12,6 +12,7 @@ import (
 	badger "github.com/dgraph-io/badger/v4"
 
 	"orbitwatch/delta"
+	"orbitwatch/shard"
 	"orbitwatch/storage"
 )
 
@@ -202,5 +203,86 @@ func TestReadSideRefusesBadDirectories(t *testing.T) {
 	}
 	if ents, _ := os.ReadDir(filepath.Dir(out)); len(ents) != 0 {
 		t.Errorf("failed commands left files: %v", ents)
+	}
+}
+
+// shardStore rewrites a copy of a backfill store as shard `part` of 2
+// would hold it: the full graph, vectors only for the nodes it owns
+// (shard.OwnerOf), zero for the rest, and the worker record naming the
+// shard; with record false the record is left out.
+func shardStore(t *testing.T, from string, part int, record bool) string {
+	t.Helper()
+	dir := filepath.Join(t.TempDir(), "data")
+	if err := os.CopyFS(dir, os.DirFS(from)); err != nil {
+		t.Fatal(err)
+	}
+	ro, err := storage.OpenReadOnly(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := ro.Settings()
+	ro.Close()
+	st, err := storage.Open(dir, set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	state, err := st.Load()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var nodes []uint32
+	for x := 0; x < state.Dict.Len(); x++ {
+		if shard.OwnerOf(state.Dict.Name(uint32(x)), 2) != part {
+			for o := 0; o < set.NumOrbits; o++ {
+				state.Vectors.Set(uint32(x), o, 0)
+			}
+			nodes = append(nodes, uint32(x))
+		}
+	}
+	cp := &storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Dict: state.Dict,
+		Graph: state.Graph, Vectors: state.Vectors, Nodes: nodes}
+	if record {
+		cp.Blobs = map[string][]byte{"worker": []byte(`{"shard":` + strconv.Itoa(part) + `,"shards":2,"batch":100,"cut":1,"origins":[1,1],"shuffle_next":1}`)}
+	}
+	if err := st.Commit(cp); err != nil {
+		t.Fatal(err)
+	}
+	if err := st.Close(); err != nil {
+		t.Fatal(err)
+	}
+	return dir
+}
+
+func TestVerifyChecksOnlyOwnedNodesOfAShard(t *testing.T) {
+	f := newFixture(t, 44, true, 100)
+	for part := 0; part < 2; part++ {
+		dir := shardStore(t, f.data, part, true)
+		r := mustRunCmd(t, "verify", "--data", dir)
+		if !strings.Contains(r.stdout, "(those shard "+strconv.Itoa(part)+" of 2 owns)") {
+			t.Errorf("shard %d: summary %q", part, r.stdout)
+		}
+		// Corrupting an owned node fails; the others are not held.
+		var mine, other string
+		order, _ := readMatrix(t, f.replayCSV(f.seqs[len(f.seqs)-1]))
+		for _, x := range order {
+			if shard.OwnerOf(x, 2) == part && mine == "" {
+				mine = x
+			}
+			if shard.OwnerOf(x, 2) != part && other == "" {
+				other = x
+			}
+		}
+		corrupt(t, dir, other, 1)
+		mustRunCmd(t, "verify", "--data", dir)
+		corrupt(t, dir, mine, 1)
+		r = runCmd(t, "verify", "--data", dir)
+		if want := "node " + strconv.Quote(mine) + " orbit 1:"; r.code != 1 || !strings.Contains(r.stderr, want) {
+			t.Errorf("shard %d with owned %q corrupted: exit %d, stderr %q", part, mine, r.code, r.stderr)
+		}
+	}
+	// The same zeroed vectors without the worker record are wrong.
+	dir := shardStore(t, f.data, 0, false)
+	if r := runCmd(t, "verify", "--data", dir); r.code != 1 || !strings.Contains(r.stderr, "differ from the recount") {
+		t.Errorf("zeroed vectors without a worker record: exit %d, stderr %q", r.code, r.stderr)
 	}
 }
