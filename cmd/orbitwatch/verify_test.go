@@ -39,9 +39,9 @@ func TestVerifyPassesOnGoodStores(t *testing.T) {
 	}
 }
 
-// corrupt commits, as the next checkpoint, the latest state with one count
-// of node changed by +1, through storage.Commit.
-func corrupt(t *testing.T, dir, node string, orbit int) {
+// reopen opens the store in dir read-write with its own settings and loads
+// its latest checkpoint, for a test to commit a doctored one after it.
+func reopen(t *testing.T, dir string) (*storage.Store, *storage.State) {
 	t.Helper()
 	ro, err := storage.OpenReadOnly(dir)
 	if err != nil {
@@ -57,12 +57,20 @@ func corrupt(t *testing.T, dir, node string, orbit int) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	return st, state
+}
+
+// corrupt commits, as the next checkpoint, the latest state with one count
+// of node changed by +1, through storage.Commit.
+func corrupt(t *testing.T, dir, node string, orbit int) {
+	t.Helper()
+	st, state := reopen(t, dir)
 	x, ok := state.Dict.Lookup(node)
 	if !ok {
 		t.Fatalf("fixture: node %q not in the store", node)
 	}
 	state.Vectors.Set(x, orbit, state.Vectors.Get(x, orbit)+1)
-	err = st.Commit(&storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Dict: state.Dict,
+	err := st.Commit(&storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Dict: state.Dict,
 		Graph: state.Graph, Vectors: state.Vectors, Nodes: []uint32{x}})
 	if err != nil {
 		t.Fatal(err)
@@ -216,20 +224,8 @@ func shardStore(t *testing.T, from string, part int, record bool) string {
 	if err := os.CopyFS(dir, os.DirFS(from)); err != nil {
 		t.Fatal(err)
 	}
-	ro, err := storage.OpenReadOnly(dir)
-	if err != nil {
-		t.Fatal(err)
-	}
-	set := ro.Settings()
-	ro.Close()
-	st, err := storage.Open(dir, set)
-	if err != nil {
-		t.Fatal(err)
-	}
-	state, err := st.Load()
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, state := reopen(t, dir)
+	set := st.Settings()
 	var nodes []uint32
 	for x := 0; x < state.Dict.Len(); x++ {
 		if shard.OwnerOf(state.Dict.Name(uint32(x)), 2) != part {
