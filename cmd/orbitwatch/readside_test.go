@@ -248,20 +248,31 @@ type fixture struct {
 	replay string
 	seqs   []uint64
 	every  uint64
+	// counting holds the --kind and --max-nodes flags the fixture used.
+	counting []string
 }
 
 // newFixture writes a log, backfills it through the binary with
 // checkpoints every `every` lines, builds the same store directly, and
-// replays the log through the binary into CSVs.
+// replays the log through the binary into CSVs; graphlets are undirected
+// on up to 4 nodes.
 func newFixture(t *testing.T, seed uint64, timed bool, every uint64) *fixture {
+	t.Helper()
+	return newFixtureOf(t, seed, timed, every, delta.Undirected, 4)
+}
+
+// newFixtureOf is newFixture for any kind and graphlet size.
+func newFixtureOf(t *testing.T, seed uint64, timed bool, every uint64, kind delta.Kind, maxNodes int) *fixture {
 	t.Helper()
 	dir := t.TempDir()
 	f := &fixture{data: filepath.Join(dir, "data"), direct: filepath.Join(dir, "direct"), replay: filepath.Join(dir, "replay"), every: every}
 	f.log, f.lines = paymentsLog(t, dir, seed, timed)
+	counting := []string{"--kind", kind.String(), "--max-nodes", strconv.Itoa(maxNodes)}
 	n := strconv.FormatUint(every, 10)
-	mustRunCmd(t, "backfill", "--data", f.data, "--input", f.log, "--checkpoint-every", n)
-	f.seqs = buildStore(t, f.direct, f.log, delta.Undirected, 4, every)
-	mustRunCmd(t, "replay", "--input", f.log, "--checkpoint-every", n, "--out", f.replay)
+	mustRunCmd(t, append([]string{"backfill", "--data", f.data, "--input", f.log, "--checkpoint-every", n}, counting...)...)
+	f.seqs = buildStore(t, f.direct, f.log, kind, maxNodes, every)
+	mustRunCmd(t, append([]string{"replay", "--input", f.log, "--checkpoint-every", n, "--out", f.replay}, counting...)...)
+	f.counting = counting
 	return f
 }
 
