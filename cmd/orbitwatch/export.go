@@ -23,8 +23,8 @@ const parquetRowGroup = 1 << 17
 
 func runExport(args []string) int {
 	c := newReadCommand("export", true)
-	format := c.fs.String("format", "", "csv (the format of count: header node,0,1,…) or parquet (columns node, o0, o1, …) (required)")
-	out := c.fs.String("out", "", "output file (required); written whole or not at all")
+	format := c.fs.String("format", "", "`FORMAT`: csv (the format of count: header node,0,1,…) or parquet (columns node, o0, o1, …) (required)")
+	out := c.fs.String("out", "", "output `FILE` (required); written whole or not at all")
 	formatOK := func() error {
 		if *format != "csv" && *format != "parquet" {
 			return fmt.Errorf("--format must be csv or parquet, not %q", *format)

@@ -30,12 +30,12 @@ const plotOrbits = 6
 
 func runHistory(args []string) int {
 	c := newReadCommand("history", false)
-	node := c.fs.String("node", "", "node id to read (required)")
-	from := c.fs.String("from", "", "first event time: checkpoints whose watermark is ≥ TIME (RFC 3339 or Unix seconds/ms)")
-	to := c.fs.String("to", "", "last event time: checkpoints whose watermark is ≤ TIME")
+	node := c.fs.String("node", "", "`ID` of the node to read (required)")
+	from := c.fs.String("from", "", "first event time: checkpoints whose watermark is ≥ `TIME` (RFC 3339 or Unix seconds/ms)")
+	to := c.fs.String("to", "", "last event time: checkpoints whose watermark is ≤ `TIME`")
 	asCSV := c.fs.Bool("csv", false, "write CSV (header seq,event_time,<orbit ids>) instead of a table")
-	plotFile := c.fs.String("plot", "", "also draw a log-scale line chart of the largest orbits to FILE.svg or FILE.png")
-	orbitList := c.fs.String("orbits", "", "comma-separated orbit ids to list and plot (default: all listed, the 6 largest at the end plotted)")
+	plotFile := c.fs.String("plot", "", "also draw a log-scale line chart of the largest orbits to `FILE`.svg or FILE.png")
+	orbitList := c.fs.String("orbits", "", "comma-separated orbit `IDS` to list and plot (default: all listed, the 6 largest at the end plotted)")
 	var rng timeRange
 	ext := ""
 	checkRange := func() error { return rng.parse(*from, *to) }

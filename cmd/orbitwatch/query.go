@@ -5,6 +5,7 @@ import (
 	"errors"
 	"flag"
 	"fmt"
+	"io"
 	"os"
 	"sort"
 	"strconv"
@@ -21,7 +22,8 @@ func init() {
 }
 
 // NodeVector is one node's orbit vector at one checkpoint, in the shape
-// `query --json` prints and the HTTP API serves:
+// `query --json` prints, the same as the body of the HTTP API's node read
+// (shard/api.go):
 //
 //	{"node":…,"kind":…,"max_nodes":…,"seq":…,"event_time":…,"orbits":[c0,c1,…]}
 //
@@ -41,7 +43,7 @@ type NodeVector struct {
 
 func runQuery(args []string) int {
 	c := newReadCommand("query", true)
-	node := c.fs.String("node", "", "node id to read (required)")
+	node := c.fs.String("node", "", "`ID` of the node to read (required)")
 	asJSON := c.fs.Bool("json", false, "print one JSON object instead of a table")
 	all := c.fs.Bool("all", false, "list orbits with a zero count too")
 	if code := c.parse(args, c.required("node")); code != 0 {
@@ -84,7 +86,7 @@ func runQuery(args []string) int {
 // writeVectorTable prints a header line with node, seq and event time, then
 // one row per orbit (id, count, orbit name, graphlet name), zeros only when
 // all is set.
-func writeVectorTable(w *os.File, cat *catalog.Catalog, nv NodeVector, all bool) error {
+func writeVectorTable(w io.Writer, cat *catalog.Catalog, nv NodeVector, all bool) error {
 	fmt.Fprintf(w, "node %s  seq %d  event time %s\n", strconv.Quote(nv.Node), nv.Seq, formatEventTime(nv.EventTime, "none"))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "orbit\tcount\torbit name\tgraphlet")
@@ -109,7 +111,7 @@ type readCommand struct {
 
 func newReadCommand(name string, withPoint bool) *readCommand {
 	c := &readCommand{name: name, fs: flag.NewFlagSet(name, flag.ContinueOnError)}
-	c.fs.StringVar(&c.dir, "data", "", "data directory written by backfill (required)")
+	c.fs.StringVar(&c.dir, "data", "", "`DIR`: the data directory backfill wrote (required)")
 	if withPoint {
 		c.point = &pointFlags{}
 		c.point.register(c.fs)
@@ -205,8 +207,8 @@ type pointFlags struct {
 }
 
 func (p *pointFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&p.at, "at", "", "read as of the latest checkpoint whose event-time watermark is ≤ TIME (RFC 3339 or Unix seconds/ms)")
-	fs.Func("seq", "read as of the latest checkpoint at or before log position N", func(s string) error {
+	fs.StringVar(&p.at, "at", "", "read as of the latest checkpoint whose event-time watermark is ≤ `TIME` (RFC 3339 or Unix seconds/ms)")
+	fs.Func("seq", "read as of the latest checkpoint at or before log position `N`", func(s string) error {
 		n, err := strconv.ParseUint(s, 10, 64)
 		if err != nil {
 			return fmt.Errorf("not a sequence number: %q", s)
