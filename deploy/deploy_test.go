@@ -1,0 +1,507 @@
+package deploy
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"net"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
+
+	"orbitwatch/stream"
+)
+
+// The stream the cluster test creates; the worker part passes the same
+// names to the worker.
+const (
+	testStream  = "ORBITWATCH"
+	testSubject = "orbitwatch.events"
+)
+
+var (
+	buildMu  sync.Mutex
+	builtBin = map[string]string{}
+)
+
+// buildBinary builds the main package pkg once per test run into a
+// temporary directory and returns its path. pkg is a module path or a path
+// relative to the module root.
+func buildBinary(t *testing.T, pkg, name string) string {
+	t.Helper()
+	buildMu.Lock()
+	defer buildMu.Unlock()
+	if p, ok := builtBin[pkg]; ok {
+		return p
+	}
+	dir, err := os.MkdirTemp("", "orbitwatch-deploy-bin-")
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, name)
+	cmd := exec.Command("go", "build", "-o", out, pkg)
+	cmd.Dir = ".."
+	if b, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("go build %s: %v\n%s", pkg, err, b)
+	}
+	builtBin[pkg] = out
+	return out
+}
+
+// natsServer builds nats-server from the module version go.mod pins: the
+// same program the systemd unit runs.
+func natsServer(t *testing.T) string {
+	return buildBinary(t, "github.com/nats-io/nats-server/v2", "nats-server")
+}
+
+// freePorts returns n distinct loopback ports that were free a moment ago.
+func freePorts(t *testing.T, n int) []int {
+	t.Helper()
+	var ls []net.Listener
+	defer func() {
+		for _, l := range ls {
+			l.Close()
+		}
+	}()
+	ports := make([]int, n)
+	for i := range ports {
+		l, err := net.Listen("tcp", "127.0.0.1:0")
+		if err != nil {
+			t.Fatal(err)
+		}
+		ls = append(ls, l)
+		ports[i] = l.Addr().(*net.TCPAddr).Port
+	}
+	return ports
+}
+
+// clusterPorts are the loopback ports the three configuration files use:
+// client, monitoring (http) and cluster route port of servers 1–3.
+var clusterPorts = [3][3]int{{4222, 8222, 6222}, {4223, 8223, 6223}, {4224, 8224, 6224}}
+
+var (
+	loopbackPort = regexp.MustCompile(`127\.0\.0\.1:(\d+)\b`)
+	storeDirLine = regexp.MustCompile(`(?m)^(\s*store_dir:\s*)"[^"]*"`)
+)
+
+// rewriteConfig returns the text of a configuration file with every
+// loopback port of clusterPorts replaced by its counterpart in ports and
+// the store_dir set to dir. A loopback port the map does not know, or a
+// file without a store_dir, fails the test: the files and this test must
+// change together.
+func rewriteConfig(t *testing.T, text string, ports map[int]int, dir string) string {
+	t.Helper()
+	var bad []string
+	out := loopbackPort.ReplaceAllStringFunc(text, func(m string) string {
+		p, _ := strconv.Atoi(m[len("127.0.0.1:"):])
+		q, ok := ports[p]
+		if !ok {
+			bad = append(bad, m)
+			return m
+		}
+		return "127.0.0.1:" + strconv.Itoa(q)
+	})
+	if len(bad) > 0 {
+		t.Fatalf("configuration uses loopback addresses the test does not map: %v", bad)
+	}
+	if n := len(storeDirLine.FindAllString(out, -1)); n != 1 {
+		t.Fatalf("configuration has %d store_dir lines, want 1", n)
+	}
+	return storeDirLine.ReplaceAllString(out, `${1}"`+dir+`"`)
+}
+
+// cluster is three nats-server child processes run from deploy/nats.
+type cluster struct {
+	t       *testing.T
+	bin     string
+	dir     string
+	confs   [3]string
+	clients [3]string // client URLs
+	procs   [3]*exec.Cmd
+	exited  [3]chan struct{}
+	logs    [3]*lockedBuffer
+}
+
+// startCluster writes the three configuration files with random ports and
+// temporary stores and starts a server on each.
+func startCluster(t *testing.T) *cluster {
+	t.Helper()
+	c := &cluster{t: t, bin: natsServer(t), dir: t.TempDir()}
+	free := freePorts(t, 9)
+	ports := map[int]int{}
+	for i, row := range clusterPorts {
+		for j, p := range row {
+			ports[p] = free[3*i+j]
+		}
+	}
+	for i := range 3 {
+		text, err := os.ReadFile(filepath.Join("nats", fmt.Sprintf("nats-%d.conf", i+1)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		store := filepath.Join(c.dir, fmt.Sprintf("store-%d", i+1))
+		c.confs[i] = filepath.Join(c.dir, fmt.Sprintf("nats-%d.conf", i+1))
+		if err := os.WriteFile(c.confs[i], []byte(rewriteConfig(t, string(text), ports, store)), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		c.clients[i] = fmt.Sprintf("nats://127.0.0.1:%d", ports[clusterPorts[i][0]])
+	}
+	for i := range 3 {
+		c.start(i)
+	}
+	t.Cleanup(func() {
+		for i := range 3 {
+			c.kill(i)
+		}
+		if t.Failed() {
+			for i, l := range c.logs {
+				if l != nil {
+					l.mu.Lock()
+					t.Logf("server %d log (tail):\n%s", i+1, tail(l.String(), 40))
+					l.mu.Unlock()
+				}
+			}
+		}
+	})
+	return c
+}
+
+func tail(s string, n int) string {
+	lines := strings.Split(strings.TrimRight(s, "\n"), "\n")
+	return strings.Join(lines[max(0, len(lines)-n):], "\n")
+}
+
+// lockedBuffer is a bytes.Buffer safe for the child's writes and the
+// test's reads.
+type lockedBuffer struct {
+	mu sync.Mutex
+	bytes.Buffer
+}
+
+func (b *lockedBuffer) Write(p []byte) (int, error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.Buffer.Write(p)
+}
+
+func (c *cluster) start(i int) {
+	c.t.Helper()
+	cmd := exec.Command(c.bin, "-c", c.confs[i])
+	log := &lockedBuffer{}
+	cmd.Stdout, cmd.Stderr = log, log
+	if err := cmd.Start(); err != nil {
+		c.t.Fatalf("starting server %d: %v", i+1, err)
+	}
+	done := make(chan struct{})
+	c.procs[i], c.exited[i], c.logs[i] = cmd, done, log
+	go func() {
+		cmd.Wait()
+		close(done)
+	}()
+}
+
+// kill SIGKILLs server i (no lame duck, no flush) and waits for it to go.
+func (c *cluster) kill(i int) {
+	p := c.procs[i]
+	if p == nil {
+		return
+	}
+	c.procs[i] = nil
+	p.Process.Signal(syscall.SIGKILL)
+	<-c.exited[i]
+}
+
+// connect returns a client that knows all three servers and keeps
+// reconnecting, and its JetStream context.
+func (c *cluster) connect() (*nats.Conn, jetstream.JetStream) {
+	c.t.Helper()
+	var nc *nats.Conn
+	var err error
+	deadline := time.Now().Add(20 * time.Second)
+	for {
+		nc, err = nats.Connect(strings.Join(c.clients[:], ","), nats.MaxReconnects(-1), nats.ReconnectWait(100*time.Millisecond), nats.Timeout(2*time.Second))
+		if err == nil || time.Now().After(deadline) {
+			break
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	if err != nil {
+		c.t.Fatalf("connecting to the cluster: %v", err)
+	}
+	c.t.Cleanup(nc.Close)
+	js, err := jetstream.New(nc)
+	if err != nil {
+		c.t.Fatal(err)
+	}
+	return nc, js
+}
+
+// ensureR3 creates the test's R3 stream, retrying while the cluster elects
+// its JetStream meta leader.
+func ensureR3(t *testing.T, js jetstream.JetStream) jetstream.Stream {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	for {
+		actx, acancel := context.WithTimeout(ctx, 5*time.Second)
+		s, err := stream.EnsureStream(actx, js, testStream, testSubject, 3)
+		acancel()
+		if err == nil {
+			return s
+		}
+		if ctx.Err() != nil {
+			t.Fatalf("creating the R3 stream: %v", err)
+		}
+		time.Sleep(250 * time.Millisecond)
+	}
+}
+
+// paymentEvents is a fictional payments log: n payments among 300 accounts
+// and 30 shops, with refunds of earlier payments, each with its own id and
+// a time one second after the last.
+func paymentEvents(n int) []stream.Event {
+	t0 := time.Date(2026, 5, 4, 8, 0, 0, 0, time.UTC)
+	var out []stream.Event
+	var paid [][2]string
+	x := uint64(88172645463325252)
+	next := func() uint64 { // xorshift64: a fixed, dependency-free sequence
+		x ^= x << 13
+		x ^= x >> 7
+		x ^= x << 17
+		return x
+	}
+	for len(out) < n {
+		k := len(out)
+		e := stream.Event{ID: fmt.Sprintf("pay-%06d", k), TS: t0.Add(time.Duration(k) * time.Second), HasTS: true}
+		if len(paid) > 10 && next()%6 == 0 {
+			j := int(next() % uint64(len(paid)))
+			e.Op, e.Src, e.Dst = stream.OpRemove, paid[j][0], paid[j][1]
+			paid[j] = paid[len(paid)-1]
+			paid = paid[:len(paid)-1]
+		} else {
+			e.Src = fmt.Sprintf("acct-%03d", next()%300)
+			if next()%4 == 0 {
+				e.Dst = fmt.Sprintf("acct-%03d", next()%300)
+			} else {
+				e.Dst = fmt.Sprintf("shop-%02d", next()%30)
+			}
+			if e.Src == e.Dst {
+				continue
+			}
+			paid = append(paid, [2]string{e.Src, e.Dst})
+		}
+		out = append(out, e)
+	}
+	return out
+}
+
+// publishAll publishes events in chunks, republishing a whole chunk when
+// any of its acks fails (the server drops the ones it already stored, by
+// id). before is called ahead of the first attempt to publish events[i],
+// while up to 64 earlier ones may await their acks.
+func publishAll(t *testing.T, js jetstream.JetStream, events []stream.Event, chunk int, before func(i int)) (stored, dups int) {
+	t.Helper()
+	for k := 0; k*chunk < len(events); k++ {
+		part := events[k*chunk : min(len(events), (k+1)*chunk)]
+		for attempt := 0; ; attempt++ {
+			pub := stream.NewPublisher(js, testSubject, stream.PublisherOptions{Stream: testStream, MaxPending: 64})
+			ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+			var err error
+			for j, e := range part {
+				if attempt == 0 {
+					before(k*chunk + j)
+				}
+				if err = pub.Publish(ctx, e); err != nil {
+					break
+				}
+			}
+			err = errors.Join(err, pub.Flush(ctx))
+			cancel()
+			stored += pub.Stats().Stored
+			dups += pub.Stats().Duplicates
+			if err == nil {
+				break
+			}
+			if attempt == 60 {
+				t.Fatalf("chunk %d still failing after %d attempts: %v", k, attempt, err)
+			}
+			t.Logf("chunk %d attempt %d: %v", k, attempt, firstLine(err.Error()))
+			time.Sleep(250 * time.Millisecond)
+		}
+	}
+	return stored, dups
+}
+
+func firstLine(s string) string {
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		return s[:i] + " …"
+	}
+	return s
+}
+
+// leaderIndex returns which of the three servers leads the stream.
+func leaderIndex(t *testing.T, js jetstream.JetStream) int {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	s, err := js.Stream(ctx, testStream)
+	if err != nil {
+		t.Fatal(err)
+	}
+	info, err := s.Info(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if info.Cluster == nil {
+		t.Fatalf("stream has no cluster info: not clustered?")
+	}
+	for i := range 3 {
+		if info.Cluster.Leader == fmt.Sprintf("orbitwatch-nats-%d", i+1) {
+			return i
+		}
+	}
+	t.Fatalf("stream leader %q is none of orbitwatch-nats-1..3", info.Cluster.Leader)
+	return -1
+}
+
+// readStream reads the whole stream in order and returns its events.
+func readStream(t *testing.T, js jetstream.JetStream, n int) []stream.Event {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	c, err := stream.NewConsumer(ctx, js, testStream, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer c.Close()
+	out := make([]stream.Event, 0, n)
+	for len(out) < n {
+		seq, e, err := c.Next(ctx)
+		if err != nil {
+			t.Fatalf("reading the stream after %d events: %v", len(out), err)
+		}
+		if seq != uint64(len(out)+1) {
+			t.Fatalf("stream sequence %d where %d was due: a gap", seq, len(out)+1)
+		}
+		out = append(out, e)
+	}
+	if p := c.Pending(); p != 0 {
+		t.Fatalf("%d more messages in the stream than the %d published", p, n)
+	}
+	return out
+}
+
+// checkExactlyOnce checks that got holds every published event once, with
+// its content, and nothing else.
+func checkExactlyOnce(t *testing.T, published, got []stream.Event) {
+	t.Helper()
+	want := make(map[string]stream.Event, len(published))
+	for _, e := range published {
+		want[e.ID] = e
+	}
+	seen := make(map[string]bool, len(got))
+	for i, e := range got {
+		if seen[e.ID] {
+			t.Fatalf("stream seq %d: event %s stored twice", i+1, e.ID)
+		}
+		seen[e.ID] = true
+		w, ok := want[e.ID]
+		if !ok {
+			t.Fatalf("stream seq %d: event %s was never published", i+1, e.ID)
+		}
+		if e.Op != w.Op || e.Src != w.Src || e.Dst != w.Dst || !e.TS.Equal(w.TS) || e.HasTS != w.HasTS {
+			t.Fatalf("stream seq %d: event %s is %+v, published %+v", i+1, e.ID, e, w)
+		}
+	}
+	if len(seen) != len(want) {
+		t.Fatalf("stream holds %d distinct events, %d were published", len(seen), len(want))
+	}
+}
+
+// waitReplicasCurrent waits until all three replicas of the stream are
+// current with no lag.
+func waitReplicasCurrent(t *testing.T, js jetstream.JetStream, lastSeq uint64) {
+	t.Helper()
+	deadline := time.Now().Add(60 * time.Second)
+	var last string
+	for time.Now().Before(deadline) {
+		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		s, err := js.Stream(ctx, testStream)
+		var info *jetstream.StreamInfo
+		if err == nil {
+			info, err = s.Info(ctx)
+		}
+		cancel()
+		if err == nil && info.Cluster != nil {
+			ok := info.State.LastSeq == lastSeq && info.Cluster.Leader != "" && len(info.Cluster.Replicas) == 2
+			for _, r := range info.Cluster.Replicas {
+				ok = ok && r.Current && !r.Offline && r.Lag == 0
+			}
+			if ok {
+				return
+			}
+			last = fmt.Sprintf("leader %q, last seq %d, replicas %+v", info.Cluster.Leader, info.State.LastSeq, info.Cluster.Replicas)
+		} else if err != nil {
+			last = err.Error()
+		}
+		time.Sleep(250 * time.Millisecond)
+	}
+	t.Fatalf("replicas not current after 60 s: %s", last)
+}
+
+// TestClusterKillOneServer runs the three-server cluster of deploy/nats,
+// creates an R3 stream, SIGKILLs the stream's leader half-way through
+// publishing (with acks outstanding), finishes publishing, republishes the
+// first fifth under the same ids, and checks that the stream holds every
+// event exactly once; the killed server, restarted on its store, catches
+// up.
+func TestClusterKillOneServer(t *testing.T) {
+	c := startCluster(t)
+	_, js := c.connect()
+	ensureR3(t, js)
+
+	n := 3000
+	if testing.Short() {
+		n = 1200
+	}
+	events := paymentEvents(n)
+	killed := -1
+	stored, dups := publishAll(t, js, events, 100, func(i int) {
+		if i == n/2+37 {
+			killed = leaderIndex(t, js)
+			t.Logf("SIGKILL server %d (stream leader) before event %d", killed+1, i)
+			c.kill(killed)
+		}
+	})
+	if killed < 0 {
+		t.Fatal("no server was killed")
+	}
+	t.Logf("stored %d, duplicates dropped %d", stored, dups)
+	if stored != n {
+		t.Errorf("the server acknowledged %d events as new, want %d (a resend stored twice or one lost)", stored, n)
+	}
+	// The duplicate window survives the leader's death: a republish of
+	// events acknowledged before it stores nothing.
+	again, dupsAgain := publishAll(t, js, events[:n/5], 100, func(int) {})
+	if again != 0 || dupsAgain != n/5 {
+		t.Errorf("republishing %d events stored %d and dropped %d as duplicates, want 0 and %d", n/5, again, dupsAgain, n/5)
+	}
+
+	got := readStream(t, js, n)
+	checkExactlyOnce(t, events, got)
+
+	// The killed server comes back on its store and catches up.
+	c.start(killed)
+	waitReplicasCurrent(t, js, uint64(n))
+}
