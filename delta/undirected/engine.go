@@ -27,8 +27,9 @@ type engine struct {
 	// byte per node keeps the array in cache; change resets what it set.
 	mark   []uint8
 	nu, nv []uint32
-	chunk  [256]uint32
+	inner  []uint32 // the halo nodes whose neighbours halo4 walks
 	it     roaring.ManyIntIterator
+	lanes  [lanes]lane
 }
 
 // NewEngine returns the incremental counter of orbits on 2..maxNodes nodes

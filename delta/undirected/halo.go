@@ -1,6 +1,8 @@
 package undirected
 
 import (
+	"github.com/RoaringBitmap/roaring/v2"
+
 	"orbitwatch/delta"
 )
 
@@ -16,32 +18,61 @@ type halo struct {
 	edges [numRoles][numRoles]int64
 }
 
+// lanes is how many neighbour walks halo4 starts together: each start
+// chases a few pointers through the graph's bitmaps, and independent chases
+// overlap in the processor where one after another would each wait.
+const lanes = 8
+
+// lane is one neighbour walk in flight.
+type lane struct {
+	it    roaring.ManyIntIterator
+	w     uint32
+	k     int
+	chunk [64]uint32
+}
+
 // halo4 emits the changes of every halo node except u and v and fills h.
 // A 4-node set {u,v,w,z} changes only if w is in A ∪ B ∪ C and z is either
 // in A ∪ B ∪ C too or outside, adjacent to w; walking N(w) for every such w
 // meets each of those z once.
 func (e *engine) halo4(g *delta.Graph, s int64, h *halo, emit delta.Emit) {
+	ws := e.inner[:0]
 	for _, w := range e.nu {
-		if r := e.mark[w]; r != roleEnd {
-			e.inner(g, w, r, s, h, emit)
+		if e.mark[w] != roleEnd {
+			ws = append(ws, w)
 		}
 	}
 	for _, w := range e.nv {
 		if e.mark[w] == roleB {
-			e.inner(g, w, roleB, s, h, emit)
+			ws = append(ws, w)
 		}
+	}
+	e.inner = ws
+	for len(ws) > 0 {
+		group := e.lanes[:min(lanes, len(ws))]
+		for j := range group {
+			group[j].w = ws[j]
+			group[j].it.Initialize(g.Out(ws[j]))
+		}
+		for j := range group {
+			group[j].k = group[j].it.NextMany(group[j].chunk[:])
+		}
+		for j := range group {
+			e.walk(&group[j], s, h, emit)
+		}
+		ws = ws[len(group):]
 	}
 }
 
-// inner walks N(w) for a halo node w of the given role: it emits the
-// changes of the nodes z outside the halo (per path u–w–z or v–w–z, z a new
-// 4-path end when w is in A or B; a 3-star leaf turned tailed-triangle tail
-// when w is common), then w's own changes, and adds w's counts to h.
-func (e *engine) inner(g *delta.Graph, w uint32, role uint8, s int64, h *halo, emit delta.Emit) {
+// walk finishes the neighbour walk of a halo node w: it emits the changes
+// of the nodes z outside the halo (per path u–w–z or v–w–z, z a new 4-path
+// end when w is in A or B; a 3-star leaf turned tailed-triangle tail when w
+// is common), then w's own changes, and adds w's counts to h.
+func (e *engine) walk(l *lane, s int64, h *halo, emit delta.Emit) {
+	role := e.mark[l.w]
 	var n [numRoles]int64
-	e.it.Initialize(g.Out(w))
-	for k := e.it.NextMany(e.chunk[:]); k > 0; k = e.it.NextMany(e.chunk[:]) {
-		for _, z := range e.chunk[:k] {
+	for ; l.k > 0; l.k = l.it.NextMany(l.chunk[:]) {
+		for _, z := range l.chunk[:l.k] {
 			m := e.mark[z]
 			n[m]++
 			if m != roleFar {
@@ -65,7 +96,7 @@ func (e *engine) inner(g *delta.Graph, w uint32, role uint8, s int64, h *halo, e
 	default:
 		common(&d, h, n, far)
 	}
-	flush(w, &d, s, emit)
+	flush(l.w, &d, s, emit)
 	h.out[role] += far
 	for q := roleA; q <= roleC; q++ {
 		h.edges[role][q] += n[q]
