@@ -59,6 +59,11 @@ type workerRecord struct {
 	Origins []uint64 `json:"origins"`
 	// ShuffleNext is the shuffle stream sequence to read on from.
 	ShuffleNext uint64 `json:"shuffle_next"`
+	// Applied, Expired and Rejected are the event counts up to Cut, so
+	// that counts go on across restarts.
+	Applied  uint64            `json:"applied"`
+	Expired  uint64            `json:"expired"`
+	Rejected map[string]uint64 `json:"rejected,omitempty"`
 }
 
 // Worker is one shard of a deployment. It reads the whole log in order,
@@ -83,6 +88,7 @@ type Worker struct {
 	owners  []int32 // owning shard by dense node id, filled as ids appear
 	cut     uint64
 	origins []uint64
+	base    Stats                    // counts up to the cut this process started from
 	inbox   map[uint64][]*shuffleMsg // by batch end, one slot per origin
 	merged  map[uint64]int64         // a batch's changes summed over origins
 	shufNxt uint64
@@ -157,6 +163,7 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 			return nil, fmt.Errorf("stored worker record is at cut %d, the checkpoint at %d", rec.Cut, state.Seq)
 		}
 		w.cut, w.origins, w.shufNxt = rec.Cut, rec.Origins, rec.ShuffleNext
+		w.base = Stats{Applied: rec.Applied, Expired: rec.Expired, Rejected: rec.Rejected}
 	} else if state.Seq != 0 {
 		return nil, fmt.Errorf("this data directory was not written by a worker (it is at seq %d): give an empty directory", state.Seq)
 	}
@@ -445,7 +452,9 @@ func (w *Worker) commit() error {
 			}
 		}
 	}
-	rec, err := json.Marshal(workerRecord{Shard: w.cfg.Shard, Shards: w.cfg.Shards, Batch: w.cfg.Batch, Cut: w.cut, Origins: w.origins, ShuffleNext: next})
+	st := w.stats()
+	rec, err := json.Marshal(workerRecord{Shard: w.cfg.Shard, Shards: w.cfg.Shards, Batch: w.cfg.Batch, Cut: w.cut, Origins: w.origins, ShuffleNext: next,
+		Applied: st.Applied, Expired: st.Expired, Rejected: st.Rejected})
 	if err != nil {
 		return err
 	}
@@ -457,9 +466,21 @@ func (w *Worker) commit() error {
 	return nil
 }
 
+// stats are the event counts since the log's start: those stored with the
+// cut this process started from plus the applier's since.
+func (w *Worker) stats() Stats {
+	st := w.a.Stats()
+	st.Applied += w.base.Applied
+	st.Expired += w.base.Expired
+	for r, k := range w.base.Rejected {
+		st.Rejected[r] += k
+	}
+	return st
+}
+
 // snapshot records the cut-time status fields.
 func (w *Worker) snapshot() {
-	st := w.a.Stats()
+	st := w.stats()
 	w.mu.Lock()
 	defer w.mu.Unlock()
 	w.snap = Status{Shard: w.cfg.Shard, Shards: w.cfg.Shards, CutSeq: w.cut,
