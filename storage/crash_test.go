@@ -24,7 +24,7 @@ const crashChildEnv = "ORBITWATCH_STORAGE_CRASH_CHILD"
 const (
 	crashSeed  = 2026
 	crashAccts = 60_000
-	crashStep  = 20_000 // events per child checkpoint
+	crashStep  = 50_000 // events per child checkpoint: over 170k records, more than one Badger transaction
 )
 
 func TestMain(m *testing.M) {
@@ -39,7 +39,8 @@ func TestMain(m *testing.M) {
 }
 
 // crashChild continues the scenario from the store's last checkpoint,
-// printing "ready SEQ" once loaded and "done SEQ" after every commit.
+// printing "ready SEQ" once loaded, "committing SEQ" before and "done SEQ"
+// after every commit.
 func crashChild(dir string) error {
 	st, err := Open(dir, undirected4)
 	if err != nil {
@@ -53,6 +54,7 @@ func crashChild(dir string) error {
 	fmt.Printf("ready %d\n", m.seq)
 	for m.seq < 100*crashStep {
 		m.run(m.seq + crashStep)
+		fmt.Printf("committing %d\n", m.seq)
 		if err := st.Commit(m.checkpoint()); err != nil {
 			return err
 		}
@@ -75,13 +77,30 @@ func TestCrashMidCheckpoint(t *testing.T) {
 	rng := rand.New(rand.NewPCG(uint64(time.Now().UnixNano()), 1))
 	want := newModel(delta.Undirected, undirected4.NumOrbits, crashSeed, crashAccts)
 	rounds, torn := 0, 0
-	maxRounds := 8
+	minRounds, minTorn := 6, 2
 	if testing.Short() {
-		maxRounds = 4
+		minRounds, minTorn = 3, 1
 	}
-	for ; rounds < maxRounds && (rounds < 4 || torn < 2); rounds++ {
-		// Every other round lets the child finish one checkpoint first.
-		lastDone := runAndKill(t, dir, rounds%2, time.Duration(rng.Int64N(int64(1500*time.Millisecond))))
+	var commitTime time.Duration = time.Second
+	for ; rounds < 20 && (rounds < minRounds || torn < minTorn); rounds++ {
+		// Rounds kill the child while it opens (and repairs) the store,
+		// at a random moment of a checkpoint's commit (as long as the
+		// last one took), or after it finished a checkpoint.
+		var k kill
+		switch rounds % 3 {
+		case 0:
+			k = kill{after: "", delay: time.Duration(rng.Int64N(int64(400 * time.Millisecond)))}
+		case 1:
+			// The first quarter of a commit mostly fills Badger's first
+			// transaction in memory, where a kill leaves nothing behind.
+			k = kill{after: "committing", delay: commitTime/4 + time.Duration(rng.Int64N(int64(commitTime*3/4)))}
+		case 2:
+			k = kill{after: "done", delay: time.Duration(rng.Int64N(int64(commitTime)))}
+		}
+		lastDone, took := runAndKill(t, dir, k)
+		if took > 0 {
+			commitTime = took
+		}
 		// Badger cannot replay a crashed writer's log read-only; the error
 		// must say so, and a read-write open recovers.
 		if ro, err := OpenReadOnly(dir); err == nil {
@@ -106,11 +125,17 @@ func TestCrashMidCheckpoint(t *testing.T) {
 		want.run(s.Seq)
 		want.edges, want.nodes, want.changed = nil, nil, map[string][]byte{}
 		checkState(t, s, want)
-		t.Logf("round %d: killed after done %d, recovered %d, torn leftovers %d keys", rounds, lastDone, s.Seq, len(st.torn))
+		t.Logf("round %d: kill %s+%v (last commit took %v), killed after done %d, recovered %d, torn leftovers %d keys", rounds, k.after, k.delay, took, lastDone, s.Seq, len(st.torn))
+		if len(st.torn) == 0 {
+			if err := st.Close(); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
 		// Two parent checkpoints in this process: one a third of a child
-		// step ahead (below the torn version, if any), one past it; the
-		// second reads back exactly only if the first wrote through to the
-		// torn versions.
+		// step ahead (below the torn version), one past it; the second
+		// reads back exactly only if the first wrote through to the torn
+		// versions.
 		cont := modelFrom(s, undirected4.NumOrbits, crashSeed, crashAccts)
 		for _, ahead := range []uint64{crashStep / 3, crashStep + crashStep/3} {
 			cont.run(s.Seq + ahead)
@@ -157,10 +182,17 @@ func TestCrashMidCheckpoint(t *testing.T) {
 	t.Logf("%d rounds, %d landed inside a checkpoint, %d checkpoints verified", rounds, torn, len(st.Checkpoints()))
 }
 
-// runAndKill starts the child on dir, SIGKILLs it the given time after it
-// has reported ready and then done dones times, and returns the last
-// checkpoint it reported done.
-func runAndKill(t *testing.T, dir string, dones int, after time.Duration) uint64 {
+// kill says when runAndKill kills: delay after the child's first line
+// starting with after ("" : after the child started).
+type kill struct {
+	after string
+	delay time.Duration
+}
+
+// runAndKill starts the child on dir, SIGKILLs it as k says, and returns
+// the last checkpoint it reported done (0 if none) and how long its last
+// complete commit took (0 if none).
+func runAndKill(t *testing.T, dir string, k kill) (lastDone uint64, took time.Duration) {
 	t.Helper()
 	cmd := exec.Command(os.Args[0], "-test.run=^$")
 	cmd.Env = append(os.Environ(), crashChildEnv+"="+dir)
@@ -172,35 +204,42 @@ func runAndKill(t *testing.T, dir string, dones int, after time.Duration) uint64
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	var lastDone atomic.Uint64
-	ready := make(chan struct{})
+	var done, tookNs atomic.Uint64
+	seen := make(chan struct{})
 	lines := make(chan struct{})
-	count := 0
 	go func() {
 		defer close(lines)
 		sc := bufio.NewScanner(out)
+		var began time.Time
+		signalled := k.after == ""
 		for sc.Scan() {
 			word, num, _ := strings.Cut(sc.Text(), " ")
 			n, _ := strconv.ParseUint(num, 10, 64)
 			switch word {
-			case "ready":
-				lastDone.Store(n)
+			case "committing":
+				began = time.Now()
 			case "done":
-				lastDone.Store(n)
-				count++
+				done.Store(n)
+				tookNs.Store(uint64(time.Since(began)))
 			}
-			if word == "ready" && dones == 0 || word == "done" && count == dones {
-				close(ready)
+			if !signalled && word == k.after {
+				signalled = true
+				close(seen)
 			}
 		}
+		if !signalled {
+			close(seen)
+		}
 	}()
-	select {
-	case <-ready:
-	case <-time.After(time.Minute):
-		cmd.Process.Kill()
-		t.Fatal("crash child did not get ready in a minute")
+	if k.after != "" {
+		select {
+		case <-seen:
+		case <-time.After(time.Minute):
+			cmd.Process.Kill()
+			t.Fatalf("crash child did not print %q in a minute", k.after)
+		}
 	}
-	time.Sleep(after)
+	time.Sleep(k.delay)
 	if err := cmd.Process.Signal(syscall.SIGKILL); err != nil {
 		t.Fatal(err)
 	}
@@ -209,5 +248,5 @@ func runAndKill(t *testing.T, dir string, dones int, after time.Duration) uint64
 	if ws, ok := cmd.ProcessState.Sys().(syscall.WaitStatus); !ok || !ws.Signaled() {
 		t.Fatalf("crash child ended before the kill: %v", err)
 	}
-	return lastDone.Load()
+	return done.Load(), time.Duration(tookNs.Load())
 }
