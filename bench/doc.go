@@ -1,0 +1,12 @@
+// Package bench measures orbitwatch's counters on synthetic graphs of its
+// own fictional payments scenario (made by bench/gen): the cost of one edge
+// event for each incremental engine under churn, the time of a full
+// recount, their ratio, and the recount against networkx's triangle count
+// on the same graph. The Benchmark functions of this package and the
+// program bench/cmd/orbitbench both run the measurements defined here;
+// bench/plot draws the charts of the reports.
+//
+// It is not for checking exactness (the delta packages' tests do that,
+// against brute force and outside references); the few checks here only
+// make sure the harness feeds the engines a valid stream.
+package bench

@@ -1,0 +1,96 @@
+package bench
+
+import (
+	"bufio"
+	"bytes"
+	"errors"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"orbitwatch/bench/gen"
+)
+
+// Python returns the interpreter the outside-reference timings run on:
+// $ORBITWATCH_PYTHON, else /usr/bin/python3, else python3 from PATH; the
+// first that imports both networkx and igraph. The error says what was
+// tried when none does.
+func Python() (string, error) {
+	var tried []string
+	for _, p := range []string{os.Getenv("ORBITWATCH_PYTHON"), "/usr/bin/python3", "python3"} {
+		if p == "" {
+			continue
+		}
+		out, err := exec.Command(p, "-c", "import networkx, igraph").CombinedOutput()
+		if err == nil {
+			return p, nil
+		}
+		tried = append(tried, fmt.Sprintf("%s: %v %s", p, err, bytes.TrimSpace(out)))
+	}
+	return "", fmt.Errorf("no Python 3 with networkx and python-igraph (set ORBITWATCH_PYTHON); tried: %s", strings.Join(tried, "; "))
+}
+
+// trianglesScript loads an edge list (one "u v" per line), then times only
+// networkx.triangles(G) with time.perf_counter, and prints the seconds and
+// Σ_x triangles(x) (= 3 × the number of triangles).
+const trianglesScript = `
+import sys, time
+import networkx as nx
+G = nx.Graph()
+with open(sys.argv[1]) as f:
+    G.add_edges_from((int(a), int(b)) for a, b in (line.split() for line in f))
+t0 = time.perf_counter()
+tri = nx.triangles(G)
+t1 = time.perf_counter()
+print(t1 - t0, sum(tri.values()))
+`
+
+// NetworkxTriangles writes edges to a temporary edge list, runs
+// networkx.triangles (networkx 2.8) on it in python and returns the time
+// of that call alone (interpreter start-up and graph loading excluded) and
+// Σ_x triangles(x), the sum of per-node triangle counts.
+func NetworkxTriangles(python string, edges []gen.Edge) (time.Duration, uint64, error) {
+	dir, err := os.MkdirTemp("", "orbitwatch-bench-")
+	if err != nil {
+		return 0, 0, err
+	}
+	defer os.RemoveAll(dir)
+	path := filepath.Join(dir, "edges.txt")
+	f, err := os.Create(path)
+	if err != nil {
+		return 0, 0, err
+	}
+	w := bufio.NewWriter(f)
+	var line []byte
+	for _, e := range edges {
+		line = strconv.AppendUint(line[:0], uint64(e.U), 10)
+		line = append(line, ' ')
+		line = strconv.AppendUint(line, uint64(e.V), 10)
+		line = append(line, '\n')
+		w.Write(line)
+	}
+	if err := errors.Join(w.Flush(), f.Close()); err != nil {
+		return 0, 0, fmt.Errorf("writing edge list: %w", err)
+	}
+	var stderr bytes.Buffer
+	cmd := exec.Command(python, "-c", trianglesScript, path)
+	cmd.Stderr = &stderr
+	out, err := cmd.Output()
+	if err != nil {
+		return 0, 0, fmt.Errorf("%s networkx.triangles: %v: %s", python, err, bytes.TrimSpace(stderr.Bytes()))
+	}
+	fields := strings.Fields(string(out))
+	if len(fields) != 2 {
+		return 0, 0, fmt.Errorf("networkx.triangles script printed %q, want seconds and a sum", out)
+	}
+	sec, err1 := strconv.ParseFloat(fields[0], 64)
+	sum, err2 := strconv.ParseUint(fields[1], 10, 64)
+	if err := errors.Join(err1, err2); err != nil {
+		return 0, 0, fmt.Errorf("networkx.triangles script printed %q: %w", out, err)
+	}
+	return time.Duration(sec * float64(time.Second)), sum, nil
+}
