@@ -2,6 +2,7 @@ package bench
 
 import (
 	"flag"
+	"runtime"
 	"strings"
 	"sync"
 	"testing"
@@ -52,6 +53,8 @@ func BenchmarkChurn(b *testing.B) {
 				net := NewNet(f.Graph.NumNodes(), e.NumOrbits())
 				i := 0
 				b.ReportAllocs()
+				var before, after runtime.MemStats
+				runtime.ReadMemStats(&before)
 				b.ResetTimer()
 				for range b.N {
 					if err := Apply(e, f.Graph, f.Churn[i], net); err != nil {
@@ -62,6 +65,8 @@ func BenchmarkChurn(b *testing.B) {
 					}
 				}
 				b.StopTimer()
+				runtime.ReadMemStats(&after)
+				b.ReportMetric(float64(after.Mallocs-before.Mallocs)/float64(b.N), "allocs/event")
 				if i%2 == 1 { // finish the pair: leave the graph as it was
 					if err := Apply(e, f.Graph, f.Churn[i], net); err != nil {
 						b.Fatal(err)

@@ -6,6 +6,13 @@
 // program bench/cmd/orbitbench both run the measurements defined here;
 // bench/plot draws the charts of the reports.
 //
+//	go test -run '^$' -bench . -timeout 0 ./bench/
+//	go test -run '^$' -bench Churn ./bench/ -bench.nodes 20000
+//
+// The -bench.* flags (see bench_test.go) size the graphs; the defaults are
+// a Barabási–Albert graph on 200k nodes with m = 5 (≈1M edges) and the
+// directed payments stream of 1.3M events (≈1.07M distinct arcs).
+//
 // It is not for checking exactness (the delta packages' tests do that,
 // against brute force and outside references); the few checks here only
 // make sure the harness feeds the engines a valid stream.

@@ -71,6 +71,10 @@ func (f *Fixture) MeasureChurn(c Counter, events int) Run {
 		total.Elapsed += r.Elapsed
 		total.Allocs += r.Allocs
 		total.Emits += r.Emits
+		total.Adds += r.Adds
+		total.Removes += r.Removes
+		total.AddTime += r.AddTime
+		total.RemoveTime += r.RemoveTime
 	}
 	if !net.Zero() {
 		panic(fmt.Sprintf("bench: %s on %s: churn pairs did not sum to zero change", c.Name, f.Name))

@@ -98,7 +98,17 @@ type Run struct {
 	Elapsed time.Duration
 	Allocs  uint64 // heap allocations during the run
 	Emits   int64  // orbit changes emitted
+	// Adds and Removes split Events by op; AddTime and RemoveTime split
+	// the time spent inside Apply the same way.
+	Adds, Removes       int
+	AddTime, RemoveTime time.Duration
 }
+
+// NsPerAdd is AddTime / Adds in nanoseconds.
+func (r Run) NsPerAdd() float64 { return float64(r.AddTime.Nanoseconds()) / float64(r.Adds) }
+
+// NsPerRemove is RemoveTime / Removes in nanoseconds.
+func (r Run) NsPerRemove() float64 { return float64(r.RemoveTime.Nanoseconds()) / float64(r.Removes) }
 
 // NsPerEvent is Elapsed / Events in nanoseconds.
 func (r Run) NsPerEvent() float64 { return float64(r.Elapsed.Nanoseconds()) / float64(r.Events) }
@@ -120,15 +130,27 @@ func Replay(e delta.Engine, g *delta.Graph, events []gen.Event, net *Net) Run {
 	var before, after runtime.MemStats
 	runtime.ReadMemStats(&before)
 	emits := net.emits
+	var run Run
 	t0 := time.Now()
+	prev := t0
 	for i, ev := range events {
 		if err := Apply(e, g, ev, net); err != nil {
 			panic(fmt.Sprintf("bench: event %d %+v: %v", i, ev, err))
 		}
+		now := time.Now()
+		if ev.Op == gen.Add {
+			run.Adds++
+			run.AddTime += now.Sub(prev)
+		} else {
+			run.Removes++
+			run.RemoveTime += now.Sub(prev)
+		}
+		prev = now
 	}
-	el := time.Since(t0)
+	run.Elapsed = time.Since(t0)
 	runtime.ReadMemStats(&after)
-	return Run{Events: len(events), Elapsed: el, Allocs: after.Mallocs - before.Mallocs, Emits: net.emits - emits}
+	run.Events, run.Allocs, run.Emits = len(events), after.Mallocs-before.Mallocs, net.emits-emits
+	return run
 }
 
 // Recount times one full recount of g.

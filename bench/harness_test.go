@@ -41,7 +41,7 @@ func TestChurnSumsToZero(t *testing.T) {
 				e := c.Engine()
 				net := NewNet(g.NumNodes(), e.NumOrbits())
 				run := Replay(e, g, churn, net)
-				if run.Events != 300 || run.Emits == 0 {
+				if run.Events != 300 || run.Adds != 150 || run.Removes != 150 || run.Emits == 0 || run.AddTime+run.RemoveTime > run.Elapsed {
 					t.Fatalf("run %+v: want 300 events and some changes", run)
 				}
 				if !net.Zero() {

@@ -115,8 +115,8 @@ func run(args []string, stdout, stderr io.Writer) error {
 
 // writeTable prints one Markdown row per result.
 func writeTable(w io.Writer, results []bench.Result) {
-	fmt.Fprintln(w, "| graph | engine | events/s | ns/event | allocs/event | changes/event | recount (by) | recount / event | networkx.triangles | recount / networkx |")
-	fmt.Fprintln(w, "| --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
+	fmt.Fprintln(w, "| graph | engine | events/s | ns/event | ns/insert | ns/delete | allocs/event | changes/event | recount (by) | recount / event | networkx.triangles | recount / networkx |")
+	fmt.Fprintln(w, "| --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 	for _, r := range results {
 		nx, ratio := "–", "–"
 		if r.Networkx > 0 {
@@ -127,8 +127,8 @@ func writeTable(w io.Writer, results []bench.Result) {
 		if r.RecountUnfinished {
 			bound = "> "
 		}
-		fmt.Fprintf(w, "| %s | %s | %.0f | %.0f | %.2f | %.0f | %s%.2f s (%s) | %s%.0f | %s | %s%s |\n",
-			r.Fixture, r.Counter, r.Churn.EventsPerSec(), r.Churn.NsPerEvent(), r.Churn.AllocsPerEvent(),
+		fmt.Fprintf(w, "| %s | %s | %.0f | %.0f | %.0f | %.0f | %.2f | %.0f | %s%.2f s (%s) | %s%.0f | %s | %s%s |\n",
+			r.Fixture, r.Counter, r.Churn.EventsPerSec(), r.Churn.NsPerEvent(), r.Churn.NsPerAdd(), r.Churn.NsPerRemove(), r.Churn.AllocsPerEvent(),
 			r.Churn.EmitsPerEvent(), bound, r.Recount.Seconds(), r.Recounter, bound, r.RecountPerEvent(), nx, bound, ratio)
 	}
 }

@@ -27,8 +27,8 @@ func TestTable(t *testing.T) {
 		t.Fatalf("%d rows, want 3:\n%s", len(rows), s)
 	}
 	for _, r := range rows {
-		if cells := strings.Split(strings.Trim(r, "|"), "|"); len(cells) != 10 {
-			t.Fatalf("row %q has %d cells, want 10", r, len(cells))
+		if cells := strings.Split(strings.Trim(r, "|"), "|"); len(cells) != 12 {
+			t.Fatalf("row %q has %d cells, want 12", r, len(cells))
 		}
 	}
 	if !strings.Contains(rows[0], "(undirected/4)") || strings.Contains(rows[0], "| – | – |") {
