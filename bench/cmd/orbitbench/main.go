@@ -6,6 +6,11 @@
 // command line is printed above the table.
 //
 //	go run ./bench/cmd/orbitbench -nodes 200000 -m 5 -directed-events 1300000
+//	go run ./bench/cmd/orbitbench -nodes 0 -directed-events 0 -scaling 25000,50000,100000,200000 -plot .
+//
+// With -scaling it also measures the undirected engines' churn cost on
+// Barabási–Albert graphs of several sizes, prints it as a second table and,
+// with -plot, draws it as scaling.svg and scaling.png.
 package main
 
 import (
@@ -38,6 +43,8 @@ func run(args []string, stdout, stderr io.Writer) error {
 	events := fs.Int("events", 20000, "churn events measured per counter")
 	seed := fs.Uint64("seed", 1, "random seed")
 	noPython := fs.Bool("no-networkx", false, "do not time networkx.triangles")
+	scale := fs.String("scaling", "", "also measure churn on BA graphs of these node counts (comma-separated)")
+	plotDir := fs.String("plot", "", "directory for scaling.svg and scaling.png (with -scaling)")
 	limit := fs.Duration("recount-timeout", 10*time.Minute, "longest wait for one recount (shown as a lower bound when passed)")
 	if err := fs.Parse(args); err != nil {
 		return err
@@ -50,6 +57,14 @@ func run(args []string, stdout, stderr io.Writer) error {
 	}
 	if *nodes > 0 && (*m < 1 || *nodes <= *m) {
 		return fmt.Errorf("-nodes %d and -m %d: need m >= 1 and nodes > m", *nodes, *m)
+	}
+	var sizes []int
+	if *scale != "" {
+		s, err := parseSizes(*scale, *m)
+		if err != nil {
+			return err
+		}
+		sizes = s
 	}
 	python := ""
 	if !*noPython && *nodes > 0 {
@@ -107,6 +122,11 @@ func run(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stdout)
 	writeTable(stdout, results)
+	if len(sizes) > 0 {
+		if err := scaling(stdout, stderr, sizes, *m, *seed, *events, *plotDir); err != nil {
+			return err
+		}
+	}
 	for _, name := range unfinished {
 		fmt.Fprintf(stdout, "\nThe recount of %s did not finish within %v (\"> \" rows); it kept running while the rows after it were measured.\n", name, *limit)
 	}

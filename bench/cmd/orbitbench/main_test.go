@@ -2,6 +2,9 @@ package main
 
 import (
 	"bytes"
+	"image/png"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 )
@@ -39,8 +42,34 @@ func TestTable(t *testing.T) {
 	}
 }
 
+func TestScalingPlot(t *testing.T) {
+	dir := t.TempDir()
+	var out, errs bytes.Buffer
+	if err := run([]string{"-nodes", "0", "-directed-events", "0", "-events", "20", "-scaling", "200,400", "-plot", dir}, &out, &errs); err != nil {
+		t.Fatalf("%v\n%s", err, errs.String())
+	}
+	if !strings.Contains(out.String(), "\n| 200 |") || !strings.Contains(out.String(), "\n| 400 |") {
+		t.Fatalf("scaling table missing:\n%s", out.String())
+	}
+	svg, err := os.ReadFile(filepath.Join(dir, "scaling.svg"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := strings.Count(string(svg), `class="series"`); n != 2 {
+		t.Errorf("scaling.svg has %d series, want one per undirected engine (2)", n)
+	}
+	f, err := os.Open(filepath.Join(dir, "scaling.png"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	if _, err := png.Decode(f); err != nil {
+		t.Errorf("scaling.png: %v", err)
+	}
+}
+
 func TestBadArgs(t *testing.T) {
-	for _, args := range [][]string{{"-events", "1"}, {"-nodes", "3", "-m", "3"}, {"extra"}} {
+	for _, args := range [][]string{{"-events", "1"}, {"-nodes", "3", "-m", "3"}, {"extra"}, {"-scaling", "100,x"}} {
 		var out, errs bytes.Buffer
 		if err := run(args, &out, &errs); err == nil {
 			t.Errorf("%v: no error", args)
