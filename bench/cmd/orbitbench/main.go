@@ -120,8 +120,10 @@ func run(args []string, stdout, stderr io.Writer) error {
 	for _, f := range fixtures {
 		fmt.Fprintf(stdout, "- %s\n", f.Describe())
 	}
-	fmt.Fprintln(stdout)
-	writeTable(stdout, results)
+	if len(results) > 0 {
+		fmt.Fprintln(stdout)
+		writeTable(stdout, results)
+	}
 	if len(sizes) > 0 {
 		if err := scaling(stdout, stderr, sizes, *m, *seed, *events, *plotDir); err != nil {
 			return err
