@@ -9,6 +9,7 @@ import (
 	"image/draw"
 	"io"
 	"math"
+	"strings"
 
 	"golang.org/x/image/font"
 	"golang.org/x/image/font/basicfont"
@@ -185,7 +186,49 @@ func (p *pngCanvas) polyline(pts []point, width float64, c color.RGBA, _, _ stri
 	p.fill(c)
 }
 
+// asciiFold replaces what the PNG font (ASCII only) cannot draw: letters
+// with accents by the bare letter, dashes by '-', other runes by '?'.
+func asciiFold(s string) string {
+	var b strings.Builder
+	for _, r := range s {
+		switch {
+		case r < 0x80:
+			b.WriteRune(r)
+		case strings.ContainsRune("–—−", r):
+			b.WriteByte('-')
+		case r == '×':
+			b.WriteByte('x')
+		case r == '→':
+			b.WriteString("->")
+		default:
+			if f, ok := folds[r]; ok {
+				b.WriteByte(f)
+			} else {
+				b.WriteByte('?')
+			}
+		}
+	}
+	return b.String()
+}
+
+// folds maps accented Latin letters to their bare letter.
+var folds = func() map[rune]byte {
+	m := make(map[rune]byte)
+	for base, accented := range map[byte]string{
+		'a': "áàâäãåā", 'c': "çčć", 'e': "éèêëěē", 'i': "íìîïī", 'n': "ñň", 'o': "óòôöõøō",
+		'r': "ř", 's': "šś", 'u': "úùûüůū", 'y': "ýÿ", 'z': "žźż",
+		'A': "ÁÀÂÄÃÅ", 'C': "ÇČ", 'E': "ÉÈÊËĚ", 'I': "ÍÌÎÏ", 'N': "ÑŇ", 'O': "ÓÒÔÖÕØ",
+		'R': "Ř", 'S': "Š", 'U': "ÚÙÛÜŮ", 'Y': "Ý", 'Z': "Ž",
+	} {
+		for _, r := range accented {
+			m[r] = base
+		}
+	}
+	return m
+}()
+
 func (p *pngCanvas) text(x, y float64, s string, a anchor, c color.RGBA, _ string) {
+	s = asciiFold(s)
 	d := font.Drawer{Dst: p.img, Src: image.NewUniform(c), Face: basicfont.Face7x13}
 	w := float64(d.MeasureString(s)) / 64
 	x -= w * float64(a) / 2

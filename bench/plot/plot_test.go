@@ -261,6 +261,12 @@ func TestLogScale(t *testing.T) {
 	}
 }
 
+func TestASCIIFold(t *testing.T) {
+	if got := asciiFold("Barabási–Albert, Pržulj 2007, 2×3 → ok"); got != "Barabasi-Albert, Przulj 2007, 2x3 -> ok" {
+		t.Errorf("asciiFold = %q", got)
+	}
+}
+
 func TestNumber(t *testing.T) {
 	for _, c := range []struct {
 		v    float64
