@@ -44,52 +44,95 @@ func shuffleID(stream string, batch uint64, origin, owner int) string {
 	return fmt.Sprintf("%s/b%d/o%d/t%d", stream, batch, origin, owner)
 }
 
-// outbox sums an origin's orbit changes per owner during one batch. Its
-// maps and buffers are reused from batch to batch, so adding a change
-// allocates nothing once they have grown.
-type outbox struct {
-	sums []map[uint64]int64 // per owner: node<<16 | orbit → summed change
-	keys []uint64
+// sums holds summed orbit changes per (node, orbit) in a dense node-major
+// array, with epoch marks to tell which nodes have any in the current round.
+// Adding a change is an array add; it allocates only when a new node id
+// grows the arrays.
+type sums struct {
+	orbits int
+	v      []int64
+	mark   []uint32 // mark[x] == epoch: x has changes this round
+	epoch  uint32
 }
 
-func newOutbox(shards int) *outbox {
-	o := &outbox{sums: make([]map[uint64]int64, shards)}
-	for i := range o.sums {
-		o.sums[i] = make(map[uint64]int64)
+func newSums(orbits int) sums { return sums{orbits: orbits, epoch: 1} }
+
+// add sums d into (x, o) and reports whether x is new this round.
+func (s *sums) add(x uint32, o int, d int64) bool {
+	if int(x) >= len(s.mark) {
+		n := max(int(x)+1, 2*len(s.mark))
+		s.mark = append(s.mark, make([]uint32, n-len(s.mark))...)
+		s.v = append(s.v, make([]int64, n*s.orbits-len(s.v))...)
 	}
-	return o
+	s.v[int(x)*s.orbits+o] += d
+	if s.mark[x] == s.epoch {
+		return false
+	}
+	s.mark[x] = s.epoch
+	return true
 }
 
-// add sums change d of (x, o) for owner; o must be below 1<<16.
+// row returns x's summed changes; the caller zeroes them when done.
+func (s *sums) row(x uint32) []int64 { return s.v[int(x)*s.orbits : int(x+1)*s.orbits] }
+
+// next starts a new round. Every row used in this one must be zero again.
+func (s *sums) next() { s.epoch++ }
+
+// outbox sums an origin's orbit changes during one batch, with the nodes
+// touched kept per owner. Its buffers are reused from batch to batch, so
+// adding a change allocates nothing once they have grown.
+type outbox struct {
+	sums    sums
+	touched [][]uint32 // per owner, in order of first change
+}
+
+func newOutbox(shards, orbits int) *outbox {
+	return &outbox{sums: newSums(orbits), touched: make([][]uint32, shards)}
+}
+
+// add sums change d of (x, o) for x's owner.
 func (b *outbox) add(owner int, x uint32, o int, d int64) {
-	b.sums[owner][uint64(x)<<16|uint64(o)] += d
+	if b.sums.add(x, o, d) {
+		b.touched[owner] = append(b.touched[owner], x)
+	}
 }
 
-// encode appends owner's message of this batch to dst and forgets owner's
-// sums. Zero sums are left out.
+// encode appends owner's message of this batch to dst and zeroes owner's
+// sums. Zero sums are left out. After every owner's message, call done.
 func (b *outbox) encode(dst []byte, origin, owner int, batch, nodes uint64) []byte {
-	m := b.sums[owner]
-	b.keys = b.keys[:0]
-	for k, d := range m {
-		if d != 0 {
-			b.keys = append(b.keys, k)
+	xs := b.touched[owner]
+	slices.Sort(xs)
+	n := 0
+	for _, x := range xs {
+		for _, d := range b.sums.row(x) {
+			if d != 0 {
+				n++
+			}
 		}
 	}
-	slices.Sort(b.keys)
 	dst = append(dst, shuffleVersion)
 	dst = binary.AppendUvarint(dst, uint64(origin))
 	dst = binary.AppendUvarint(dst, uint64(owner))
 	dst = binary.AppendUvarint(dst, batch)
 	dst = binary.AppendUvarint(dst, nodes)
-	dst = binary.AppendUvarint(dst, uint64(len(b.keys)))
-	for _, k := range b.keys {
-		dst = binary.AppendUvarint(dst, k>>16)
-		dst = binary.AppendUvarint(dst, k&0xffff)
-		dst = binary.AppendVarint(dst, m[k])
+	dst = binary.AppendUvarint(dst, uint64(n))
+	for _, x := range xs {
+		row := b.sums.row(x)
+		for o, d := range row {
+			if d != 0 {
+				dst = binary.AppendUvarint(dst, uint64(x))
+				dst = binary.AppendUvarint(dst, uint64(o))
+				dst = binary.AppendVarint(dst, d)
+			}
+		}
+		clear(row)
 	}
-	clear(m)
+	b.touched[owner] = xs[:0]
 	return dst
 }
+
+// done ends the batch once every owner's message is encoded.
+func (b *outbox) done() { b.sums.next() }
 
 // decodeShuffle reads a shuffle message; the error says what is wrong.
 func decodeShuffle(b []byte) (shuffleMsg, error) {

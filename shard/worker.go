@@ -90,7 +90,8 @@ type Worker struct {
 	origins []uint64
 	base    Stats                    // counts up to the cut this process started from
 	inbox   map[uint64][]*shuffleMsg // by batch end, one slot per origin
-	merged  map[uint64]int64         // a batch's changes summed over origins
+	merged  sums                     // a batch's changes summed over origins
+	mergedX []uint32                 // the nodes with merged changes
 	shufNxt uint64
 
 	batchFirst time.Time // when the current batch's first message was read
@@ -148,7 +149,7 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 	if err != nil {
 		return nil, err
 	}
-	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards), inbox: map[uint64][]*shuffleMsg{}, merged: map[uint64]int64{},
+	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards, cfg.Counting.Catalog.NumOrbits()), inbox: map[uint64][]*shuffleMsg{}, merged: newSums(cfg.Counting.Catalog.NumOrbits()),
 		origins: make([]uint64, cfg.Shards), shufNxt: 1, started: time.Now()}
 	if b, ok := state.Blobs[workerBlob]; ok {
 		var rec workerRecord
@@ -351,6 +352,7 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 			return err
 		}
 	}
+	w.out.done()
 	o := w.observer()
 	if o != nil {
 		o.Batch(time.Since(w.batchFirst))
@@ -372,19 +374,29 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 			return fmt.Errorf("batch %d: shard %d knew %d nodes at the batch end, this shard %d: the shards disagree on the log", end, origin, m.nodes, nodes)
 		}
 		for _, c := range m.changes {
-			w.merged[uint64(c.node)<<16|uint64(c.orbit)] += c.d
+			if int(c.node) >= int(nodes) || c.orbit >= w.merged.orbits {
+				return fmt.Errorf("batch %d from shard %d: change of node %d orbit %d out of range", end, origin, c.node, c.orbit)
+			}
+			if w.merged.add(c.node, c.orbit, c.d) {
+				w.mergedX = append(w.mergedX, c.node)
+			}
 		}
 		w.origins[origin] = end
 	}
-	for k, d := range w.merged {
-		if d == 0 {
-			continue
+	for _, x := range w.mergedX {
+		row := w.merged.row(x)
+		for o, d := range row {
+			if d == 0 {
+				continue
+			}
+			if err := w.a.AddDelta(x, o, d); err != nil {
+				return fmt.Errorf("batch %d: %w", end, err)
+			}
 		}
-		if err := w.a.AddDelta(uint32(k>>16), int(k&0xffff), d); err != nil {
-			return fmt.Errorf("batch %d: %w", end, err)
-		}
+		clear(row)
 	}
-	clear(w.merged)
+	w.mergedX = w.mergedX[:0]
+	w.merged.next()
 	delete(w.inbox, end)
 	w.cut = end
 	if err := w.commit(); err != nil {
