@@ -11,7 +11,7 @@
 //
 // The -bench.* flags (see bench_test.go) size the graphs; the defaults are
 // a Barabási–Albert graph on 200k nodes with m = 5 (≈1M edges) and the
-// directed payments stream of 1.3M events (≈1.07M distinct arcs).
+// directed payments stream of 1.3M events (1,088,365 distinct arcs at seed 1).
 //
 // It is not for checking exactness (the delta packages' tests do that,
 // against brute force and outside references); the few checks here only

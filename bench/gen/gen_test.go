@@ -388,3 +388,15 @@ func BenchmarkDirectedPayments1M(b *testing.B) {
 		b.ReportMetric(float64(len(ev)), "events")
 	}
 }
+
+// The benchmarks' directed graph must have at least a million arcs.
+func TestDirectedMillionArcs(t *testing.T) {
+	_, ev := DirectedPayments(DefaultDirected(1300000), 1)
+	seen := make(map[uint64]struct{}, len(ev))
+	for _, e := range ev {
+		seen[uint64(e.U)<<32|uint64(e.V)] = struct{}{}
+	}
+	if len(seen) < 1000000 {
+		t.Fatalf("%d distinct arcs in 1.3M events, want at least 1M", len(seen))
+	}
+}
