@@ -365,6 +365,15 @@ func TestThreeWorkersEqualOne(t *testing.T) {
 		}
 	}
 	sameVectors(t, "three workers vs one", union, got)
+	// verify recounts each shard's stored graph statically and compares
+	// the vectors the shard owns: an independent check of what the
+	// shuffle delivered.
+	for i := range three {
+		out, code := run(t, "verify", "--data", filepath.Join(dir, fmt.Sprint("three-", i)))
+		if code != 0 || !strings.Contains(out, "every stored vector equals the static recount") {
+			t.Fatalf("verify shard %d: exit %d\n%s", i, code, out)
+		}
+	}
 
 	// The rejects stream keeps each rejected message once, with its reason.
 	rs, err := jsConnect(t, srv.URL()).Stream(context.Background(), "THREE_REJECTS")
