@@ -201,6 +201,16 @@ func TestCreateInterrupted(t *testing.T) {
 	if st.Settings() != undirected4 || st.Seq() != 0 {
 		t.Fatalf("settings %+v seq %d after creating over an empty Badger directory", st.Settings(), st.Seq())
 	}
+	// Killed even earlier: only Badger's lock file exists.
+	early := t.TempDir()
+	if err := os.WriteFile(filepath.Join(early, "LOCK"), []byte("4242\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	st2 := mustOpen(t, early, undirected4)
+	defer st2.Close()
+	if st2.Settings() != undirected4 {
+		t.Fatalf("settings %+v after creating over a lone lock file", st2.Settings())
+	}
 }
 
 // TestInUse: a store open for writing cannot be opened again, and the

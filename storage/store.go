@@ -130,7 +130,8 @@ func OpenReadOnly(dir string) (*Store, error) {
 	return st, nil
 }
 
-// prepareDir makes dir exist and reports whether it was missing or empty.
+// prepareDir makes dir exist and reports whether it was missing, empty, or
+// left by a create interrupted before Badger wrote its manifest.
 func prepareDir(dir string) (fresh bool, err error) {
 	ents, err := os.ReadDir(dir)
 	if errors.Is(err, os.ErrNotExist) {
@@ -139,13 +140,17 @@ func prepareDir(dir string) (fresh bool, err error) {
 	if err != nil {
 		return false, err
 	}
-	if len(ents) == 0 {
-		return true, nil
+	if _, err := os.Stat(filepath.Join(dir, badger.ManifestFilename)); err == nil {
+		return false, nil
 	}
-	if _, err := os.Stat(filepath.Join(dir, badger.ManifestFilename)); err != nil {
-		return false, fmt.Errorf("not an orbitwatch store: directory is not empty and has no Badger manifest")
+	// Badger takes its LOCK file before it writes the manifest; a crash in
+	// between leaves only that file, and no data.
+	for _, e := range ents {
+		if e.Name() != "LOCK" {
+			return false, fmt.Errorf("not an orbitwatch store: directory is not empty and has no Badger manifest")
+		}
 	}
-	return false, nil
+	return true, nil
 }
 
 // openBadger opens the Badger directory in managed mode with warnings-only
