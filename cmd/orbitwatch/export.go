@@ -136,6 +136,7 @@ type matrixParquet struct {
 	nodeCol int
 	orbCol  []int // column index of orbit o
 	rows    []parquet.Row
+	names   []byte // the node ids of the buffered rows, back to back
 	n       int
 }
 
@@ -173,7 +174,12 @@ func lookupColumn(s *parquet.Schema, name string) int {
 
 func (m *matrixParquet) row(node string, vec []uint64) error {
 	r := m.rows[m.n]
-	r[m.nodeCol] = parquet.ByteArrayValue([]byte(node)).Level(0, 0, m.nodeCol)
+	// A value refers to its bytes; when names grows, the values made
+	// before keep the old array, so every buffered id stays intact until
+	// WriteRows has copied it.
+	start := len(m.names)
+	m.names = append(m.names, node...)
+	r[m.nodeCol] = parquet.ByteArrayValue(m.names[start:len(m.names):len(m.names)]).Level(0, 0, m.nodeCol)
 	for o, c := range vec {
 		r[m.orbCol[o]] = parquet.Int64Value(int64(c)).Level(0, 0, m.orbCol[o])
 	}
@@ -186,7 +192,7 @@ func (m *matrixParquet) row(node string, vec []uint64) error {
 
 func (m *matrixParquet) flush() error {
 	_, err := m.w.WriteRows(m.rows[:m.n])
-	m.n = 0
+	m.n, m.names = 0, m.names[:0]
 	return err
 }
 
