@@ -12,7 +12,8 @@
 // Both counters are combinatorial. The recount expresses non-induced
 // pattern counts by degrees, triangles and common neighbours and solves
 // them for the induced orbit counts (the approach of Hočevar & Demšar 2014,
-// with the relations derived in recount.go); K4s are enumerated directly.
+// with the relations derived in recount.go); triangles, K4s and 4-cycles
+// are enumerated once each over a degree ordering.
 // The engine classifies the halo of the changed edge uv by membership in
 // N(u)\N(v), N(v)\N(u) and N(u)∩N(v) and derives every node's change from
 // edge counts inside and between those sets, so its work follows the number

@@ -121,7 +121,8 @@ func (e *engine) change(g *delta.Graph, u, v uint32, s int64, emit delta.Emit) {
 	flush(v, &dv, s, emit)
 }
 
-// reset clears the marks change set, also when emit panics.
+// reset clears the marks that change set; it runs deferred, so a
+// panicking emit leaves the engine usable.
 func (e *engine) reset(u, v uint32) {
 	for _, w := range e.nu {
 		e.mark[w] = roleFar
@@ -156,8 +157,9 @@ func flush(x uint32, d *[maxOrbits]int64, s int64, emit delta.Emit) {
 }
 
 // endpoint3 adds the 3-node changes of endpoint u, where a counts u's own
-// side N(u)\N[v], b the other side and c the common neighbours: w–u–v new 3-paths with u in the middle (a of them) and with u
-// at an end (b); paths u–w–v closing into triangles (c).
+// side N(u)\N[v], b the other side and c the common neighbours: new
+// 3-paths w–u–v with u in the middle (a) and u–v–w with u at an end (b);
+// 3-paths u–w–v closing into triangles (c).
 func endpoint3(d *[maxOrbits]int64, a, b, c int64) {
 	d[oPathEnd3] += b - c
 	d[oPathMid3] += a

@@ -5,6 +5,8 @@ import (
 	"testing"
 
 	"orbitwatch/delta"
+	"orbitwatch/delta/brute"
+	"orbitwatch/delta/catalog"
 )
 
 // TestEngineEveryEvent replays seeded random streams of inserts and deletes
@@ -61,8 +63,18 @@ func TestEngineHub(t *testing.T) {
 			g.Link(u, v)
 		}
 	}
-	e := NewEngine(4)
-	r := NewRecounter(4)
+	for _, k := range []int{3, 4} {
+		hubStream(t, g, k, rng)
+	}
+}
+
+// hubStream toggles edges at the hub (two events in three) and between
+// other nodes, checking each event against two recounts and the final
+// running sums against delta/brute.
+func hubStream(t *testing.T, g *delta.Graph, k int, rng *rand.Rand) {
+	n := g.NumNodes()
+	e := NewEngine(k)
+	r := NewRecounter(k)
 	before := r.Recount(g)
 	sums := before.Clone()
 	events := 120
@@ -84,6 +96,11 @@ func TestEngineHub(t *testing.T) {
 		before = after
 	}
 	mustEqual(t, "hub running sums vs recount", sums, before)
+	cat, err := catalog.New(delta.Undirected, k)
+	if err != nil {
+		t.Fatal(err)
+	}
+	mustEqual(t, "hub running sums vs brute", sums, brute.Count(g, cat))
 }
 
 // TestEngineBarabasiAlbert runs a longer delete/re-insert stream on a
