@@ -17,6 +17,7 @@ import (
 	"orbitwatch/bench/plot"
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
+	"orbitwatch/storage"
 )
 
 // historyCSV runs history --csv and returns its header and rows.
@@ -294,5 +295,52 @@ func TestHistoryPlots(t *testing.T) {
 	}
 	if ents, _ := os.ReadDir(dir); len(ents) != 0 {
 		t.Errorf("failed plots left files: %v", ents)
+	}
+}
+
+func TestLargestOrbits(t *testing.T) {
+	v := func(c ...uint64) storage.Version { return storage.Version{Vector: c} }
+	for _, c := range []struct {
+		name string
+		vers []storage.Version
+		k    int
+		want []int
+	}{
+		{"largest final counts, in id order", []storage.Version{v(1, 9, 0, 5, 7)}, 2, []int{1, 4}},
+		{"ties go to the lower id", []storage.Version{v(3, 3, 3, 1)}, 2, []int{0, 1}},
+		{"zero at the end but not before still counts", []storage.Version{v(0, 0, 4), v(1, 0, 0)}, 3, []int{0, 2}},
+		{"never non-zero is left out", []storage.Version{v(0, 2, 0), v(0, 1, 0)}, 6, []int{1}},
+		{"all zero keeps orbit 0", []storage.Version{v(0, 0, 0)}, 6, []int{0}},
+	} {
+		if got := largestOrbits(c.vers, c.k); fmt.Sprint(got) != fmt.Sprint(c.want) {
+			t.Errorf("%s: %v, want %v", c.name, got, c.want)
+		}
+	}
+}
+
+func TestTimeRangeContains(t *testing.T) {
+	t0 := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
+	var none time.Time
+	var r timeRange
+	if err := r.parse(t0.Format(time.RFC3339), t0.Add(time.Hour).Format(time.RFC3339)); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		wm   time.Time
+		want bool
+	}{
+		{t0, true}, {t0.Add(time.Hour), true}, {t0.Add(-time.Nanosecond), false},
+		{t0.Add(time.Hour + time.Nanosecond), false}, {none, false},
+	} {
+		if got := r.contains(c.wm); got != c.want {
+			t.Errorf("[%v, +1h] contains %v: %v", t0, c.wm, got)
+		}
+	}
+	var upTo timeRange
+	if err := upTo.parse("", t0.Format(time.RFC3339)); err != nil {
+		t.Fatal(err)
+	}
+	if !upTo.contains(none) || !upTo.contains(t0) || upTo.contains(t0.Add(time.Second)) {
+		t.Error("--to alone: a checkpoint without time is within, later ones are not")
 	}
 }
