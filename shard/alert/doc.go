@@ -1,0 +1,22 @@
+// Package alert decides, at each cut, which touched nodes changed their
+// structural role enough to tell an investigator: a signature shift (the
+// GDV distance of Milenković & Pržulj 2008 between a node's orbit vector and
+// its baseline), or an orbit rule (the count of one orbit, or its growth
+// against the baseline, above a level). Rules come from a YAML file or from
+// DefaultConfig; gates (minimum degree and total count), hysteresis, a
+// per-node cool-down and a cap on alerts per minute of event time damp
+// them. An Alert names the node, the cut, the rule, the score and the
+// orbits that moved most, with their plain names from the catalog.
+//
+// Evaluate is pure given its inputs and the Evaluator's own state: no I/O,
+// no clocks (times come with the Cut), so a replay of the log gives the same
+// alerts with the same ids. The state (hysteresis, cool-downs, decayed
+// baselines, the rate window) is serialisable so a worker can checkpoint it
+// with its counts. Webhook delivers alerts over HTTP from its own goroutine
+// and never blocks the caller.
+//
+// It is not for counting (package delta), for reading baselines from
+// history (the caller reads them from package storage, which also stores the
+// alert records), or for deciding what is fraud: an alert is a lead for a
+// trained investigator, not a finding about a person.
+package alert
