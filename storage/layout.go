@@ -21,6 +21,7 @@ import (
 //	'e' u(4) v(4)          edge {u,v} (u<v) or arc u→v: uvarint multiplicity
 //	'v' id(4)              orbit vector, uvarints with trailing zeros dropped
 //	'b' name               applier blob
+//	'a', 'o'               alert records and their node index (alerts.go)
 //
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
 // one small entry per checkpoint, while a per-node bitmap would rewrite both
@@ -40,11 +41,13 @@ const (
 	pBlob       = 'b'
 )
 
-// checkpointPrefixes are the prefixes a checkpoint writes through its
-// (possibly several) write-batch transactions, so a crash can tear them.
+// checkpointPrefixes are the prefixes written at a checkpoint's version
+// before its meta record: by Commit's write batch (possibly several
+// transactions) and by PutAlerts ahead of the Commit of its cut. A crash
+// can leave them above the last complete checkpoint, so repair covers them.
 // The meta, checkpoint and watermark records are written in the final
 // single transaction and are never torn.
-var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pVector, pBlob}
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pVector, pBlob, pAlert, pAlertNode}
 
 func keyID(p byte, x uint32) []byte {
 	k := make([]byte, 5)
