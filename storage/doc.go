@@ -1,8 +1,9 @@
 // Package storage keeps orbitwatch's durable node state in a Badger
 // directory: the node dictionary (string id ↔ dense uint32), the adjacency
 // with multiplicities, every node's orbit vector with its history, the
-// applied sequence and event-time watermark, and opaque records the applier
-// needs to resume (input progress, pending window expiries).
+// applied sequence and event-time watermark, opaque records the applier
+// needs to resume (input progress, pending window expiries), and the alerts
+// raised at each cut.
 //
 // Badger runs in managed mode: a checkpoint at sequence s writes every
 // record at Badger version s, and a checkpoint is complete once its small
