@@ -26,8 +26,10 @@ import (
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
 // one small entry per checkpoint, while a per-node bitmap would rewrite both
 // endpoints' whole neighbour sets (kilobytes for a hub) into the history at
-// every checkpoint that touches them. BenchmarkCheckpoint reports both
-// sizes.
+// every checkpoint that touches them. BenchmarkCheckpoint reports both: on
+// a uniform 1M-edge graph of mean degree 10, about 20 bytes on disk per
+// stored edge and 15 per update record, against about 106 raw bytes of
+// bitmaps per changed edge; around hubs the gap grows with the degree.
 const (
 	pSettings   = 's'
 	pFloor      = 'f'
