@@ -10,9 +10,9 @@ type recounter struct{ maxNodes, orbits int }
 
 // NewRecounter returns a static recount of orbits on 2..maxNodes nodes
 // (maxNodes 2, 3 or 4). It snapshots the graph into rows relabelled by
-// degree, intersects each edge's rows once for its triangles, enumerates
-// triangles, K4s and 4-cycles from their lowest or highest node, and solves
-// the orbit equations per node; all passes run on runtime.GOMAXPROCS
+// degree, enumerates triangles, K4s and 4-cycles once each from their
+// lowest or highest node (which gives every edge's triangle count), and
+// solves the orbit equations per node; all passes run on runtime.GOMAXPROCS
 // goroutines and the result does not depend on their number.
 func NewRecounter(maxNodes int) delta.Recounter {
 	return &recounter{maxNodes: maxNodes, orbits: numOrbits(maxNodes)}
