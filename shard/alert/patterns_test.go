@@ -13,7 +13,7 @@ import (
 	"orbitwatch/storage"
 )
 
-func undirected4(t *testing.T) *catalog.Catalog {
+func undirected4(t testing.TB) *catalog.Catalog {
 	t.Helper()
 	cat, err := catalog.New(delta.Undirected, 4)
 	if err != nil {
