@@ -130,7 +130,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 	for _, name := range unfinished {
-		fmt.Fprintf(stdout, "\nThe recount of %s did not finish within %v (\"> \" rows); it kept running while the rows after it were measured.\n", name, *limit)
+		fmt.Fprintf(stdout, "\nThe recount of %s did not finish within %v (\"> \" rows are lower bounds); it was left running, so later measurements of this run shared the machine with it.\n", name, *limit)
 	}
 	return nil
 }
@@ -140,17 +140,17 @@ func writeTable(w io.Writer, results []bench.Result) {
 	fmt.Fprintln(w, "| graph | engine | events/s | ns/event | ns/insert | ns/delete | allocs/event | changes/event | recount (by) | recount / event | networkx.triangles | recount / networkx |")
 	fmt.Fprintln(w, "| --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |")
 	for _, r := range results {
-		nx, ratio := "–", "–"
-		if r.Networkx > 0 {
-			nx = fmt.Sprintf("%.2f s", r.Networkx.Seconds())
-			ratio = fmt.Sprintf("%.2f", r.RecountPerNetworkx())
-		}
 		bound := ""
 		if r.RecountUnfinished {
 			bound = "> "
 		}
-		fmt.Fprintf(w, "| %s | %s | %.0f | %.0f | %.0f | %.0f | %.2f | %.0f | %s%.2f s (%s) | %s%.0f | %s | %s%s |\n",
+		nx, ratio := "–", "–"
+		if r.Networkx > 0 {
+			nx = fmt.Sprintf("%.2f s", r.Networkx.Seconds())
+			ratio = fmt.Sprintf("%s%.2f", bound, r.RecountPerNetworkx())
+		}
+		fmt.Fprintf(w, "| %s | %s | %.0f | %.0f | %.0f | %.0f | %.2f | %.0f | %s%.2f s (%s) | %s%.0f | %s | %s |\n",
 			r.Fixture, r.Counter, r.Churn.EventsPerSec(), r.Churn.NsPerEvent(), r.Churn.NsPerAdd(), r.Churn.NsPerRemove(), r.Churn.AllocsPerEvent(),
-			r.Churn.EmitsPerEvent(), bound, r.Recount.Seconds(), r.Recounter, bound, r.RecountPerEvent(), nx, bound, ratio)
+			r.Churn.EmitsPerEvent(), bound, r.Recount.Seconds(), r.Recounter, bound, r.RecountPerEvent(), nx, ratio)
 	}
 }
