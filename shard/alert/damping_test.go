@@ -289,3 +289,30 @@ func TestUnmarshalRefusesBadState(t *testing.T) {
 	}
 	runSteps(t, re, "acct-1", []step{{5, 10, true}})
 }
+
+func TestForget(t *testing.T) {
+	cat := undirected4(t)
+	for _, mode := range []alert.BaselineMode{alert.BaselineLookback, alert.BaselineDecayed} {
+		cfg := configOf(ringRule(time.Hour))
+		cfg.Baseline, cfg.HalfLife = mode, time.Hour
+		ev := alert.New(cfg, cat)
+		at := func(m int) alert.Cut {
+			return alert.Cut{Seq: uint64(m + 1), EventTime: t0.Add(time.Duration(m) * time.Minute)}
+		}
+		ev.Evaluate(at(0), []alert.NodeChange{{Node: "old", Degree: 4, Now: cycleVector(5)}, {Node: "calm", Degree: 4, Now: cycleVector(0)}})
+		ev.Evaluate(at(30), []alert.NodeChange{{Node: "new", Degree: 4, Now: cycleVector(5)}})
+		want := map[alert.BaselineMode]int{alert.BaselineLookback: 2, alert.BaselineDecayed: 3}[mode]
+		if ev.Nodes() != want {
+			t.Fatalf("%v: %d node states, want %d", mode, ev.Nodes(), want)
+		}
+		if n := ev.Forget(t0.Add(10 * time.Minute)); n != want-1 || ev.Nodes() != 1 {
+			t.Fatalf("%v: forgot %d, %d left; want %d forgotten and \"new\" kept", mode, n, ev.Nodes(), want-1)
+		}
+		// "old" is treated as never seen: it fires again within its former
+		// cool-down; "new" is still cooling down.
+		got := ev.Evaluate(at(40), []alert.NodeChange{{Node: "old", Degree: 4, Now: cycleVector(5)}, {Node: "new", Degree: 4, Now: cycleVector(0)}, {Node: "new", Degree: 4, Now: cycleVector(6)}})
+		if len(got) != 1 || got[0].Node != "old" {
+			t.Fatalf("%v: after Forget got %v, want one alert on old", mode, got)
+		}
+	}
+}

@@ -323,3 +323,32 @@ func (e *Evaluator) alert(cut Cut, nc *NodeChange, r *Rule, score float64, hasBa
 	}
 	return a
 }
+
+// Forget drops the state of every node whose last firing (any rule) and,
+// for BaselineDecayed, last evaluation are before t, and returns how many
+// it dropped. Such a node is afterwards treated as never seen: armed, out
+// of cool-down, and (decayed) without a baseline until its next
+// evaluation. A worker calls it now and then with, for example, its
+// watermark minus the window, so that the state of accounts gone quiet
+// does not pile up.
+func (e *Evaluator) Forget(t time.Time) int {
+	cut := t.UnixNano()
+	n := 0
+	for id, st := range e.nodes {
+		if st.avg != nil && st.avgAt >= cut {
+			continue
+		}
+		recent := false
+		for _, rs := range st.rules {
+			recent = recent || (rs.hasLast && rs.last >= cut)
+		}
+		if !recent {
+			delete(e.nodes, id)
+			n++
+		}
+	}
+	return n
+}
+
+// Nodes returns how many nodes the Evaluator keeps state for.
+func (e *Evaluator) Nodes() int { return len(e.nodes) }

@@ -1,7 +1,6 @@
 package alert_test
 
 import (
-	"errors"
 	"fmt"
 	"math/rand/v2"
 	"slices"
@@ -154,6 +153,7 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 	ev := alert.New(cfg, cat)
 	var out run
 	cuts := 0
+	var snaps []snapshot
 	var changes []alert.NodeChange
 	for i, p := range pays {
 		seq := uint64(i + 1)
@@ -169,6 +169,9 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 		for _, x := range ap.Touched() {
 			name := ap.Names()[x]
 			base := baseline(t, st, ev.Config(), name, cut.EventTime)
+			if want := snapshotAt(snaps, x, cut.EventTime.Add(-cfg.Lookback)); cfg.Baseline == alert.BaselineLookback && !slices.Equal(base, want) {
+				t.Fatalf("cut %d: baseline of %s read %v, the in-memory history has %v", seq, name, base, want)
+			}
 			bases = append(bases, base)
 			changes = append(changes, alert.NodeChange{Node: name, Degree: ap.Graph().Degree(x), Now: ap.Vectors().Row(x), Baseline: base})
 		}
@@ -190,6 +193,9 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 			t.Fatal(err)
 		}
 		ap.ResetTouched()
+		if cfg.Baseline == alert.BaselineLookback {
+			snaps = append(snaps, snapshot{ap.Watermark(), ap.Vectors().Clone()})
+		}
 		cuts++
 		if cuts == restartAt {
 			b, err := ev.MarshalBinary()
@@ -217,20 +223,33 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 // evaluated (for diagnostics in tests).
 var observe func(alert.Cut, []alert.NodeChange)
 
-// baseline reads node's vector as of the look-back before at, nil when
-// the node did not exist then or there is no cut that old.
+// snapshot is every vector at one cut, kept in memory to check the as-of
+// reads from the store.
+type snapshot struct {
+	watermark time.Time
+	vec       *delta.Vectors
+}
+
+// snapshotAt returns node x's vector at the latest snapshot whose
+// watermark is ≤ at, nil when there is none or x did not exist then.
+func snapshotAt(snaps []snapshot, x uint32, at time.Time) []uint64 {
+	for i := len(snaps) - 1; i >= 0; i-- {
+		if !snaps[i].watermark.After(at) {
+			if int(x) >= snaps[i].vec.NumNodes() {
+				return nil
+			}
+			return snaps[i].vec.Row(x)
+		}
+	}
+	return nil
+}
+
+// baseline reads node's vector as of the look-back before at (nil: none).
 func baseline(t *testing.T, st *storage.Store, cfg alert.Config, node string, at time.Time) []uint64 {
 	if cfg.Baseline != alert.BaselineLookback {
 		return nil
 	}
-	seq, ok := st.SeqAtTime(at.Add(-cfg.Lookback))
-	if !ok {
-		return nil
-	}
-	vec, _, _, err := st.VectorAt(node, seq)
-	if errors.Is(err, storage.ErrUnknownNode) {
-		return nil
-	}
+	vec, err := alert.ReadBaseline(st, node, at, cfg.Lookback)
 	if err != nil {
 		t.Fatal(err)
 	}
