@@ -19,10 +19,14 @@ const (
 	DefaultSubject = "orbitwatch.events"
 	// DefaultBatch is the number of log positions per batch: batches end
 	// at every multiple of it (and at cut control messages).
-	DefaultBatch = 1024
+	DefaultBatch = 4096
 	// DefaultIdle is how long the log must be idle, with shard 0 caught
 	// up and a batch partly filled, before shard 0 asks for a cut.
 	DefaultIdle = 25 * time.Millisecond
+	// DefaultMaxDelay is how long a batch may stay open under a steady
+	// flow of events before shard 0 asks for a cut: it bounds how long an
+	// event waits to become visible when batches fill slowly.
+	DefaultMaxDelay = 250 * time.Millisecond
 )
 
 // Headers of the control and reject messages this package writes.

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -30,9 +31,12 @@ type WorkerConfig struct {
 	Shard, Shards int
 	// Batch is the number of log positions per batch (default
 	// DefaultBatch); Idle the idle time before shard 0 asks for a cut of
-	// a partly filled batch (default DefaultIdle).
-	Batch uint64
-	Idle  time.Duration
+	// a partly filled batch (default DefaultIdle); MaxDelay the age of a
+	// batch's first message after which shard 0 asks for a cut even while
+	// events keep coming (default DefaultMaxDelay; negative: never).
+	Batch    uint64
+	Idle     time.Duration
+	MaxDelay time.Duration
 	// Counting and Window say what is counted (Counting's engine is the
 	// worker's own: engines are not safe for concurrent use); Store is the worker's
 	// opened store, created with matching settings. The caller closes it
@@ -76,7 +80,8 @@ type workerRecord struct {
 //
 // Batches end at every multiple of Batch and at cut control messages,
 // which shard 0 writes into the log itself when it is caught up and a
-// partly filled batch has been idle for Idle: the cut is then at a log
+// partly filled batch has been idle for Idle, or when the batch has been
+// open for MaxDelay while events keep coming: the cut is then at a log
 // position every worker sees.
 type Worker struct {
 	cfg WorkerConfig
@@ -98,6 +103,7 @@ type Worker struct {
 	lastRead   time.Time
 	pending    uint64
 	cutAsked   uint64
+	cutAck     jetstream.PubAckFuture // of the last cut request, until seen
 
 	startLast  atomic.Uint64 // the log's last seq when Run started; MaxUint64 before
 	started    time.Time
@@ -130,6 +136,9 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 	}
 	if cfg.Idle == 0 {
 		cfg.Idle = DefaultIdle
+	}
+	if cfg.MaxDelay == 0 {
+		cfg.MaxDelay = DefaultMaxDelay
 	}
 	if cfg.Shards < 1 || cfg.Shards > 4096 || cfg.Shard < 0 || cfg.Shard >= cfg.Shards {
 		return nil, fmt.Errorf("shard %d of %d: want 0 ≤ shard < shards ≤ 4096", cfg.Shard, cfg.Shards)
@@ -234,7 +243,11 @@ func (w *Worker) run(ctx context.Context) error {
 
 	var tick <-chan time.Time
 	if w.cfg.Shard == 0 {
-		t := time.NewTicker(max(w.cfg.Idle/2, time.Millisecond))
+		every := w.cfg.Idle
+		if w.cfg.MaxDelay > 0 {
+			every = min(every, w.cfg.MaxDelay)
+		}
+		t := time.NewTicker(max(every/4, time.Millisecond))
 		defer t.Stop()
 		tick = t.C
 	}
@@ -326,18 +339,41 @@ func (w *Worker) reject(ctx context.Context, m inMsg, reason string) error {
 }
 
 // askCut, on shard 0, writes a cut control message into the log when a
-// batch is partly filled, the log has been idle for Idle and shard 0 has
-// read all of it. The message id names the position it follows, so a
-// restarted shard 0 does not ask twice.
+// batch is partly filled and either the log has been idle for Idle with
+// shard 0 having read all of it, or the batch has been open for MaxDelay.
+// One request is outstanding at a time: until a cut passes the position it
+// was asked at. The message id names the position it follows, so a
+// restarted shard 0 does not ask twice for one position.
 func (w *Worker) askCut(ctx context.Context) error {
+	if w.cutAck != nil {
+		// The last request is not waited for (the server may be busy with
+		// a flood of events); a failed one may be asked again.
+		select {
+		case <-w.cutAck.Ok():
+		case <-w.cutAck.Err():
+			w.cutAsked = 0
+		default:
+			return nil
+		}
+		w.cutAck = nil
+	}
 	seq := w.a.Seq()
-	if seq == w.cut || w.pending != 0 || w.cutAsked == seq || time.Since(w.lastRead) < w.cfg.Idle {
+	if seq == w.cut || (w.cutAsked > 0 && w.cutAsked >= w.cut) {
 		return nil
 	}
-	w.cutAsked = seq
+	idle := w.pending == 0 && time.Since(w.lastRead) >= w.cfg.Idle
+	late := w.cfg.MaxDelay > 0 && time.Since(w.batchFirst) >= w.cfg.MaxDelay
+	if !idle && !late {
+		return nil
+	}
 	msg := nats.NewMsg(w.cfg.Subject)
 	msg.Header.Set(ControlHeader, "cut")
-	return publishRetry(ctx, w.js, msg, fmt.Sprintf("%s/cut-after/%d", w.cfg.Stream, seq))
+	ack, err := w.js.PublishMsgAsync(msg, jetstream.WithMsgID(fmt.Sprintf("%s/cut-after/%d", w.cfg.Stream, seq)))
+	if err != nil {
+		return nil // asked again at a later tick
+	}
+	w.cutAsked, w.cutAck = seq, ack
+	return ctx.Err()
 }
 
 // endBatch sends this shard's summed changes of the batch ending at end to
@@ -345,12 +381,8 @@ func (w *Worker) askCut(ctx context.Context) error {
 // applies them and commits the cut.
 func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shufCh <-chan inMsg) error {
 	nodes := uint64(w.a.dict.Len())
-	for owner := range w.cfg.Shards {
-		w.buf = w.out.encode(w.buf[:0], w.cfg.Shard, owner, end, nodes)
-		msg := &nats.Msg{Subject: shuffleSubject(w.cfg.Subject, owner), Data: w.buf}
-		if err := publishRetry(ctx, w.js, msg, shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)); err != nil {
-			return err
-		}
+	if err := w.send(ctx, end, nodes); err != nil {
+		return err
 	}
 	w.out.done()
 	o := w.observer()
@@ -404,6 +436,34 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 	}
 	if o != nil {
 		o.Cut(time.Since(readAt))
+	}
+	return nil
+}
+
+// send publishes this shard's message of batch end to every owner: all at
+// once, then waits for their acks; one that fails is sent again until the
+// server takes it (its id makes a second copy a duplicate).
+func (w *Worker) send(ctx context.Context, end, nodes uint64) error {
+	msgs := make([]*nats.Msg, w.cfg.Shards)
+	futs := make([]jetstream.PubAckFuture, w.cfg.Shards)
+	for owner := range w.cfg.Shards {
+		w.buf = w.out.encode(w.buf[:0], w.cfg.Shard, owner, end, nodes)
+		msgs[owner] = &nats.Msg{Subject: shuffleSubject(w.cfg.Subject, owner), Data: slices.Clone(w.buf)}
+		futs[owner], _ = w.js.PublishMsgAsync(msgs[owner], jetstream.WithMsgID(shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)))
+	}
+	for owner, f := range futs {
+		if f != nil {
+			select {
+			case <-f.Ok():
+				continue
+			case <-f.Err():
+			case <-ctx.Done():
+				return ctx.Err()
+			}
+		}
+		if err := publishRetry(ctx, w.js, msgs[owner], shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)); err != nil {
+			return err
+		}
 	}
 	return nil
 }
