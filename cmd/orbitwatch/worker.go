@@ -72,6 +72,7 @@ type workerFlags struct {
 	subject  string
 	batch    uint64
 	idle     time.Duration
+	maxDelay time.Duration
 	peers    string
 }
 
@@ -84,6 +85,7 @@ func (f *workerFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.subject, "subject", shard.DefaultSubject, "subject of the event log")
 	fs.Uint64Var(&f.batch, "batch", shard.DefaultBatch, "log positions per batch; fixed for a deployment, like the shard count")
 	fs.DurationVar(&f.idle, "idle", shard.DefaultIdle, "idle time after which shard 0 cuts a partly filled batch")
+	fs.DurationVar(&f.maxDelay, "max-delay", shard.DefaultMaxDelay, "age of an open batch after which shard 0 cuts it while events keep coming (negative: only at batch ends and idle)")
 	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for status of all shards and reads by seq)")
 }
 
@@ -131,7 +133,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 		return fail(name, err)
 	}
 	defer st.Close()
-	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Batch, cfg.Idle = nc, wf.stream, wf.subject, wf.batch, wf.idle
+	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Batch, cfg.Idle, cfg.MaxDelay = nc, wf.stream, wf.subject, wf.batch, wf.idle, wf.maxDelay
 	cfg.Counting, cfg.Window, cfg.Store = c, window, st
 	cfg.Logf = func(format string, args ...any) {
 		fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d: %s\n", name, cfg.Shard, fmt.Sprintf(format, args...))
