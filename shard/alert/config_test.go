@@ -132,3 +132,21 @@ func TestNewPanicsOnInvalidConfig(t *testing.T) {
 	}()
 	alert.New(alert.Config{Lookback: time.Hour, TopOrbits: 1}, undirected4(t))
 }
+
+// Without a rules list the default rules apply, with the file's gates and
+// settings.
+func TestDefaultsSectionGatesDefaultRules(t *testing.T) {
+	cat := undirected4(t)
+	got, err := alert.ParseConfig([]byte("baseline: decayed\ndefaults:\n  min_degree: 5\n  min_total: 40\n  cooldown: 10m\n"), cat)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := alert.DefaultConfig(cat)
+	want.Baseline = alert.BaselineDecayed
+	for i := range want.Rules {
+		want.Rules[i].MinDegree, want.Rules[i].MinTotal, want.Rules[i].Cooldown = 5, 40, 10*time.Minute
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Fatalf("config\n got %+v\nwant %+v", got, want)
+	}
+}

@@ -152,30 +152,13 @@ func (e *Evaluator) node(cut Cut, t int64, nc *NodeChange, out []Alert) []Alert 
 	}
 	e.stats.Nodes++
 	st := e.nodes[nc.Node]
-	hasBase, baseTotal := false, 0.0
-	switch {
-	case e.cfg.Baseline == BaselineLookback && nc.Baseline != nil:
-		for i, c := range nc.Baseline {
-			e.base[i] = float64(c)
-			baseTotal += e.base[i]
-		}
-		hasBase = true
-	case e.cfg.Baseline == BaselineDecayed && st != nil && st.avg != nil:
-		baseTotal = e.decayed(st, t)
-		hasBase = true
-	default:
-		clear(e.base)
-	}
+	hasBase, baseTotal, baseDegree := e.loadBaseline(st, nc, t)
 	var total uint64
 	for _, c := range nc.Now {
 		total += c // a sum past 2^64 only makes a gate pass that passes anyway
 		if total < c {
 			total = math.MaxUint64
 		}
-	}
-	baseDegree := 0.0
-	for _, o := range e.pairs {
-		baseDegree += e.base[o]
 	}
 	dist := Distance(nc.Now, e.base, e.weights, e.contrib)
 	for ri := range e.cfg.Rules {
@@ -213,6 +196,29 @@ func (e *Evaluator) node(cut Cut, t int64, nc *NodeChange, out []Alert) []Alert 
 		e.blend(st, nc.Now, t)
 	}
 	return out
+}
+
+// loadBaseline fills e.base with nc's baseline (zeros when it has none)
+// and returns whether it has one, its total count and its degree (the sum
+// of its 2-node orbit counts).
+func (e *Evaluator) loadBaseline(st *nodeState, nc *NodeChange, t int64) (has bool, total, degree float64) {
+	switch {
+	case e.cfg.Baseline == BaselineLookback && nc.Baseline != nil:
+		for i, c := range nc.Baseline {
+			e.base[i] = float64(c)
+			total += e.base[i]
+		}
+		has = true
+	case e.cfg.Baseline == BaselineDecayed && st != nil && st.avg != nil:
+		total = e.decayed(st, t)
+		has = true
+	default:
+		clear(e.base)
+	}
+	for _, o := range e.pairs {
+		degree += e.base[o]
+	}
+	return has, total, degree
 }
 
 // score returns rule r's measure for nc, or ok false when a gate stops it.
