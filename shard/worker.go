@@ -204,12 +204,13 @@ func (w *Worker) ownerOf(x uint32) int {
 }
 
 // Run follows the log until ctx is done, then returns nil: the state at
-// the last complete cut is in the store, and a new Run (after NewWorker on
+// the last complete cut is in the store (a single shard first cuts what it
+// has read), and a new Run (after NewWorker on
 // the same store) goes on from there. Any other return is an error that
 // stops the worker: an invariant violation or a server refusal.
 func (w *Worker) Run(ctx context.Context) error {
 	err := w.run(ctx)
-	if ctx.Err() != nil {
+	if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
 		return nil
 	}
 	return err
@@ -223,7 +224,9 @@ func (w *Worker) run(ctx context.Context) error {
 	w.startLast.Store(last)
 	w.streamLast.Store(max(last, w.a.Seq()))
 	w.snapshot()
-	fctx, cancel := context.WithCancel(ctx)
+	// The readers outlive ctx by a little: a single shard's final cut
+	// still reads its own shuffle message.
+	fctx, cancel := context.WithCancel(context.Background())
 	var wg sync.WaitGroup
 	defer wg.Wait()
 	defer cancel()
@@ -254,7 +257,7 @@ func (w *Worker) run(ctx context.Context) error {
 	for {
 		select {
 		case <-ctx.Done():
-			return nil
+			return w.finalCut(shufCh)
 		case m := <-logCh:
 			if err := w.logMsg(ctx, m, shufCh); err != nil {
 				return err
@@ -374,6 +377,19 @@ func (w *Worker) askCut(ctx context.Context) error {
 	}
 	w.cutAsked, w.cutAck = seq, ack
 	return ctx.Err()
+}
+
+// finalCut, for a single shard stopping, makes what it has read a cut
+// (there is no other shard that must cut at the same place), so that a
+// clean stop loses no applied event. With several shards the last
+// complete cut stands; what was read after it is read again on restart.
+func (w *Worker) finalCut(shufCh <-chan inMsg) error {
+	if w.cfg.Shards != 1 || w.a.Seq() == w.cut {
+		return nil
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	return w.endBatch(ctx, w.a.Seq(), time.Now(), shufCh)
 }
 
 // endBatch sends this shard's summed changes of the batch ending at end to
