@@ -8,6 +8,7 @@ import (
 	"regexp"
 	"strconv"
 	"testing"
+	"time"
 )
 
 // nodeReply is the API's node JSON as far as the tests read it.
@@ -105,4 +106,40 @@ func TestServeEndToEnd(t *testing.T) {
 	srv.stop(t)
 	stored3, _ := loadVectors(t, filepath.Join(data, "state"))
 	sameVectors(t, "data directory after stop vs replay", stored3, want)
+}
+
+// TestServeStopCutsWhatItRead: with batches too long to end and no idle or
+// delay cuts, a stopped serve still commits every event it has read, so
+// its data directory equals replay's.
+func TestServeStopCutsWhatItRead(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "log.csv")
+	writeLog(t, log, 1500, 33)
+	want, _ := replayFinal(t, log)
+	data := filepath.Join(dir, "data")
+	srv := startChild(t, "serve", "--data", data, "--nats-listen", "127.0.0.1:0", "--http", "127.0.0.1:0",
+		"--batch", "1000000", "--idle", "1h", "--max-delay", "-1s")
+	natsURL := srv.waitFor(t, "NATS ")
+	base := srv.waitFor(t, "HTTP API ")
+	_, _, last := publishCmd(t, "--nats", natsURL, "--input", log)
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		st, err := localStatus(t, base)
+		if err == nil && st.AppliedSeq >= last {
+			if st.CutSeq != 0 {
+				t.Fatalf("a cut at %d before the stop: the test cannot tell a final cut", st.CutSeq)
+			}
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("serve read to %d (%v), want %d", st.AppliedSeq, err, last)
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	srv.stop(t)
+	got, state := loadVectors(t, filepath.Join(data, "state"))
+	if state.Seq != last {
+		t.Fatalf("stopped at seq %d, want %d", state.Seq, last)
+	}
+	sameVectors(t, "data directory after a stop mid-batch vs replay", got, want)
 }

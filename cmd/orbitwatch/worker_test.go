@@ -110,11 +110,12 @@ func (c *child) kill() {
 
 // shardStatus is the part of the API's /v1/status line the tests read.
 type shardStatus struct {
-	Shard    int               `json:"shard"`
-	CutSeq   uint64            `json:"cut_seq"`
-	Applied  uint64            `json:"applied"`
-	Rejected map[string]uint64 `json:"rejected"`
-	Ready    bool              `json:"ready"`
+	Shard      int               `json:"shard"`
+	CutSeq     uint64            `json:"cut_seq"`
+	AppliedSeq uint64            `json:"applied_seq"`
+	Applied    uint64            `json:"applied"`
+	Rejected   map[string]uint64 `json:"rejected"`
+	Ready      bool              `json:"ready"`
 }
 
 func localStatus(t *testing.T, base string) (shardStatus, error) {
