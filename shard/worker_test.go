@@ -69,9 +69,9 @@ func testLog(n int, seed uint64) []busMsg {
 
 // reference applies the log in one applier, seqs 1, 2, … as the stream
 // assigns them, and returns every node's vector by name.
-func reference(t *testing.T, c *Counting, log []busMsg) map[string][]uint64 {
+func reference(t *testing.T, c *Counting, win time.Duration, log []busMsg) map[string][]uint64 {
 	t.Helper()
-	a := NewApplier(c, 0)
+	a := NewApplier(c, win)
 	for i, m := range log {
 		seq := uint64(i + 1)
 		if m.raw != nil {
@@ -153,18 +153,18 @@ type runningWorker struct {
 	done   chan error
 }
 
-func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, shards int, dir string) []*runningWorker {
+func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
 	t.Helper()
 	var ws []*runningWorker
 	for i := range shards {
 		// Engines are not safe for concurrent use: one Counting each.
 		c := mustCounting(t, c0.Catalog.Kind, c0.Catalog.MaxNodes)
 		nc, _ := connect(t, url)
-		st, err := storage.Open(filepath.Join(dir, fmt.Sprintf("shard-%d", i)), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits()})
+		st, err := storage.Open(filepath.Join(dir, fmt.Sprintf("shard-%d", i)), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits(), Window: win})
 		if err != nil {
 			t.Fatal(err)
 		}
-		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: shards, Batch: 64, Counting: c, Store: st, Logf: t.Logf})
+		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -266,13 +266,17 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 	}
 	c := mustCounting(t, delta.Undirected, 4)
 	log := testLog(n, 7)
-	want := reference(t, c, log)
 	srv := startServer(t)
 	_, js := connect(t, srv.URL())
-	for _, shards := range []int{1, 3} {
-		t.Run(fmt.Sprintf("shards=%d", shards), func(t *testing.T) {
+	for _, tc := range []struct {
+		shards int
+		window time.Duration
+	}{{1, 0}, {3, 0}, {2, 5 * time.Minute}} {
+		shards := tc.shards
+		want := reference(t, c, tc.window, log)
+		t.Run(fmt.Sprintf("shards=%d,window=%v", shards, tc.window), func(t *testing.T) {
 			name, subject := fmt.Sprintf("W%d", shards), fmt.Sprintf("w%d.events", shards)
-			ws := startWorkers(t, srv.URL(), name, subject, c, shards, t.TempDir())
+			ws := startWorkers(t, srv.URL(), name, subject, c, tc.window, shards, t.TempDir())
 			publishLog(t, js, name, subject, log)
 			// Cut control messages may sit between the events: wait for
 			// the log's last sequence, not for n.
@@ -294,6 +298,14 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 			}
 			if !st.Ready || st.Applied+rejected != uint64(n) {
 				t.Fatalf("status %+v: applied + rejected ≠ %d", st, n)
+			}
+			if tc.window > 0 && st.Expired == 0 {
+				t.Fatalf("status %+v: a %v window over %d s of events expired nothing", st, tc.window, n)
+			}
+			// As of a time before the first event there is no cut.
+			r, err := ws[0].w.Read(context.Background(), ReadRequest{Node: "acct-1", At: time.Date(2020, 1, 1, 0, 0, 0, 0, time.UTC)})
+			if err != nil || r.Status != 404 {
+				t.Fatalf("read before the first cut: %+v, %v", r, err)
 			}
 			rs, err := js.Stream(context.Background(), rejectsStream(name))
 			if err != nil {
@@ -318,7 +330,7 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 func TestWorkerRefusesOtherShardCount(t *testing.T) {
 	c := mustCounting(t, delta.Undirected, 3)
 	srv := startServer(t)
-	ws := startWorkers(t, srv.URL(), "FIX", "fix.events", c, 2, t.TempDir())
+	ws := startWorkers(t, srv.URL(), "FIX", "fix.events", c, 0, 2, t.TempDir())
 	waitCut(t, ws, 0)
 	time.Sleep(200 * time.Millisecond)
 	nc, _ := connect(t, srv.URL())
