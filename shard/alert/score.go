@@ -26,6 +26,10 @@ func Distance(u []uint64, v, w, contrib []float64) float64 {
 	}
 	for i, x := range u {
 		a, b := float64(x), v[i]
+		if a == b { // most orbits of a sparse vector: zero on both sides
+			contrib[i] = 0
+			continue
+		}
 		contrib[i] = math.Abs(math.Log1p(a)-math.Log1p(b)) / math.Log(math.Max(a, b)+2)
 	}
 	d := stat.Mean(contrib, w)
