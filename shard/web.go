@@ -1,0 +1,30 @@
+package shard
+
+import (
+	"embed"
+	"io/fs"
+	"net/http"
+)
+
+//go:embed web
+var webFiles embed.FS
+
+// WebHandler serves the page: GET / is web/index.html and /ui/… the
+// script and style sheet beside it, all embedded in the binary (no CDN,
+// no external fonts). The page reads the API of the same origin
+// (/v1/catalog, /v1/nodes/{id} with /history and /neighbors, /v1/alerts,
+// /v1/status); a node to show is named in the URL fragment, #node=ID.
+func WebHandler() http.Handler {
+	sub, err := fs.Sub(webFiles, "web")
+	if err != nil {
+		panic("shard: embedded web assets: " + err.Error())
+	}
+	files := http.FileServerFS(sub)
+	mux := http.NewServeMux()
+	mux.Handle("GET /ui/", http.StripPrefix("/ui/", files))
+	mux.HandleFunc("GET /{$}", func(w http.ResponseWriter, r *http.Request) {
+		w.Header().Set("Cache-Control", "no-cache")
+		http.ServeFileFS(w, r, sub, "index.html")
+	})
+	return mux
+}
