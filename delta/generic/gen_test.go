@@ -6,12 +6,10 @@ import (
 	"orbitwatch/delta"
 )
 
-// Sizes of the directed payments scenario used by the benchmarks: about
-// 1.1M arcs on 330k accounts.
+// Shape of the directed payments scenario used by the benchmarks: with
+// 300k consumers, about 1.1M arcs on 330k accounts.
 const (
 	payConsumers  = 300_000
-	payMerchants  = 30_000
-	payEmployers  = 200
 	payPerBuyer   = 3    // merchants each consumer pays, on average
 	payrollShare  = 0.5  // share of consumers paid by an employer
 	refundShare   = 0.03 // share of purchases refunded (reverse arc)
@@ -21,29 +19,31 @@ const (
 	baAttachments = 5
 )
 
-// paymentsGraph returns a seeded directed payments-like simple graph; with
-// skewed false merchants are chosen uniformly (no merchant hubs, payroll
-// fan-out stays).
+// paymentsGraph returns a seeded directed payments-like simple graph on
+// consumers consumers, a tenth as many merchants and one employer per 1500
+// consumers; with skewed false merchants are chosen uniformly (no merchant
+// hubs; the payroll fan-out stays).
 // Node ids: merchants 0..M−1, employers M..M+E−1, consumers after them.
 // Each consumer pays 1..2·payPerBuyer−1 distinct merchants chosen by a Zipf
 // law (a few merchants are paid by very many), half the consumers are paid
 // by one employer (payroll fan-out from a few hubs), and a share of the
 // purchases is refunded by an arc back from the merchant (a reciprocal
 // pair). All of it is invented.
-func paymentsGraph(seed uint64, skewed bool) *delta.Graph {
+func paymentsGraph(seed uint64, skewed bool, consumers int) *delta.Graph {
+	merchants, employers := consumers/10, max(1, consumers/1500)
 	rng := rand.New(rand.NewPCG(seed, 0x9a7e))
-	zipf := rand.NewZipf(rng, payZipfS, payZipfV, payMerchants-1)
+	zipf := rand.NewZipf(rng, payZipfS, payZipfV, uint64(merchants-1))
 	g := delta.NewGraph(delta.Directed)
-	first := uint32(payMerchants + payEmployers)
-	g.Grow(int(first) + payConsumers)
+	first := uint32(merchants + employers)
+	g.Grow(int(first) + consumers)
 	link := func(u, v uint32) {
 		if !g.HasEdge(u, v) {
 			g.Link(u, v)
 		}
 	}
-	for c := first; c < first+payConsumers; c++ {
+	for c := first; c < first+uint32(consumers); c++ {
 		for n := 1 + rng.IntN(2*payPerBuyer-1); n > 0; n-- {
-			m := uint32(rng.IntN(payMerchants))
+			m := uint32(rng.IntN(merchants))
 			if skewed {
 				m = uint32(zipf.Uint64())
 			}
@@ -53,7 +53,7 @@ func paymentsGraph(seed uint64, skewed bool) *delta.Graph {
 			}
 		}
 		if rng.Float64() < payrollShare {
-			link(payMerchants+uint32(rng.IntN(payEmployers)), c)
+			link(uint32(merchants+rng.IntN(employers)), c)
 		}
 	}
 	return g

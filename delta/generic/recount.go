@@ -81,13 +81,17 @@ func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
 	return sum
 }
 
-// esu is one recount worker's state.
+// esu is one recount worker's state. near[x] counts the members of the
+// current set that x is or is adjacent to; a node with near 0 is an
+// exclusive neighbour candidate.
 type esu struct {
 	g    *delta.Graph
 	cat  *catalog.Catalog
 	vec  *delta.Vectors
 	set  [maxNodes]uint32
 	ext  [maxNodes + 1][]uint32
+	nb   [maxNodes][]uint32 // neighbours of set[i], to unmark them
+	near []uint16
 	out  []uint32
 	in   []uint32
 	nbrs []uint32
@@ -96,69 +100,87 @@ type esu struct {
 
 // root counts every connected set whose least node is root.
 func (s *esu) root(root uint32) {
+	if len(s.near) < s.g.NumNodes() {
+		s.near = make([]uint16, s.g.NumNodes())
+	}
 	s.set[0] = root
 	ext := s.ext[1][:0]
-	for _, x := range s.neighbours(root) {
+	for _, x := range s.mark(0, root) {
 		if x > root {
 			ext = append(ext, x)
 		}
 	}
 	s.ext[1] = ext
-	s.grow(1, ext)
+	s.grow(1, 0, ext)
+	s.unmark(0)
 }
 
-// grow extends the set set[:size] by each node of ext in turn; it counts
-// the set itself first.
-func (s *esu) grow(size int, ext []uint32) {
-	if size >= 2 {
-		s.count(size)
+// mark adds set[i] = w to the near counts and returns its neighbours.
+func (s *esu) mark(i int, w uint32) []uint32 {
+	nb := append(s.nb[i][:0], s.neighbours(w)...)
+	s.nb[i] = nb
+	s.near[w]++
+	for _, x := range nb {
+		s.near[x]++
 	}
-	if size == s.cat.MaxNodes {
-		return
+	return nb
+}
+
+// unmark undoes mark(i, set[i]).
+func (s *esu) unmark(i int) {
+	s.near[s.set[i]]--
+	for _, x := range s.nb[i] {
+		s.near[x]--
 	}
+}
+
+// grow extends set[:size], whose adjacency code is code, by each node of
+// ext in turn, counting every set it forms. The code of set[:size+1] is
+// code with the bits between the new node and set[:size] added (the code
+// layout is prefix-compatible, see catalog.PairBit).
+func (s *esu) grow(size int, code uint32, ext []uint32) {
 	for i, w := range ext {
+		s.set[size] = w
+		c := code | s.bits(size, w)
+		s.count(size+1, c)
+		if size+1 == s.cat.MaxNodes {
+			continue // a full set extends no further
+		}
 		next := append(s.ext[size+1][:0], ext[i+1:]...)
-		for _, x := range s.neighbours(w) {
-			if x > s.set[0] && !s.touches(x, size) {
+		for _, x := range s.mark(size, w) {
+			// Exclusive: above the root, and near 1 — w's own mark — so
+			// neither in set[:size] nor adjacent to it.
+			if x > s.set[0] && s.near[x] == 1 {
 				next = append(next, x)
 			}
 		}
 		s.ext[size+1] = next
-		s.set[size] = w
-		s.grow(size+1, next)
+		s.grow(size+1, c, next)
+		s.unmark(size)
 	}
 }
 
-// touches reports whether x is in set[:size] or adjacent to one of them.
-func (s *esu) touches(x uint32, size int) bool {
-	for _, y := range s.set[:size] {
-		if x == y || s.g.Adjacent(x, y) {
-			return true
-		}
-	}
-	return false
-}
-
-// count classifies set[:size] by testing every ordered pair and adds one to
-// each member's orbit.
-func (s *esu) count(size int) {
+// bits returns the code bits between w at position p and set[:p].
+func (s *esu) bits(p int, w uint32) uint32 {
 	var code uint32
-	directed := s.g.Kind() == delta.Directed
-	for j := 1; j < size; j++ {
-		for i := 0; i < j; i++ {
-			a, b := s.set[i], s.set[j]
-			if directed {
-				if s.g.HasEdge(a, b) {
-					code |= 1 << catalog.ArcBit(i, j)
-				}
-				if s.g.HasEdge(b, a) {
-					code |= 1 << catalog.ArcBit(j, i)
-				}
-			} else if s.g.HasEdge(a, b) {
-				code |= 1 << catalog.PairBit(i, j)
+	for i, y := range s.set[:p] {
+		if s.g.Kind() == delta.Directed {
+			if s.g.HasEdge(y, w) {
+				code |= 1 << catalog.ArcBit(i, p)
 			}
+			if s.g.HasEdge(w, y) {
+				code |= 1 << catalog.ArcBit(p, i)
+			}
+		} else if s.g.HasEdge(y, w) {
+			code |= 1 << catalog.PairBit(i, p)
 		}
 	}
+	return code
+}
+
+// count adds one to the orbit of each member of set[:size], whose
+// adjacency code is code.
+func (s *esu) count(size int, code uint32) {
 	graphlet, orbits := s.cat.Lookup(size, code)
 	if graphlet < 0 {
 		panic("generic: ESU produced a disconnected set")

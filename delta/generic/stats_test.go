@@ -6,7 +6,7 @@ import "testing"
 // promises: over a million arcs, merchant hubs, employer fan-out and
 // reciprocal refund pairs.
 func TestPaymentsGraphShape(t *testing.T) {
-	g := paymentsGraph(1, true)
+	g := paymentsGraph(1, true, payConsumers)
 	var reciprocal int
 	g.ForEachEdge(func(u, v uint32, _ uint32) {
 		if u < v && g.HasEdge(v, u) {
