@@ -25,10 +25,14 @@ type recounter struct {
 // connected node set S with 2 ≤ |S| ≤ k exactly once by rooted ESU
 // (Wernicke 2006): S grows from its least node r, and only nodes greater
 // than r that are exclusive neighbours of the newest member enter the
-// extension list. Each set is classified by testing every pair, and each
-// member's orbit count is incremented. Roots are shared among GOMAXPROCS
-// workers, each with its own matrix; the matrices are summed at the end, so
-// a recount holds GOMAXPROCS × nodes × orbits counters at its peak.
+// extension list. Each set is classified by its adjacency code, the code
+// of its parent set plus the pairs of the newest member tested in the
+// graph, and each member's orbit count is incremented. The work is one
+// visit per connected set, so a hub of degree d alone costs about
+// C(d, k−1) visits: meant for verification and modest graphs. Roots are
+// shared among GOMAXPROCS workers, each with its own matrix; the matrices
+// are summed at the end, so a recount holds GOMAXPROCS × nodes × orbits
+// counters at its peak.
 func NewRecounter(cat *catalog.Catalog) delta.Recounter {
 	if cat.MaxNodes < 2 || cat.MaxNodes > maxNodes {
 		panic("generic: catalog size outside 2..5")
