@@ -6,7 +6,8 @@ import (
 )
 
 // numClasses is the number of ways a node can be joined to u and v: two
-// bits of arcs to them, two of arcs from them (undirected: two bits).
+// bits of arcs from u and v, two of arcs to them (undirected: the first
+// two bits only).
 const numClasses = 16
 
 // engine is the default incremental engine: the enumerator's visit order,
@@ -47,8 +48,8 @@ type engine struct {
 }
 
 // NewEngine returns the incremental Engine to use for cat's kind and size:
-// the same changes as NewEnumerator, summed per (node, orbit) within an
-// event, at a fraction of the set visits for k = 4. It allocates only when
+// the same changes as NewEnumerator, most of them summed per (node, orbit)
+// before they are emitted, at a fraction of the set visits for k = 4. It allocates only when
 // the graph or a neighbourhood has grown past every size seen before. The
 // engine is not safe for concurrent use.
 func NewEngine(cat *catalog.Catalog) delta.Engine {
