@@ -160,8 +160,8 @@ func TestDeleteAllThenRebuild(t *testing.T) {
 			}
 		}
 		for i := range c.nodes {
-			if c.nodes[i] != (node{}) || len(c.edgeTri[i]) != 0 {
-				t.Fatalf("k%d: empty graph, node %d keeps state %+v, %d edge entries", k, i, c.nodes[i], len(c.edgeTri[i]))
+			if c.nodes[i] != (node{}) || len(c.adj[i].nbr) != 0 {
+				t.Fatalf("k%d: empty graph, node %d keeps state %+v, %d edge entries", k, i, c.nodes[i], len(c.adj[i].nbr))
 			}
 		}
 		rng.Shuffle(len(all), func(i, j int) { all[i], all[j] = all[j], all[i] })

@@ -27,12 +27,9 @@ func (c *Counter) Touched(g *delta.Graph, u, v uint32, dst *roaring.Bitmap) {
 		return
 	}
 	for _, x := range [2]uint32{u, v} {
-		w := &c.outer
-		w.it.Initialize(g.Out(x))
-		for n := w.it.NextMany(w.chunk[:]); n > 0; n = w.it.NextMany(w.chunk[:]) {
-			for _, y := range w.chunk[:n] {
-				dst.Or(g.Out(y))
-			}
+		it := g.Out(x).Iterator()
+		for it.HasNext() {
+			dst.Or(g.Out(it.Next()))
 		}
 	}
 }

@@ -18,8 +18,9 @@ import "orbitwatch/delta"
 //	N10 = Σ tri(x,y)·(d(y)−2), N11 = t·(d−2)       (tailed triangle, x of degree 2 or 3)
 //	N13 = Σ C(tri(x,y), 2)                         (diamond, x of degree 3)
 //
-// and solve turns them into induced counts. Vector walks N(x) with a
-// buffer of c, so reads are not safe for concurrent use either.
+// and solve turns them into induced counts. Vector does not modify c:
+// reads may run concurrently with each other, not with an update. g is the
+// graph the events have built; the counts come from c's own adjacency.
 func (c *Counter) Vector(g *delta.Graph, x uint32, dst []uint64) []uint64 {
 	dst = append(dst[:0], make([]uint64, c.orbits)...)
 	if int(x) >= len(c.nodes) {
@@ -31,7 +32,7 @@ func (c *Counter) Vector(g *delta.Graph, x uint32, dst []uint64) []uint64 {
 	var n [maxOrbits]int64
 	n[0], n[1], n[2], n[3] = d, far, d*(d-1)/2, t
 	if c.maxNodes == 4 {
-		c.fourNode(g, x, n[:])
+		c.fourNode(x, n[:])
 	}
 	c.eq.solve(n[:c.orbits], x)
 	for i := range dst {
@@ -41,25 +42,19 @@ func (c *Counter) Vector(g *delta.Graph, x uint32, dst []uint64) []uint64 {
 }
 
 // fourNode fills n[4..14] as Vector documents.
-func (c *Counter) fourNode(g *delta.Graph, x uint32, n []int64) {
+func (c *Counter) fourNode(x uint32, n []int64) {
 	nx := &c.nodes[x]
 	d, t := nx.deg, nx.tri
 	var leaf, path, tails, tail2, dia3 int64
-	tri := c.edgeTri[x]
-	w := &c.reader
-	w.it.Initialize(g.Out(x))
-	i := 0
-	for k := w.it.NextMany(w.chunk[:]); k > 0; k = w.it.NextMany(w.chunk[:]) {
-		for _, y := range w.chunk[:k] {
-			ny := &c.nodes[y]
-			dy, e := ny.deg, int64(tri[i])
-			i++
-			leaf += (dy - 1) * (dy - 2) / 2
-			path += ny.s1 - dy
-			tails += ny.tri
-			tail2 += e * (dy - 2)
-			dia3 += e * (e - 1) / 2
-		}
+	a := &c.adj[x]
+	for i, y := range a.nbr {
+		ny := &c.nodes[y]
+		dy, e := ny.deg, int64(a.tri[i])
+		leaf += (dy - 1) * (dy - 2) / 2
+		path += ny.s1 - dy
+		tails += ny.tri
+		tail2 += e * (dy - 2)
+		dia3 += e * (e - 1) / 2
 	}
 	n[4] = path - d*(d-1) - 2*t
 	n[5] = (d-1)*(nx.s1-d) - 2*t
