@@ -44,7 +44,7 @@ type Counter struct {
 	// marks[0] and marks[1] are bitsets of N(u)\{v} and N(v)\{u} during
 	// an update, all zero between updates: 2 bits a node (50 KB for 200k
 	// nodes) stay in cache where a word a node did not.
-	marks [2][]uint64
+	marks  [2][]uint64
 	common []uint32
 }
 
