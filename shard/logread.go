@@ -46,16 +46,19 @@ const (
 	metaBatch  = "orbitwatch-batch"
 )
 
-func shuffleStream(name string) string { return name + "_SHUFFLE" }
-func rejectsStream(name string) string { return name + "_REJECTS" }
-func shuffleSubject(subject string, owner int) string {
-	return subject + ".shuffle." + strconv.Itoa(owner)
+func shuffleStream(cfg *WorkerConfig) string { return cfg.Deployment + "_SHUFFLE" }
+func rejectsStream(cfg *WorkerConfig) string { return cfg.Deployment + "_REJECTS" }
+func shuffleSubject(cfg *WorkerConfig, owner int) string {
+	return cfg.Subject + "." + cfg.Deployment + ".shuffle." + strconv.Itoa(owner)
 }
 
-// RejectsSubject is where the workers republish the log messages they
-// reject, with RejectReasonHeader and RejectSeqHeader; a stream named
-// <stream>_REJECTS keeps them.
-func RejectsSubject(subject string) string { return subject + ".rejects" }
+// RejectsSubject is where the workers of a deployment republish the log
+// messages they reject, with RejectReasonHeader and RejectSeqHeader: <log
+// subject>.<deployment>.rejects. A stream named <deployment>_REJECTS
+// keeps them.
+func RejectsSubject(subject, deployment string) string {
+	return subject + "." + deployment + ".rejects"
+}
 
 // ensureStreams creates (or checks) the log stream, the shuffle stream and
 // the rejects stream. The shuffle stream records the shard count and the
@@ -68,8 +71,8 @@ func ensureStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfi
 	}
 	meta := map[string]string{metaShards: strconv.Itoa(cfg.Shards), metaBatch: strconv.FormatUint(cfg.Batch, 10)}
 	sc := jetstream.StreamConfig{
-		Name:       shuffleStream(cfg.Stream),
-		Subjects:   []string{cfg.Subject + ".shuffle.*"},
+		Name:       shuffleStream(cfg),
+		Subjects:   []string{cfg.Subject + "." + cfg.Deployment + ".shuffle.*"},
 		Storage:    jetstream.FileStorage,
 		Retention:  jetstream.LimitsPolicy,
 		Replicas:   cfg.Replicas,
@@ -85,10 +88,10 @@ func ensureStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfi
 	}
 	have := s.CachedInfo().Config.Metadata
 	if have[metaShards] != meta[metaShards] || have[metaBatch] != meta[metaBatch] {
-		return 0, fmt.Errorf("this deployment (stream %s) was created for %s shards with batches of %s; this worker has --shards %d and batch %d: the shard count is fixed, see the offline procedure for changing it",
-			cfg.Stream, have[metaShards], have[metaBatch], cfg.Shards, cfg.Batch)
+		return 0, fmt.Errorf("deployment %s was created for %s shards with batches of %s; this worker has --shards %d and batch %d: the shard count of a deployment is fixed (start a new deployment name to change it)",
+			cfg.Deployment, have[metaShards], have[metaBatch], cfg.Shards, cfg.Batch)
 	}
-	if _, err := stream.EnsureStream(ctx, js, rejectsStream(cfg.Stream), RejectsSubject(cfg.Subject), cfg.Replicas); err != nil {
+	if _, err := stream.EnsureStream(ctx, js, rejectsStream(cfg), RejectsSubject(cfg.Subject, cfg.Deployment), cfg.Replicas); err != nil {
 		return 0, err
 	}
 	info, err := log.Info(ctx)

@@ -49,9 +49,9 @@ func EdgeShard(a, b string, n int) int {
 	return int(h % uint64(n))
 }
 
-// ReadSubject is the NATS subject on which the worker of shard i answers
-// node reads (ReadRequest/ReadReply as JSON) for a deployment whose log
-// subject is subject.
-func ReadSubject(subject string, i int) string {
-	return subject + ".read." + strconv.Itoa(i)
+// ReadSubject is the NATS subject on which the worker of shard i of a
+// deployment answers node reads (ReadRequest as JSON; the reply is
+// {"status": HTTP code, "reply": ReadReply}): <log subject>.<deployment>.read.<i>.
+func ReadSubject(subject, deployment string, i int) string {
+	return subject + "." + deployment + ".read." + strconv.Itoa(i)
 }

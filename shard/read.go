@@ -30,7 +30,7 @@ func (w *Worker) Read(ctx context.Context, req ReadRequest) (ReadReply, error) {
 	if err != nil {
 		return ReadReply{}, err
 	}
-	msg, err := w.cfg.Conn.RequestWithContext(ctx, ReadSubject(w.cfg.Subject, owner), data)
+	msg, err := w.cfg.Conn.RequestWithContext(ctx, ReadSubject(w.cfg.Subject, w.cfg.Deployment, owner), data)
 	if err != nil {
 		return ReadReply{}, err
 	}
@@ -73,7 +73,7 @@ func (w *Worker) readLocal(req ReadRequest) ReadReply {
 // serveReads answers ReadRequests for this shard's nodes on its
 // ReadSubject. A request that is not a ReadRequest gets status 400.
 func (w *Worker) serveReads() (*nats.Subscription, error) {
-	return w.cfg.Conn.Subscribe(ReadSubject(w.cfg.Subject, w.cfg.Shard), func(m *nats.Msg) {
+	return w.cfg.Conn.Subscribe(ReadSubject(w.cfg.Subject, w.cfg.Deployment, w.cfg.Shard), func(m *nats.Msg) {
 		var req ReadRequest
 		var env readEnvelope
 		if err := json.Unmarshal(m.Data, &req); err != nil {

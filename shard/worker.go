@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -27,6 +28,11 @@ type WorkerConfig struct {
 	// streams the worker creates when they are absent (default 1).
 	Stream, Subject string
 	Replicas        int
+	// Deployment names this set of workers: its shuffle and rejects
+	// streams (<Deployment>_SHUFFLE, <Deployment>_REJECTS) and its
+	// subjects. Default Stream. Two deployments, e.g. with different
+	// shard counts, can follow one log under different names.
+	Deployment string
 	// Shard is this worker's shard among Shards (0 ≤ Shard < Shards ≤ 4096).
 	Shard, Shards int
 	// Batch is the number of log positions per batch (default
@@ -127,6 +133,12 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 	}
 	if cfg.Subject == "" {
 		cfg.Subject = DefaultSubject
+	}
+	if cfg.Deployment == "" {
+		cfg.Deployment = cfg.Stream
+	}
+	if strings.ContainsAny(cfg.Deployment, ".*> \t") {
+		return nil, fmt.Errorf("deployment name %q: no dots, wildcards or spaces", cfg.Deployment)
 	}
 	if cfg.Replicas == 0 {
 		cfg.Replicas = 1
@@ -236,7 +248,7 @@ func (w *Worker) run(ctx context.Context) error {
 	go func() { defer wg.Done(); follow(fctx, w.js, w.cfg.Stream, "", w.a.Seq()+1, logCh) }()
 	go func() {
 		defer wg.Done()
-		follow(fctx, w.js, shuffleStream(w.cfg.Stream), shuffleSubject(w.cfg.Subject, w.cfg.Shard), w.shufNxt, shufCh)
+		follow(fctx, w.js, shuffleStream(&w.cfg), shuffleSubject(&w.cfg, w.cfg.Shard), w.shufNxt, shufCh)
 	}()
 	sub, err := w.serveReads()
 	if err != nil {
@@ -334,11 +346,11 @@ func (w *Worker) reject(ctx context.Context, m inMsg, reason string) error {
 	if m.seq%uint64(w.cfg.Shards) != uint64(w.cfg.Shard) {
 		return nil
 	}
-	msg := nats.NewMsg(RejectsSubject(w.cfg.Subject))
+	msg := nats.NewMsg(RejectsSubject(w.cfg.Subject, w.cfg.Deployment))
 	msg.Data = m.data
 	msg.Header.Set(RejectReasonHeader, reason)
 	msg.Header.Set(RejectSeqHeader, fmt.Sprint(m.seq))
-	return publishRetry(ctx, w.js, msg, fmt.Sprintf("%s/reject/%d", w.cfg.Stream, m.seq))
+	return publishRetry(ctx, w.js, msg, fmt.Sprintf("%s/reject/%d", w.cfg.Deployment, m.seq))
 }
 
 // askCut, on shard 0, writes a cut control message into the log when a
@@ -371,7 +383,7 @@ func (w *Worker) askCut(ctx context.Context) error {
 	}
 	msg := nats.NewMsg(w.cfg.Subject)
 	msg.Header.Set(ControlHeader, "cut")
-	ack, err := w.js.PublishMsgAsync(msg, jetstream.WithMsgID(fmt.Sprintf("%s/cut-after/%d", w.cfg.Stream, seq)))
+	ack, err := w.js.PublishMsgAsync(msg, jetstream.WithMsgID(fmt.Sprintf("%s/cut-after/%d", w.cfg.Deployment, seq)))
 	if err != nil {
 		return nil // asked again at a later tick
 	}
@@ -464,8 +476,8 @@ func (w *Worker) send(ctx context.Context, end, nodes uint64) error {
 	futs := make([]jetstream.PubAckFuture, w.cfg.Shards)
 	for owner := range w.cfg.Shards {
 		w.buf = w.out.encode(w.buf[:0], w.cfg.Shard, owner, end, nodes)
-		msgs[owner] = &nats.Msg{Subject: shuffleSubject(w.cfg.Subject, owner), Data: slices.Clone(w.buf)}
-		futs[owner], _ = w.js.PublishMsgAsync(msgs[owner], jetstream.WithMsgID(shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)))
+		msgs[owner] = &nats.Msg{Subject: shuffleSubject(&w.cfg, owner), Data: slices.Clone(w.buf)}
+		futs[owner], _ = w.js.PublishMsgAsync(msgs[owner], jetstream.WithMsgID(shuffleID(w.cfg.Deployment, end, w.cfg.Shard, owner)))
 	}
 	for owner, f := range futs {
 		if f != nil {
@@ -477,7 +489,7 @@ func (w *Worker) send(ctx context.Context, end, nodes uint64) error {
 				return ctx.Err()
 			}
 		}
-		if err := publishRetry(ctx, w.js, msgs[owner], shuffleID(w.cfg.Stream, end, w.cfg.Shard, owner)); err != nil {
+		if err := publishRetry(ctx, w.js, msgs[owner], shuffleID(w.cfg.Deployment, end, w.cfg.Shard, owner)); err != nil {
 			return err
 		}
 	}

@@ -154,6 +154,10 @@ type runningWorker struct {
 }
 
 func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
+	return startDeployment(t, url, name, subject, "", c0, win, shards, dir)
+}
+
+func startDeployment(t *testing.T, url, name, subject, deployment string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
 	t.Helper()
 	var ws []*runningWorker
 	for i := range shards {
@@ -164,7 +168,7 @@ func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, win tim
 		if err != nil {
 			t.Fatal(err)
 		}
-		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st})
+		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: name, Subject: subject, Deployment: deployment, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -204,7 +208,7 @@ func waitCut(t *testing.T, ws []*runningWorker, seq uint64) {
 				for _, o := range ws {
 					t.Logf("shard %d: %+v", o.w.cfg.Shard, o.w.Status())
 				}
-				if s, err := o0(ws).js.Stream(context.Background(), shuffleStream(o0(ws).cfg.Stream)); err == nil {
+				if s, err := o0(ws).js.Stream(context.Background(), shuffleStream(&o0(ws).cfg)); err == nil {
 					info, err := s.Info(context.Background(), jetstream.WithSubjectFilter(">"))
 					t.Logf("shuffle %+v %v %v", info.State.Subjects, info.State.Msgs, err)
 				}
@@ -307,7 +311,7 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 			if err != nil || r.Status != 404 {
 				t.Fatalf("read before the first cut: %+v, %v", r, err)
 			}
-			rs, err := js.Stream(context.Background(), rejectsStream(name))
+			rs, err := js.Stream(context.Background(), name+"_REJECTS")
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -374,3 +378,25 @@ func lastSeq(t *testing.T, js jetstream.JetStream, name string) uint64 {
 }
 
 func o0(ws []*runningWorker) *Worker { return ws[0].w }
+
+// TestTwoDeploymentsFollowOneLog: deployments of 1 and 2 shards under
+// different names read one log side by side (the way to change the shard
+// count) and both end at one applier's vectors.
+func TestTwoDeploymentsFollowOneLog(t *testing.T) {
+	c := mustCounting(t, delta.Undirected, 3)
+	log := testLog(1000, 9)
+	want := reference(t, c, 0, log)
+	srv := startServer(t)
+	_, js := connect(t, srv.URL())
+	publishLog(t, js, "SHARED", "shared.events", log)
+	one := startDeployment(t, srv.URL(), "SHARED", "shared.events", "OLD", c, 0, 1, t.TempDir())
+	two := startDeployment(t, srv.URL(), "SHARED", "shared.events", "NEW", c, 0, 2, t.TempDir())
+	last := lastSeq(t, js, "SHARED")
+	for _, ws := range [][]*runningWorker{one, two} {
+		waitCut(t, ws, last)
+		sameVectors(t, fmt.Sprintf("%d-shard deployment vs one applier", len(ws)), owned(t, ws, want), want)
+	}
+	for _, rw := range append(one, two...) {
+		rw.stop(t)
+	}
+}

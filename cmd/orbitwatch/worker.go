@@ -70,6 +70,7 @@ type workerFlags struct {
 	window   string
 	stream   string
 	subject  string
+	deploy   string
 	batch    uint64
 	idle     time.Duration
 	maxDelay time.Duration
@@ -83,6 +84,7 @@ func (f *workerFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.window, "window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
 	fs.StringVar(&f.stream, "stream", shard.DefaultStream, "JetStream stream of the event log")
 	fs.StringVar(&f.subject, "subject", shard.DefaultSubject, "subject of the event log")
+	fs.StringVar(&f.deploy, "deployment", "", "name of this set of workers (its shuffle and rejects streams); default: the stream name. A new name starts a new deployment on the same log, e.g. with another shard count")
 	fs.Uint64Var(&f.batch, "batch", shard.DefaultBatch, "log positions per batch; fixed for a deployment, like the shard count")
 	fs.DurationVar(&f.idle, "idle", shard.DefaultIdle, "idle time after which shard 0 cuts a partly filled batch")
 	fs.DurationVar(&f.maxDelay, "max-delay", shard.DefaultMaxDelay, "age of an open batch after which shard 0 cuts it while events keep coming (negative: only at batch ends and idle)")
@@ -134,7 +136,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 	}
 	defer st.Close()
 	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Batch, cfg.Idle, cfg.MaxDelay = nc, wf.stream, wf.subject, wf.batch, wf.idle, wf.maxDelay
-	cfg.Counting, cfg.Window, cfg.Store = c, window, st
+	cfg.Counting, cfg.Window, cfg.Store, cfg.Deployment = c, window, st, wf.deploy
 	cfg.Logf = func(format string, args ...any) {
 		fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d: %s\n", name, cfg.Shard, fmt.Sprintf(format, args...))
 	}
