@@ -51,9 +51,9 @@ func (c *Counter) update(u, v uint32, s int64) {
 		c.diamonds(u, v, du+dv, s)
 		var p int64
 		if costU <= costV {
-			p = c.cycles(u, v, inV, dv, s)
+			p = c.cycles(u, v, 1, dv, s)
 		} else {
-			p = c.cycles(v, u, inU, du, s)
+			p = c.cycles(v, u, 0, du, s)
 		}
 		nu.cyc += s * p
 		nv.cyc += s * p
@@ -175,11 +175,12 @@ func (c *Counter) diamonds(u, v uint32, span int64, s int64) {
 }
 
 // cycles counts the 4-cycles x–other–b–a–x of G⁻ from x's side: a ∈
-// N(x)\{other}, b ∈ N(a) with mark want (b ∈ N(other)\{x}); dOther is
+// N(x)\{other}, b ∈ N(a) set in marks[want] (b ∈ N(other)\{x}); dOther is
 // d(other) in G⁻. It moves cyc(a) and cyc(b) by s per cycle and returns
 // the number of cycles.
-func (c *Counter) cycles(x, other, want uint32, dOther int64, s int64) int64 {
+func (c *Counter) cycles(x, other uint32, want int, dOther int64, s int64) int64 {
 	var total int64
+	mark := c.marks[want]
 	for _, a := range c.adj[x].nbr {
 		if a == other {
 			continue
@@ -194,7 +195,7 @@ func (c *Counter) cycles(x, other, want uint32, dOther int64, s int64) int64 {
 			}
 		} else {
 			for _, b := range c.adj[a].nbr {
-				if c.bits(b)&want != 0 {
+				if mark[b>>6]>>(b&63)&1 != 0 {
 					c.nodes[b].cyc += s
 					m++
 				}
