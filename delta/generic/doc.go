@@ -22,8 +22,8 @@
 // alone, and v→u, when present, is part of the induced subgraph on both
 // sides of the change, so a reciprocal pair appears or dissolves.
 //
-// It is not the fastest path for undirected 2–4 node counts where hubs
-// dominate (delta/undirected has the orbit equations) and not the simplest
-// reference (delta/brute); it does no I/O and keeps no state between events
-// beyond scratch buffers.
+// It is not the fastest path for undirected 2–4 node counts (delta/undirected
+// has the orbit equations; BenchmarkUndirected4 runs both on one graph) and
+// not the simplest reference (delta/brute); it does no I/O and keeps no
+// state between events beyond scratch buffers.
 package generic
