@@ -46,6 +46,11 @@ type Counter struct {
 	// nodes) stay in cache where a word a node did not.
 	marks  [2][]uint64
 	common []uint32
+	// sources has a bit for every node whose own quantities or adjacency
+	// changed since the last Touched: u, v, N(u), N(v) of every event.
+	sources []uint64
+	// halo is Touched's scratch bitset, all zero between calls.
+	halo []uint64
 }
 
 const (
@@ -81,9 +86,9 @@ func (c *Counter) grow(n int) {
 		c.nodes = append(c.nodes, node{})
 		c.adj = append(c.adj, adjacency{})
 	}
-	for i := range c.marks {
-		for len(c.marks[i])*64 < n {
-			c.marks[i] = append(c.marks[i], 0)
+	for _, b := range []*[]uint64{&c.marks[0], &c.marks[1], &c.sources, &c.halo} {
+		for len(*b)*64 < n {
+			*b = append(*b, 0)
 		}
 	}
 }

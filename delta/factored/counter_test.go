@@ -3,6 +3,7 @@ package factored
 import (
 	"fmt"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"github.com/RoaringBitmap/roaring/v2"
@@ -233,8 +234,10 @@ func TestLoadEqualsEvents(t *testing.T) {
 
 // TestTouchedCoversChanges demands, for events of several kinds (hub
 // edges, edges closing triangles and 4-cycles, deletions), that every node
-// whose derived vector changed is in Touched, and that Touched holds no
-// node outside distance 2 of the edge.
+// whose derived vector changed is named by Touched after the event and is
+// in the event's Halo, that Touched names only Halo nodes, and that Halo
+// holds no node beyond distance 2 (1 for 3 nodes) of the edge; then the
+// same for Touched over batches of 15 events.
 func TestTouchedCoversChanges(t *testing.T) {
 	for _, k := range []int{3, 4} {
 		rng := rand.New(rand.NewPCG(11, uint64(k)))
@@ -251,6 +254,7 @@ func TestTouchedCoversChanges(t *testing.T) {
 				apply(c, g, u, v)
 			}
 		}
+		c.Touched(func(uint32) {})
 		before := derived(c, g)
 		for ev := range 40 {
 			u, v := randomPair(rng, n)
@@ -261,26 +265,50 @@ func TestTouchedCoversChanges(t *testing.T) {
 				}
 			}
 			halo := roaring.New()
-			c.Touched(g, u, v, halo)
+			c.Halo(g, u, v, halo)
 			apply(c, g, u, v)
+			touched := roaring.New()
+			c.Touched(func(x uint32) { touched.Add(x) })
 			after := derived(c, g)
-			changed := 0
-			for x := range uint32(n) {
-				if !rowsEqual(before.Row(x), after.Row(x)) {
-					changed++
-					if !halo.Contains(x) {
-						t.Fatalf("k%d event %d (%d,%d): node %d changed outside Touched", k, ev, u, v, x)
-					}
-				}
-			}
-			if changed == 0 {
+			changed := changedNodes(before, after)
+			if changed.IsEmpty() {
 				t.Fatalf("k%d event %d (%d,%d): no vector changed", k, ev, u, v)
+			}
+			if d := roaring.AndNot(changed, touched); !d.IsEmpty() {
+				t.Fatalf("k%d event %d (%d,%d): nodes %v changed but Touched missed them", k, ev, u, v, d.ToArray())
+			}
+			if d := roaring.AndNot(touched, halo); !d.IsEmpty() {
+				t.Fatalf("k%d event %d (%d,%d): Touched names %v outside the halo", k, ev, u, v, d.ToArray())
 			}
 			checkHaloDistance(t, g, u, v, k-2, halo)
 			before = after
 		}
+		for batch := range 10 {
+			for range 15 {
+				u, v := randomPair(rng, n)
+				apply(c, g, u, v)
+			}
+			touched := roaring.New()
+			c.Touched(func(x uint32) { touched.Add(x) })
+			after := derived(c, g)
+			if d := roaring.AndNot(changedNodes(before, after), touched); !d.IsEmpty() {
+				t.Fatalf("k%d batch %d: nodes %v changed but Touched missed them", k, batch, d.ToArray())
+			}
+			before = after
+		}
 		checkAll(t, fmt.Sprintf("k%d after touched events", k), c, g)
 	}
+}
+
+// changedNodes returns the nodes whose rows differ.
+func changedNodes(before, after *delta.Vectors) *roaring.Bitmap {
+	out := roaring.New()
+	for x := range uint32(after.NumNodes()) {
+		if !rowsEqual(before.Row(x), after.Row(x)) {
+			out.Add(x)
+		}
+	}
+	return out
 }
 
 func rowsEqual(a, b []uint64) bool {
@@ -371,5 +399,35 @@ func TestContractPanics(t *testing.T) {
 			}()
 			f()
 		}()
+	}
+}
+
+// TestAdjacencyMatchesGraph checks the Counter's own adjacency and edge
+// triangle counts after a churned BA stream: N(x) equals the graph's
+// bitmap, and tri(x,y) equals the bitmap intersection |N(x) ∩ N(y)|
+// (Roaring's AndCardinality, a code path of its own), and the merge
+// intersection the benchmark times.
+func TestAdjacencyMatchesGraph(t *testing.T) {
+	const n = 1500
+	g := baGraph(n, 5, 8)
+	c := New(4)
+	c.Load(g)
+	rng := rand.New(rand.NewPCG(8, 8))
+	for range 3000 {
+		u, v := randomPair(rng, n)
+		apply(c, g, u, v)
+	}
+	for x := range uint32(n) {
+		a := c.adj[x]
+		want := g.Out(x).ToArray()
+		if !slices.Equal(a.nbr, want) {
+			t.Fatalf("node %d: adjacency %v, graph %v", x, a.nbr, want)
+		}
+		for i, y := range a.nbr {
+			k := g.Out(x).AndCardinality(g.Out(y))
+			if uint64(a.tri[i]) != k || intersection(a.nbr, c.adj[y].nbr) != int(k) {
+				t.Fatalf("edge %d-%d: kept %d triangles, intersection %d", x, y, a.tri[i], k)
+			}
+		}
 	}
 }

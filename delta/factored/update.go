@@ -67,10 +67,12 @@ func (c *Counter) update(u, v uint32, s int64) {
 	}
 }
 
-// markSide sets N(x)\{other} in marks[side], moves their neighbour degree
-// sums by s and, for the second side, collects the common neighbours.
+// markSide sets N(x)\{other} in marks[side] and x and N(x) in sources,
+// moves their neighbour degree sums by s and, for the second side,
+// collects the common neighbours.
 func (c *Counter) markSide(x, other uint32, side int, s int64) {
 	m, first := c.marks[side], c.marks[0]
+	c.sources[x>>6] |= 1 << (x & 63)
 	for _, y := range c.adj[x].nbr {
 		if y == other {
 			continue
@@ -78,6 +80,7 @@ func (c *Counter) markSide(x, other uint32, side int, s int64) {
 		c.nodes[y].s1 += s
 		w, b := y>>6, uint64(1)<<(y&63)
 		m[w] |= b
+		c.sources[w] |= b
 		if side == 1 && first[w]&b != 0 {
 			c.common = append(c.common, y)
 		}
