@@ -8,6 +8,7 @@ import (
 	"io"
 	"net/http"
 	"net/url"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -50,6 +51,19 @@ const ShardHeader = "Orbitwatch-Shard"
 //	                     watermark is ≤ TIME, ?seq=N as of the latest cut ≤ N
 //	GET /v1/status       per-shard progress (this one and reachable peers;
 //	                     ?local=true this one only)
+//	GET /v1/nodes/{id}/history    the node's vector at every cut where it
+//	                     changed (and the last), oldest first; ?from=TIME&to=TIME
+//	                     bound the event time, ?limit=N (default 1000) thins
+//	                     the versions evenly, keeping the first and last
+//	GET /v1/nodes/{id}/neighbors  up to ?limit=N (default 24, at most
+//	                     MaxNeighbors) of its neighbours, busiest first, and
+//	                     the edges among them, from the worker's graph
+//	GET /v1/alerts       this shard's stored alerts, newest first:
+//	                     ?since=SEQ (cuts after it) or ?since=RFC3339
+//	                     (event time ≥ it), ?node=ID, ?rule=NAME, ?limit=N
+//	                     (default 100, at most 1000)
+//	GET /v1/catalog      the orbits counted, with their plain names
+//	GET /                the web page (see WebHandler), /ui/… its files
 //	GET /healthz         200 while the process serves
 //	GET /readyz          200 once caught up to the cut it started behind, else 503
 //	GET /metrics         Prometheus text format 0.0.4
@@ -72,6 +86,13 @@ func NewAPI(v View, opts APIOptions) http.Handler {
 	v.SetObserver(opts.Metrics)
 	mux := http.NewServeMux()
 	mux.HandleFunc("/v1/nodes/{id...}", a.get(a.node))
+	mux.HandleFunc("/v1/nodes/{id}/history", a.get(a.history))
+	mux.HandleFunc("/v1/nodes/{id}/neighbors", a.get(a.neighbors))
+	mux.HandleFunc("/v1/alerts", a.get(a.alerts))
+	mux.HandleFunc("/v1/catalog", a.get(a.catalog))
+	web := WebHandler()
+	mux.Handle("GET /{$}", web)
+	mux.Handle("GET /ui/", web)
 	mux.HandleFunc("/v1/status", a.get(a.status))
 	mux.HandleFunc("/healthz", a.get(a.healthz))
 	mux.HandleFunc("/readyz", a.get(a.readyz))
@@ -139,7 +160,7 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		}
 		self, _ := a.v.Shard()
 		if owner := a.v.Owner(id); owner != self {
-			a.forwardHTTP(w, r, owner, id)
+			a.forwardHTTP(w, r, owner, id, "")
 			return
 		}
 		rep = readStore(a.v.Store(), a.kind, a.maxNodes, self, id, time.Time{}, seq)
@@ -184,9 +205,10 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 	writeJSON(w, http.StatusOK, body)
 }
 
-// forwardHTTP relays a node read to the owner shard's API (from Peers)
-// and copies its answer back.
-func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id string) {
+// forwardHTTP relays a node read (suffix "" or a sub-resource such as
+// "/history") to the owner shard's API (from Peers) and copies its answer
+// back.
+func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id, suffix string) {
 	if owner >= len(a.opts.Peers) || a.opts.Peers[owner] == "" {
 		writeError(w, http.StatusNotImplemented, fmt.Sprintf("node %q is on shard %d, whose API address is not configured: reads by seq are forwarded over HTTP only (ask shard %d, or use at)", id, owner, owner))
 		return
@@ -195,7 +217,7 @@ func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id 
 		writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("node %q was forwarded here but shard %d owns it: the shards disagree on the shard count", id, owner))
 		return
 	}
-	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", url.PathEscape(id))
+	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", url.PathEscape(id)+suffix)
 	if err != nil {
 		writeError(w, http.StatusInternalServerError, fmt.Sprintf("address of shard %d: %v", owner, err))
 		return
@@ -437,4 +459,217 @@ func writeError(w http.ResponseWriter, status int, msg string) {
 		msg = http.StatusText(status)
 	}
 	writeJSON(w, status, map[string]string{"error": msg})
+}
+
+// queryKeys refuses query parameters other than those allowed.
+func queryKeys(w http.ResponseWriter, q url.Values, allowed ...string) bool {
+	for k := range q {
+		if !slices.Contains(allowed, k) {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("unknown query parameter %q (want %s)", k, strings.Join(allowed, ", ")))
+			return false
+		}
+	}
+	return true
+}
+
+// queryLimit reads ?limit=N with a default and a ceiling.
+func queryLimit(w http.ResponseWriter, q url.Values, def, ceiling int) (int, bool) {
+	if !q.Has("limit") {
+		return def, true
+	}
+	n, err := strconv.Atoi(q.Get("limit"))
+	if err != nil || n < 1 || n > ceiling {
+		writeError(w, http.StatusBadRequest, fmt.Sprintf("limit %q: want a whole number 1..%d", q.Get("limit"), ceiling))
+		return 0, false
+	}
+	return n, true
+}
+
+// versionJSON is one entry of a node's history.
+type versionJSON struct {
+	Seq       uint64     `json:"seq"`
+	EventTime *time.Time `json:"event_time"`
+	Orbits    []uint64   `json:"orbits"`
+}
+
+type historyJSON struct {
+	Node     string        `json:"node"`
+	Kind     string        `json:"kind"`
+	MaxNodes int           `json:"max_nodes"`
+	Versions []versionJSON `json:"versions"`
+}
+
+func (a *api) history(w http.ResponseWriter, r *http.Request) {
+	id := r.PathValue("id")
+	q := r.URL.Query()
+	if !queryKeys(w, q, "from", "to", "limit") {
+		return
+	}
+	limit, ok := queryLimit(w, q, 1000, 100000)
+	if !ok {
+		return
+	}
+	self, _ := a.v.Shard()
+	if owner := a.v.Owner(id); owner != self {
+		a.forwardHTTP(w, r, owner, id, "/history")
+		return
+	}
+	st := a.v.Store()
+	var from, to time.Time
+	for _, k := range []string{"from", "to"} {
+		if !q.Has(k) {
+			continue
+		}
+		t, err := stream.ParseTime(q.Get(k))
+		if err != nil {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("%s %q: %v", k, q.Get(k), err))
+			return
+		}
+		if k == "from" {
+			from = t
+		} else {
+			to = t
+		}
+	}
+	fromSeq, toSeq := uint64(0), st.Seq()
+	if !from.IsZero() {
+		// The version in force at from is the latest cut at or before it.
+		if s, ok := st.SeqAtTime(from); ok {
+			fromSeq = s
+		}
+	}
+	if !to.IsZero() {
+		s, _ := st.SeqAtTime(to)
+		toSeq = s
+	}
+	if _, _, _, err := st.VectorAt(id, st.Seq()); errors.Is(err, storage.ErrUnknownNode) || errors.Is(err, storage.ErrNoCheckpoint) {
+		writeError(w, http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", id, st.Seq()))
+		return
+	}
+	vs, err := st.History(id, fromSeq, toSeq)
+	if err != nil {
+		writeError(w, http.StatusInternalServerError, err.Error())
+		return
+	}
+	kept := vs[:0]
+	for i, v := range vs {
+		if v.Changed || i == len(vs)-1 {
+			kept = append(kept, v)
+		}
+	}
+	out := historyJSON{Node: id, Kind: a.kind, MaxNodes: a.maxNodes, Versions: make([]versionJSON, 0, min(len(kept), limit))}
+	for _, i := range thin(len(kept), limit) {
+		k := kept[i]
+		out.Versions = append(out.Versions, versionJSON{Seq: k.Seq, EventTime: optTime(k.Watermark), Orbits: k.Vector})
+	}
+	writeJSON(w, http.StatusOK, out)
+}
+
+// thin returns at most limit indices of 0..n−1, evenly spread, the first
+// and the last always among them.
+func thin(n, limit int) []int {
+	if n <= limit {
+		out := make([]int, n)
+		for i := range out {
+			out[i] = i
+		}
+		return out
+	}
+	out := make([]int, 0, limit)
+	if limit == 1 {
+		return append(out, n-1)
+	}
+	for i := range limit {
+		out = append(out, i*(n-1)/(limit-1))
+	}
+	return out
+}
+
+func (a *api) neighbors(w http.ResponseWriter, r *http.Request) {
+	id := r.PathValue("id")
+	q := r.URL.Query()
+	if !queryKeys(w, q, "limit") {
+		return
+	}
+	limit, ok := queryLimit(w, q, 24, MaxNeighbors)
+	if !ok {
+		return
+	}
+	nr, ok := a.v.(NeighborReader)
+	if !ok {
+		writeError(w, http.StatusNotImplemented, "this view does not read the adjacency")
+		return
+	}
+	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+	defer cancel()
+	nb, err := nr.Neighbors(ctx, id, limit)
+	if err != nil {
+		writeError(w, http.StatusGatewayTimeout, fmt.Sprintf("neighbours of %q: %v", id, err))
+		return
+	}
+	if !nb.Found {
+		writeError(w, http.StatusNotFound, nb.Error)
+		return
+	}
+	writeJSON(w, http.StatusOK, nb)
+}
+
+type alertsJSON struct {
+	Shard  int               `json:"shard"`
+	Alerts []json.RawMessage `json:"alerts"`
+}
+
+func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
+	q := r.URL.Query()
+	if !queryKeys(w, q, "since", "node", "rule", "limit") {
+		return
+	}
+	limit, ok := queryLimit(w, q, 100, 1000)
+	if !ok {
+		return
+	}
+	f := storage.AlertFilter{Node: q.Get("node"), Rule: q.Get("rule"), Limit: limit, Newest: true}
+	if q.Has("since") {
+		s := q.Get("since")
+		// A whole number is a cut sequence; a Unix time must be
+		// written as RFC 3339 here.
+		if n, err := strconv.ParseUint(s, 10, 64); err == nil {
+			f.SinceSeq = n
+		} else if t, err := stream.ParseTime(s); err == nil {
+			f.SinceTime = t
+		} else {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("since %q: want a cut sequence number or a time", s))
+			return
+		}
+	}
+	recs, err := a.v.Store().Alerts(f)
+	if err != nil {
+		writeError(w, http.StatusInternalServerError, err.Error())
+		return
+	}
+	self, _ := a.v.Shard()
+	out := alertsJSON{Shard: self, Alerts: make([]json.RawMessage, len(recs))}
+	for i, rec := range recs {
+		out.Alerts[i] = rec.Body
+	}
+	writeJSON(w, http.StatusOK, out)
+}
+
+type orbitJSON struct {
+	ID       int    `json:"id"`
+	Name     string `json:"name"`
+	Graphlet string `json:"graphlet"`
+}
+
+func (a *api) catalog(w http.ResponseWriter, r *http.Request) {
+	cat := a.v.Counting().Catalog
+	out := struct {
+		Kind     string      `json:"kind"`
+		MaxNodes int         `json:"max_nodes"`
+		Orbits   []orbitJSON `json:"orbits"`
+	}{Kind: a.kind, MaxNodes: a.maxNodes}
+	for _, o := range cat.Orbits {
+		out.Orbits = append(out.Orbits, orbitJSON{ID: o.ID, Name: o.Name, Graphlet: cat.Graphlets[o.Graphlet].Name})
+	}
+	writeJSON(w, http.StatusOK, out)
 }

@@ -15,6 +15,7 @@ import (
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
 
+	"orbitwatch/shard/alert"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
@@ -52,7 +53,23 @@ type WorkerConfig struct {
 	Store    *storage.Store
 	// Logf, when set, hears of rejects and retries.
 	Logf func(format string, args ...any)
+	// Alerts, when set, are evaluated at every cut for the nodes this
+	// shard owns (AlertStage): stored with the cut, then published as JSON
+	// on AlertsSubject(Subject) and handed to Webhook when it is set. The
+	// evaluator's state goes into every checkpoint and is restored from
+	// the store, so hysteresis and cool-downs survive a restart.
+	Alerts  *alert.Evaluator
+	Webhook *alert.Webhook
 }
+
+// alertsBlob is the storage blob with the alert evaluator's state.
+const alertsBlob = "alerts"
+
+// AlertsSubject is the NATS subject on which the workers of a deployment
+// whose log subject is subject publish their alerts, one JSON alert per
+// message (core NATS: a subscriber that is away misses them; the store
+// and the API keep them all).
+func AlertsSubject(subject string) string { return subject + ".alerts" }
 
 // workerBlob is the storage blob with the worker's shuffle positions.
 const workerBlob = "worker"
@@ -118,6 +135,11 @@ type Worker struct {
 	mu         sync.Mutex
 	snap       Status // cut-time fields, under mu
 	obs        atomic.Value
+
+	alerts *AlertStage       // nil without Alerts
+	nbrReq chan neighborsReq // neighbourhood reads, answered by Run's goroutine
+	blobs  map[string][]byte // reused for every checkpoint
+	sent   atomic.Uint64     // alerts published on the bus
 }
 
 type observerBox struct{ o Observer }
@@ -171,7 +193,15 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 		return nil, err
 	}
 	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards, cfg.Counting.Catalog.NumOrbits()), inbox: map[uint64][]*shuffleMsg{}, merged: newSums(cfg.Counting.Catalog.NumOrbits()),
-		origins: make([]uint64, cfg.Shards), shufNxt: 1, started: time.Now()}
+		origins: make([]uint64, cfg.Shards), shufNxt: 1, started: time.Now(), nbrReq: make(chan neighborsReq), blobs: map[string][]byte{}}
+	if cfg.Alerts != nil {
+		w.alerts = NewAlertStage(cfg.Alerts)
+		if b, ok := state.Blobs[alertsBlob]; ok {
+			if err := cfg.Alerts.UnmarshalBinary(b); err != nil {
+				return nil, fmt.Errorf("stored alert state: %w", err)
+			}
+		}
+	}
 	if b, ok := state.Blobs[workerBlob]; ok {
 		var rec workerRecord
 		if err := json.Unmarshal(b, &rec); err != nil {
@@ -276,6 +306,8 @@ func (w *Worker) run(ctx context.Context) error {
 			}
 		case m := <-shufCh:
 			w.receive(m)
+		case q := <-w.nbrReq:
+			q.reply <- w.neighbors(q)
 		case <-tick:
 			if err := w.askCut(ctx); err != nil {
 				return err
@@ -421,6 +453,8 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 		select {
 		case m := <-shufCh:
 			w.receive(m)
+		case q := <-w.nbrReq:
+			q.reply <- w.neighbors(q)
 		case <-ctx.Done():
 			return ctx.Err()
 		}
@@ -558,12 +592,72 @@ func (w *Worker) commit() error {
 	if err != nil {
 		return err
 	}
-	if err := w.cfg.Store.Commit(w.a.Checkpoint(map[string][]byte{workerBlob: rec})); err != nil {
+	w.blobs[workerBlob] = rec
+	alerts, err := w.evaluate()
+	if err != nil {
+		return err
+	}
+	if err := w.cfg.Store.Commit(w.a.Checkpoint(w.blobs)); err != nil {
 		return fmt.Errorf("cut %d: %w", w.cut, err)
 	}
 	w.a.ResetTouched()
 	w.snapshot()
+	w.announce(alerts)
 	return nil
+}
+
+// evaluate runs the alert stage on the cut about to be committed, stores
+// its alerts at the cut's version and puts the evaluator's state among the
+// checkpoint's blobs.
+func (w *Worker) evaluate() ([]alert.Alert, error) {
+	if w.alerts == nil {
+		return nil, nil
+	}
+	owned := func(x uint32) bool { return w.ownerOf(x) == w.cfg.Shard }
+	alerts, err := w.alerts.Evaluate(w.cfg.Store, w.a, owned, alertCut(w.a, w.cut, time.Now()))
+	if err != nil {
+		return nil, fmt.Errorf("cut %d: %w", w.cut, err)
+	}
+	if len(alerts) > 0 {
+		if err := w.cfg.Store.PutAlerts(w.cut, alert.Records(alerts)); err != nil {
+			return nil, fmt.Errorf("cut %d: alerts: %w", w.cut, err)
+		}
+	}
+	state, err := w.cfg.Alerts.MarshalBinary()
+	if err != nil {
+		return nil, fmt.Errorf("cut %d: alert state: %w", w.cut, err)
+	}
+	w.blobs[alertsBlob] = state
+	return alerts, nil
+}
+
+// announce publishes a committed cut's alerts on the bus and hands them to
+// the webhook. Neither waits for the network: core NATS publishes are
+// buffered by the client, the webhook queues.
+func (w *Worker) announce(alerts []alert.Alert) {
+	if len(alerts) == 0 {
+		return
+	}
+	subj := AlertsSubject(w.cfg.Subject)
+	for _, a := range alerts {
+		b, err := json.Marshal(a)
+		if err != nil {
+			panic("shard: alert does not encode as JSON: " + err.Error())
+		}
+		msg := nats.NewMsg(subj)
+		msg.Data = b
+		msg.Header.Set(alert.AlertIDHeader, a.ID)
+		if err := w.cfg.Conn.PublishMsg(msg); err != nil {
+			if w.cfg.Logf != nil {
+				w.cfg.Logf("alert %s not published on %s: %v", a.ID, subj, err)
+			}
+			continue
+		}
+		w.sent.Add(1)
+	}
+	if w.cfg.Webhook != nil {
+		w.cfg.Webhook.Send(alerts...)
+	}
 }
 
 // stats are the event counts since the log's start: those stored with the

@@ -8,8 +8,11 @@ import (
 	"os/signal"
 	"path/filepath"
 	"syscall"
+	"time"
 
+	"orbitwatch/delta/catalog"
 	"orbitwatch/shard"
+	"orbitwatch/shard/alert"
 	"orbitwatch/stream"
 )
 
@@ -70,4 +73,42 @@ func runNATSServer(args []string) int {
 	<-ctx.Done()
 	srv.Shutdown()
 	return 0
+}
+
+// alertFlags are the alert flags of serve, worker and demo.
+type alertFlags struct {
+	path, webhook string
+	// yaml, when set (by demo), is the rules file's content instead of
+	// path's.
+	yaml []byte
+}
+
+func (f *alertFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&f.path, "alerts", "", "alert rules file (YAML); default: the built-in rules")
+	fs.StringVar(&f.webhook, "webhook", "", "URL to POST every alert to as JSON, with retries (never holds up counting)")
+}
+
+// setup returns the evaluator of the rules (the built-in ones when no
+// file is given) and the webhook when one is asked for; the caller closes
+// the webhook after the worker stops.
+func (f *alertFlags) setup(cat *catalog.Catalog) (*alert.Evaluator, *alert.Webhook, error) {
+	cfg := alert.DefaultConfig(cat)
+	var err error
+	switch {
+	case f.yaml != nil:
+		cfg, err = alert.ParseConfig(f.yaml, cat)
+	case f.path != "":
+		cfg, err = alert.LoadConfig(f.path, cat)
+	}
+	if err != nil {
+		return nil, nil, fmt.Errorf("--alerts: %w", err)
+	}
+	var hook *alert.Webhook
+	if f.webhook != "" {
+		hook, err = alert.NewWebhook(alert.WebhookConfig{URL: f.webhook, Timeout: 5 * time.Second})
+		if err != nil {
+			return nil, nil, fmt.Errorf("--webhook: %w", err)
+		}
+	}
+	return alert.New(cfg, cat), hook, nil
 }

@@ -75,6 +75,7 @@ type workerFlags struct {
 	idle     time.Duration
 	maxDelay time.Duration
 	peers    string
+	alerts   alertFlags
 }
 
 func (f *workerFlags) register(fs *flag.FlagSet) {
@@ -88,6 +89,7 @@ func (f *workerFlags) register(fs *flag.FlagSet) {
 	fs.Uint64Var(&f.batch, "batch", shard.DefaultBatch, "log positions per batch; fixed for a deployment, like the shard count")
 	fs.DurationVar(&f.idle, "idle", shard.DefaultIdle, "idle time after which shard 0 cuts a partly filled batch")
 	fs.DurationVar(&f.maxDelay, "max-delay", shard.DefaultMaxDelay, "age of an open batch after which shard 0 cuts it while events keep coming (negative: only at batch ends and idle)")
+	f.alerts.register(fs)
 	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for status of all shards and reads by seq)")
 }
 
@@ -139,6 +141,16 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 	cfg.Counting, cfg.Window, cfg.Store, cfg.Deployment = c, window, st, wf.deploy
 	cfg.Logf = func(format string, args ...any) {
 		fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d: %s\n", name, cfg.Shard, fmt.Sprintf(format, args...))
+	}
+	if cfg.Alerts, cfg.Webhook, err = wf.alerts.setup(c.Catalog); err != nil {
+		return fail(name, err)
+	}
+	if cfg.Webhook != nil {
+		defer func() {
+			wctx, wcancel := context.WithTimeout(context.Background(), 5*time.Second)
+			cfg.Webhook.Close(wctx)
+			wcancel()
+		}()
 	}
 	w, err := shard.NewWorker(cfg)
 	if err != nil {

@@ -28,7 +28,7 @@
 
   // Signature: one horizontal bar per orbit, length log10(count+1).
   function signatureChart(orbits) {
-    const rowH = 17, left = 150, width = 520, right = 60;
+    const rowH = 19, left = 215, width = 540, right = 50;
     const h = orbits.length * rowH + 28;
     const max = Math.max(1, ...orbits.map(log10p));
     const svg = el("svg:svg", {viewBox: `0 0 ${width} ${h}`, role: "img", "aria-label": "orbit counts on a log scale"});
@@ -41,7 +41,7 @@
     orbits.forEach((c, o) => {
       const y = 6 + o * rowH;
       const g = el("svg:g", {class: "orbit-bar", "data-orbit": o});
-      g.append(el("svg:text", {x: left - 6, y: y + 11, "font-size": 11, "text-anchor": "end"}, `${o} ${orbitName(o)}`));
+      g.append(el("svg:text", {x: left - 6, y: y + 11, "font-size": 12, "text-anchor": "end"}, `${o} ${orbitName(o)}`));
       const w = Math.max(c > 0 ? 1.5 : 0, log10p(c) * scale);
       const bar = el("svg:rect", {class: "bar", x: left, y: y + 2, width: w.toFixed(1), height: rowH - 5});
       bar.append(el("svg:title", {}, `${orbitName(o)}: ${c}`));

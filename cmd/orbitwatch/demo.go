@@ -1,0 +1,159 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
+
+	"orbitwatch/bench/demo"
+	"orbitwatch/shard"
+	"orbitwatch/stream"
+)
+
+func init() {
+	commands["demo"] = command{"play a fictional payments network with planted patterns through an embedded server and show the alerts on a web page", runDemo}
+}
+
+func runDemo(args []string) int {
+	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
+	data := fs.String("data", "", "data directory to keep (default: a temporary one, removed on exit)")
+	httpAddr := fs.String("http", "127.0.0.1:7474", "address of the web page and the HTTP API")
+	rate := fs.Float64("rate", 100, "steady payments per second of wall time after the opening (which goes as fast as it can)")
+	seed := fs.Uint64("seed", 1, "seed of the scenario")
+	webhook := fs.String("webhook", "", "URL to POST every alert to as JSON, with retries (never holds up counting)")
+	small := fs.Bool("small", false, "a smaller scenario (600 households, five simulated hours) for quick trials and tests")
+	if err := fs.Parse(args); err != nil {
+		return 2
+	}
+	if *rate <= 0 {
+		fmt.Fprintln(os.Stderr, "orbitwatch demo: --rate must be positive")
+		return 2
+	}
+	dir := *data
+	if dir == "" {
+		tmp, err := os.MkdirTemp("", "orbitwatch-demo-")
+		if err != nil {
+			return fail("demo", err)
+		}
+		defer os.RemoveAll(tmp)
+		dir = tmp
+	}
+	cfg := demo.DefaultConfig()
+	if *small {
+		cfg = demo.SmallConfig()
+	}
+	cfg.Seed = *seed
+	sc := demo.Generate(cfg)
+
+	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(dir, "nats"), Listen: "127.0.0.1:0"})
+	if err != nil {
+		return fail("demo", err)
+	}
+	defer srv.Shutdown()
+	fmt.Printf("orbitwatch demo: NATS %s\n", srv.URL())
+	nf := natsFlags{url: srv.URL()}
+	nc, err := nf.connect("demo")
+	if err != nil {
+		return fail("demo", err)
+	}
+	defer nc.Close()
+	wf := workerFlags{data: filepath.Join(dir, "state"), http: *httpAddr, stream: shard.DefaultStream, subject: shard.DefaultSubject,
+		batch: shard.DefaultBatch, idle: shard.DefaultIdle, maxDelay: shard.DefaultMaxDelay}
+	wf.counting = countingFlags{kind: "undirected", maxNodes: 4}
+	wf.alerts.yaml, wf.alerts.webhook = demo.AlertsYAML, *webhook
+
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	played := make(chan error, 1)
+	ready := func(httpURL string) {
+		fmt.Print(demoIntro(sc, httpURL, *rate))
+		go func() { played <- playDemo(ctx, nc, sc, *rate) }()
+		go func() {
+			err := <-played
+			if err != nil {
+				if ctx.Err() == nil {
+					fmt.Fprintf(os.Stderr, "orbitwatch demo: publishing stopped: %v\n", err)
+				}
+				return
+			}
+			fmt.Println("orbitwatch demo: story complete; the page stays up until Ctrl-C")
+		}()
+	}
+	return runShard("demo", nc, &wf, shard.WorkerConfig{Shard: 0, Shards: 1, Replicas: 1}, ready)
+}
+
+// demoIntro says where the page is and what to look for.
+func demoIntro(sc *demo.Scenario, httpURL string, rate float64) string {
+	var b strings.Builder
+	steady := len(sc.Events) - sc.Opening
+	fmt.Fprintf(&b, "orbitwatch demo: a fictional payments network of %d households, %d shops and %d payroll providers (all names invented)\n",
+		sc.Config.Households, sc.Config.Shops, sc.Config.Payrolls)
+	fmt.Fprintf(&b, "orbitwatch demo: %d opening payments at once, then %d more at %.0f a second (about %.0f s)\n", sc.Opening, steady, rate, float64(steady)/rate)
+	fmt.Fprintf(&b, "orbitwatch demo: open %s/ in a browser\n", httpURL)
+	fmt.Fprintln(&b, "orbitwatch demo: planted, to look for:")
+	for _, p := range sc.Patterns {
+		at := float64(p.CompleteIndex-sc.Opening) / rate
+		who := p.Expect
+		if p.Quiet {
+			who = p.Nodes
+		}
+		fmt.Fprintf(&b, "  %-8s %s: %s (complete about %.0f s into the steady part)\n", p.Name, strings.Join(who, " "), p.Title, max(at, 0))
+	}
+	fmt.Fprintln(&b, "orbitwatch demo: alerts are leads for a trained investigator, not findings about people")
+	return b.String()
+}
+
+// playDemo publishes the opening as fast as the server acknowledges it,
+// then the rest at rate events a second of wall time.
+func playDemo(ctx context.Context, nc *nats.Conn, sc *demo.Scenario, rate float64) error {
+	js, err := jetstream.New(nc)
+	if err != nil {
+		return err
+	}
+	if _, err := js.Stream(ctx, shard.DefaultStream); errors.Is(err, jetstream.ErrStreamNotFound) {
+		if _, err := stream.EnsureStream(ctx, js, shard.DefaultStream, shard.DefaultSubject, 1); err != nil {
+			return err
+		}
+	} else if err != nil {
+		return err
+	}
+	pub := stream.NewPublisher(js, shard.DefaultSubject, stream.PublisherOptions{Stream: shard.DefaultStream})
+	for _, e := range sc.Events[:sc.Opening] {
+		if err := pub.Publish(ctx, e); err != nil {
+			return err
+		}
+	}
+	if err := pub.Flush(ctx); err != nil {
+		return err
+	}
+	const tick = 20 * time.Millisecond
+	t := time.NewTicker(tick)
+	defer t.Stop()
+	start := time.Now()
+	next := sc.Opening
+	for next < len(sc.Events) {
+		select {
+		case <-ctx.Done():
+			return ctx.Err()
+		case now := <-t.C:
+			due := sc.Opening + int(now.Sub(start).Seconds()*rate)
+			for ; next < min(due, len(sc.Events)); next++ {
+				if err := pub.Publish(ctx, sc.Events[next]); err != nil {
+					return err
+				}
+			}
+			if err := pub.Flush(ctx); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}

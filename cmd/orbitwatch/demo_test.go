@@ -1,0 +1,339 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"net/http"
+	"net/http/httptest"
+	"net/url"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"slices"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"github.com/nats-io/nats.go"
+
+	"orbitwatch/bench/demo"
+	"orbitwatch/shard"
+)
+
+// alertReply is the part of an alert the tests read.
+type alertReply struct {
+	ID        string    `json:"id"`
+	Rule      string    `json:"rule"`
+	Node      string    `json:"node"`
+	Seq       uint64    `json:"seq"`
+	EventTime time.Time `json:"event_time"`
+}
+
+func getJSON(t *testing.T, u string, into any) int {
+	t.Helper()
+	resp, err := http.Get(u)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	if resp.StatusCode == http.StatusOK {
+		if err := json.NewDecoder(resp.Body).Decode(into); err != nil {
+			t.Fatalf("%s: %v", u, err)
+		}
+	}
+	return resp.StatusCode
+}
+
+// startDemo starts `orbitwatch demo --small` on random ports with extra
+// flags.
+func startDemo(t *testing.T, extra ...string) *child {
+	t.Helper()
+	args := append([]string{"demo", "--small", "--rate", "1000", "--http", "127.0.0.1:0", "--data", filepath.Join(t.TempDir(), "demo")}, extra...)
+	return startChild(t, args...)
+}
+
+// waitStory waits until every event of sc is applied and cut, and returns
+// the API's base URL.
+func waitStory(t *testing.T, c *child, sc *demo.Scenario) string {
+	t.Helper()
+	base := c.waitFor(t, "HTTP API ")
+	c.waitFor(t, "story complete")
+	deadline := time.Now().Add(60 * time.Second)
+	for {
+		st, err := localStatus(t, base)
+		if err == nil && st.Applied == uint64(len(sc.Events)) && st.CutSeq == st.AppliedSeq {
+			return base
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("status %+v (%v), want %d applied and cut:\n%s", st, err, len(sc.Events), c.output())
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+}
+
+// TestDemoAlertsEndToEnd plays the small demo story through the real
+// binary (embedded NATS server, one worker, Badger) and demands from
+// /v1/alerts an alert on an expected node of every planted pattern and
+// none on the quiet hub; every alert also reaches the bus subject and a
+// webhook that refuses its first two requests. It checks the history and
+// neighbours endpoints against the node read and the scenario.
+func TestDemoAlertsEndToEnd(t *testing.T) {
+	sc := demo.Generate(demo.SmallConfig())
+
+	var mu sync.Mutex
+	var hooked []string
+	calls := 0
+	hook := httptest.NewServer(http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		mu.Lock()
+		defer mu.Unlock()
+		calls++
+		if calls <= 2 {
+			http.Error(w, "not yet", http.StatusServiceUnavailable)
+			return
+		}
+		var a alertReply
+		body, _ := io.ReadAll(r.Body)
+		if err := json.Unmarshal(body, &a); err != nil || a.ID == "" || r.Header.Get("Orbitwatch-Alert-Id") != a.ID {
+			http.Error(w, "bad alert", http.StatusBadRequest)
+			return
+		}
+		hooked = append(hooked, a.ID)
+	}))
+	defer hook.Close()
+
+	c := startDemo(t, "--webhook", hook.URL)
+	nc, err := nats.Connect(c.waitFor(t, "NATS "))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer nc.Close()
+	var busMu sync.Mutex
+	var onBus []string
+	sub, err := nc.Subscribe(shard.AlertsSubject(shard.DefaultSubject), func(m *nats.Msg) {
+		var a alertReply
+		if json.Unmarshal(m.Data, &a) == nil {
+			busMu.Lock()
+			onBus = append(onBus, a.ID)
+			busMu.Unlock()
+		}
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer sub.Unsubscribe()
+	base := waitStory(t, c, sc)
+
+	var got struct{ Alerts []alertReply }
+	if code := getJSON(t, base+"/v1/alerts?limit=1000", &got); code != http.StatusOK || len(got.Alerts) == 0 {
+		t.Fatalf("/v1/alerts: status %d, %d alerts", code, len(got.Alerts))
+	}
+	for i := 1; i < len(got.Alerts); i++ {
+		if got.Alerts[i].Seq > got.Alerts[i-1].Seq {
+			t.Fatalf("alerts not newest first: seq %d after %d", got.Alerts[i].Seq, got.Alerts[i-1].Seq)
+		}
+	}
+	for _, p := range sc.Patterns {
+		var on []alertReply
+		for _, a := range got.Alerts {
+			if slices.Contains(p.Nodes, a.Node) {
+				on = append(on, a)
+			}
+		}
+		if p.Quiet {
+			if len(on) != 0 {
+				t.Errorf("quiet %s %v: alerts %+v", p.Name, p.Nodes, on)
+			}
+			continue
+		}
+		found := false
+		for _, a := range on {
+			found = found || slices.Contains(p.Expect, a.Node)
+		}
+		if !found {
+			t.Errorf("%s: no alert on %v (alerts on its nodes: %+v)", p.Name, p.Expect, on)
+		}
+	}
+	// Filters: by node and by rule, and since a cut.
+	mule := sc.Pattern("fan-out").Expect[0]
+	var byNode struct{ Alerts []alertReply }
+	getJSON(t, base+"/v1/alerts?node="+url.QueryEscape(mule), &byNode)
+	if len(byNode.Alerts) == 0 || slices.ContainsFunc(byNode.Alerts, func(a alertReply) bool { return a.Node != mule }) {
+		t.Fatalf("alerts of node %s: %+v", mule, byNode.Alerts)
+	}
+	var byRule struct{ Alerts []alertReply }
+	getJSON(t, base+"/v1/alerts?rule=clique", &byRule)
+	if len(byRule.Alerts) == 0 || slices.ContainsFunc(byRule.Alerts, func(a alertReply) bool { return a.Rule != "clique" }) {
+		t.Fatalf("alerts of rule clique: %+v", byRule.Alerts)
+	}
+	last := got.Alerts[0].Seq
+	var since struct{ Alerts []alertReply }
+	getJSON(t, fmt.Sprintf("%s/v1/alerts?since=%d", base, last), &since)
+	if len(since.Alerts) != 0 {
+		t.Fatalf("alerts since the last alert's cut %d: %+v", last, since.Alerts)
+	}
+	if code := getJSON(t, base+"/v1/alerts?limit=0", &since); code != http.StatusBadRequest {
+		t.Fatalf("limit=0: status %d, want 400", code)
+	}
+
+	// History: the last version is the node's current vector.
+	var node nodeReply
+	getJSON(t, base+"/v1/nodes/"+mule, &node)
+	var hist struct {
+		Versions []struct {
+			Seq    uint64   `json:"seq"`
+			Orbits []uint64 `json:"orbits"`
+		}
+	}
+	if code := getJSON(t, base+"/v1/nodes/"+mule+"/history", &hist); code != http.StatusOK || len(hist.Versions) < 2 {
+		t.Fatalf("history of %s: status %d, %d versions", mule, code, len(hist.Versions))
+	}
+	if v := hist.Versions[len(hist.Versions)-1]; !slices.Equal(v.Orbits, node.Orbits) {
+		t.Fatalf("last history version %v, node read %v", v.Orbits, node.Orbits)
+	}
+	if hist.Versions[0].Orbits[0] >= node.Orbits[0] {
+		t.Fatalf("the mule's first version has %d edges, its last %d: want growth", hist.Versions[0].Orbits[0], node.Orbits[0])
+	}
+	if code := getJSON(t, base+"/v1/nodes/acct-nobody/history", &hist); code != http.StatusNotFound {
+		t.Fatalf("history of an unknown node: status %d, want 404", code)
+	}
+	// Neighbours: the mule pays 1 + 3 + 30 households (bench/demo).
+	var nb shard.Neighbors
+	if code := getJSON(t, base+"/v1/nodes/"+mule+"/neighbors?limit=10", &nb); code != http.StatusOK || nb.Degree != 34 || len(nb.Neighbors) != 10 {
+		t.Fatalf("neighbours of %s: status %d, %+v", mule, code, nb)
+	}
+	ring := sc.Pattern("ring")
+	getJSON(t, base+"/v1/nodes/"+ring.Expect[0]+"/neighbors", &nb)
+	if nb.Degree != 5 || len(nb.Edges) != 0 {
+		t.Fatalf("ring sender %s: %+v, want 5 receivers with no edges among them", ring.Expect[0], nb)
+	}
+	cl := sc.Pattern("clique")
+	getJSON(t, base+"/v1/nodes/"+cl.Nodes[0]+"/neighbors", &nb)
+	if nb.Degree != 4 || len(nb.Edges) != 6 {
+		t.Fatalf("clique member %s: %+v, want 4 neighbours with all 6 edges among them", cl.Nodes[0], nb)
+	}
+
+	// Bus and webhook: every stored alert, by id.
+	ids := make([]string, len(got.Alerts))
+	for i, a := range got.Alerts {
+		ids[i] = a.ID
+	}
+	slices.Sort(ids)
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		mu.Lock()
+		h := slices.Sorted(slices.Values(hooked))
+		n := calls
+		mu.Unlock()
+		if slices.Equal(h, ids) {
+			if n < len(ids)+2 {
+				t.Fatalf("%d webhook calls for %d alerts: the two refusals were not retried", n, len(ids))
+			}
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("webhook got %d alerts in %d calls, the API lists %d", len(h), n, len(ids))
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	busMu.Lock()
+	for _, id := range onBus {
+		if _, ok := slices.BinarySearch(ids, id); !ok {
+			t.Errorf("alert %s on the bus is not in /v1/alerts", id)
+		}
+	}
+	nBus := len(onBus)
+	busMu.Unlock()
+	if nBus == 0 {
+		t.Errorf("no alert seen on %s", shard.AlertsSubject(shard.DefaultSubject))
+	}
+	c.stop(t)
+}
+
+// chromiumPath finds Debian's chromium; the test fails without it.
+func chromiumPath(t *testing.T) string {
+	t.Helper()
+	for _, name := range []string{"chromium", "chromium-browser"} {
+		if p, err := exec.LookPath(name); err == nil {
+			return p
+		}
+	}
+	t.Fatal("chromium not found on PATH: install Debian's chromium package (apt-get install -y chromium); CI installs it")
+	return ""
+}
+
+// headless runs chromium on u at 1280×800 with the given output flag.
+func headless(t *testing.T, out string, u string) []byte {
+	t.Helper()
+	cmd := exec.Command(chromiumPath(t), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+		"--disable-background-networking", "--disable-component-update", "--disable-sync", "--user-data-dir="+t.TempDir(),
+		"--window-size=1280,800", "--virtual-time-budget=8000", out, u)
+	var stdout, stderr strings.Builder
+	cmd.Stdout, cmd.Stderr = &stdout, &stderr
+	done := make(chan error, 1)
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	go func() { done <- cmd.Wait() }()
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Fatalf("chromium %s: %v\n%s", out, err, stderr.String())
+		}
+	case <-time.After(90 * time.Second):
+		cmd.Process.Kill()
+		t.Fatalf("chromium %s did not finish:\n%s", out, stderr.String())
+	}
+	return []byte(stdout.String())
+}
+
+// TestDemoPage loads the web page of a played demo in headless Chromium
+// with the mule named in the URL fragment and checks the dumped DOM: a
+// bar per orbit in the signature chart, history series, the neighbourhood
+// drawing, the node's alerts and the recent alerts, the shard status. It
+// also takes a screenshot (kept at $ORBITWATCH_SCREENSHOT when set).
+func TestDemoPage(t *testing.T) {
+	sc := demo.Generate(demo.SmallConfig())
+	c := startDemo(t)
+	base := waitStory(t, c, sc)
+	mule := sc.Pattern("fan-out").Expect[0]
+	page := base + "/#node=" + url.QueryEscape(mule)
+	dom := string(headless(t, "--dump-dom", page))
+	count := func(re string) int { return len(regexp.MustCompile(re).FindAllStringIndex(dom, -1)) }
+	checks := []struct {
+		what string
+		re   string
+		min  int
+	}{
+		{"signature bars (15 orbits)", `<g class="orbit-bar" data-orbit="\d+">`, 15},
+		{"bar rectangles", `<rect class="bar"`, 15},
+		{"history series", `<path class="series" data-orbit="\d+"`, 1},
+		{"neighbour dots", `<circle class="nbr"`, 24},
+		{"the node's alerts", `(?s)id="node-alert-list".*?<li class="alert" data-rule="fan-out"`, 1},
+		{"recent alerts", `(?s)id="recent".*?<li class="alert"`, 1},
+		{"shard status", `class="shard-status"`, 1},
+		{"node title", `<h2 id="node-title">` + regexp.QuoteMeta(mule) + `</h2>`, 1},
+	}
+	for _, ch := range checks {
+		if n := count(ch.re); n < ch.min {
+			t.Errorf("%s: %d matches of %s, want ≥ %d", ch.what, n, ch.re, ch.min)
+		}
+	}
+	if n := count(`<g class="orbit-bar"`); n != 15 {
+		t.Errorf("%d signature bars, want one per orbit (15)", n)
+	}
+	if t.Failed() {
+		t.Logf("DOM:\n%s", dom)
+	}
+	shot := filepath.Join(t.TempDir(), "page.png")
+	if p := os.Getenv("ORBITWATCH_SCREENSHOT"); p != "" {
+		shot = p
+	}
+	headless(t, "--screenshot="+shot, page)
+	if fi, err := os.Stat(shot); err != nil || fi.Size() < 10000 {
+		t.Fatalf("screenshot %s: %v", shot, err)
+	}
+	c.stop(t)
+}
