@@ -11,19 +11,20 @@ import (
 // Layout of halo.mask: bit q says S[q]→x (undirected: S[q]—x), bit
 // inShift+q says x→S[q], and member says x is in S.
 const (
-	inShift = maxNodes
-	posMask = 1<<maxNodes - 1
-	member  = 1 << 15
-	// loadChunk is the least free room load offers the bitmap iterator.
-	loadChunk = 64
-	seedBits  = 3 | 3<<inShift // the bits that join x to S[0] = u or S[1] = v
+	inShift  = maxNodes
+	posMask  = 1<<maxNodes - 1
+	member   = 1 << 15
+	seedBits = 3 | 3<<inShift // the bits that join x to S[0] = u or S[1] = v
 )
+
+// loadChunk is the least free room load offers the bitmap iterator.
+const loadChunk = 64
 
 // halo is the scratch state of one edge change: the current node set S
 // (nodes[:depth], u at 0 and v at 1) and, per graph node x, the positions
-// of S it is joined to, in mask[x]. One array keeps the masks of a node in
-// one cache line. Outside an event every mask is zero, so an event costs
-// only the nodes it touches.
+// of S it is joined to, in mask[x]: one uint16 per node holds all of them,
+// so a node's relation to S is one memory read. Outside an event every
+// mask is zero, so an event costs only the nodes it touches.
 type halo struct {
 	t     *tables
 	mask  []uint16
