@@ -47,11 +47,11 @@ func getJSON(t *testing.T, u string, into any) int {
 	return resp.StatusCode
 }
 
-// startDemo starts `orbitwatch demo --small` on random ports with extra
-// flags.
-func startDemo(t *testing.T, extra ...string) *child {
+// startDemo starts `orbitwatch demo --small` on random ports with its
+// data in data and extra flags.
+func startDemo(t *testing.T, data string, extra ...string) *child {
 	t.Helper()
-	args := append([]string{"demo", "--small", "--rate", "1000", "--http", "127.0.0.1:0", "--data", filepath.Join(t.TempDir(), "demo")}, extra...)
+	args := append([]string{"demo", "--small", "--rate", "1000", "--http", "127.0.0.1:0", "--data", data}, extra...)
 	return startChild(t, args...)
 }
 
@@ -104,7 +104,8 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 	}))
 	defer hook.Close()
 
-	c := startDemo(t, "--webhook", hook.URL)
+	data := filepath.Join(t.TempDir(), "demo")
+	c := startDemo(t, data, "--webhook", hook.URL)
 	nc, err := nats.Connect(c.waitFor(t, "NATS "))
 	if err != nil {
 		t.Fatal(err)
@@ -250,6 +251,18 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 		t.Errorf("no alert seen on %s", shard.AlertsSubject(shard.DefaultSubject))
 	}
 	c.stop(t)
+
+	// Again on the same data: the story is republished under the same
+	// event ids, so nothing new is stored; the worker restores its alert
+	// state from the checkpoint and lists the same alerts, none twice.
+	c = startDemo(t, data)
+	base = waitStory(t, c, sc)
+	var again struct{ Alerts []alertReply }
+	getJSON(t, base+"/v1/alerts?limit=1000", &again)
+	if !slices.Equal(again.Alerts, got.Alerts) {
+		t.Fatalf("after a restart %d alerts, before %d", len(again.Alerts), len(got.Alerts))
+	}
+	c.stop(t)
 }
 
 // chromiumPath finds Debian's chromium; the test fails without it.
@@ -296,7 +309,7 @@ func headless(t *testing.T, out string, u string) []byte {
 // also takes a screenshot (kept at $ORBITWATCH_SCREENSHOT when set).
 func TestDemoPage(t *testing.T) {
 	sc := demo.Generate(demo.SmallConfig())
-	c := startDemo(t)
+	c := startDemo(t, filepath.Join(t.TempDir(), "demo"))
 	base := waitStory(t, c, sc)
 	mule := sc.Pattern("fan-out").Expect[0]
 	page := base + "/#node=" + url.QueryEscape(mule)
