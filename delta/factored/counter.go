@@ -7,13 +7,18 @@ import (
 	"orbitwatch/delta"
 )
 
-// node holds the maintained quantities of one node. All of them change
-// only for u, v, their common neighbours or their neighbours when an edge
-// uv comes or goes (see update).
+// node holds the maintained quantities of one node that its neighbours'
+// reads need too; four holds those only its own read needs. Split so that
+// a read's neighbour visits touch 24-byte records. All of them change only
+// for u, v, their common neighbours or their neighbours when an edge uv
+// comes or goes (see update).
 type node struct {
 	deg int64 // d(x)
 	s1  int64 // Σ_{y∈N(x)} d(y)
 	tri int64 // t(x), triangles at x
+}
+
+type four struct {
 	k4  int64 // K4s at x
 	cyc int64 // 4-cycles through x, as subgraphs (not necessarily induced)
 	dd2 int64 // diamonds with x at a degree-2 node, as subgraphs
@@ -40,6 +45,7 @@ type Counter struct {
 	orbits   int
 	eq       *overlap
 	nodes    []node
+	four     []four
 	adj      []adjacency
 	// marks[0] and marks[1] are bitsets of N(u)\{v} and N(v)\{u} during
 	// an update, all zero between updates: 2 bits a node (50 KB for 200k
@@ -84,6 +90,7 @@ func (c *Counter) NumOrbits() int { return c.orbits }
 func (c *Counter) grow(n int) {
 	for len(c.nodes) < n {
 		c.nodes = append(c.nodes, node{})
+		c.four = append(c.four, four{})
 		c.adj = append(c.adj, adjacency{})
 	}
 	for _, b := range []*[]uint64{&c.marks[0], &c.marks[1], &c.sources, &c.halo} {

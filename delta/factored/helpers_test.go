@@ -83,21 +83,3 @@ func checkAll(t *testing.T, what string, c *Counter, g *delta.Graph) {
 		t.Fatalf("%s: node %d orbit %d: factored %d, brute %d", what, x, o, a, b)
 	}
 }
-
-// intersection returns |a ∩ b| of two increasing slices by merging.
-func intersection(a, b []uint32) int {
-	n, i, j := 0, 0, 0
-	for i < len(a) && j < len(b) {
-		switch {
-		case a[i] < b[j]:
-			i++
-		case a[i] > b[j]:
-			j++
-		default:
-			n++
-			i++
-			j++
-		}
-	}
-	return n
-}

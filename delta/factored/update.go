@@ -55,8 +55,8 @@ func (c *Counter) update(u, v uint32, s int64) {
 		} else {
 			p = c.cycles(v, u, 0, du, s)
 		}
-		nu.cyc += s * p
-		nv.cyc += s * p
+		c.four[u].cyc += s * p
+		c.four[v].cyc += s * p
 	}
 	c.edgeTriangles(u, v, s)
 	for side, x := range [2]uint32{u, v} {
@@ -130,21 +130,21 @@ func (c *Counter) diamonds(u, v uint32, span int64, s int64) {
 	k := int64(len(c.common))
 	var atU, atV, inside int64
 	for _, r := range c.common {
-		nr := &c.nodes[r]
-		nr.dd2 += s * (k - 1)
+		fr := &c.four[r]
+		fr.dd2 += s * (k - 1)
 		var kr int64
-		if nr.deg <= containsRatio*span {
+		if c.nodes[r].deg <= containsRatio*span {
 			for _, o := range c.adj[r].nbr {
 				b := c.bits(o)
 				if b == 0 {
 					continue
 				}
 				if b&inV != 0 {
-					c.nodes[o].dd2 += s
+					c.four[o].dd2 += s
 					atU++
 				}
 				if b&inU != 0 {
-					c.nodes[o].dd2 += s
+					c.four[o].dd2 += s
 					atV++
 				}
 				if b == both {
@@ -154,7 +154,7 @@ func (c *Counter) diamonds(u, v uint32, span int64, s int64) {
 		} else {
 			for _, o := range c.adj[u].nbr {
 				if o != v && c.has(r, o) {
-					c.nodes[o].dd2 += s
+					c.four[o].dd2 += s
 					atV++
 					if c.bits(o)&inV != 0 {
 						kr++
@@ -163,18 +163,18 @@ func (c *Counter) diamonds(u, v uint32, span int64, s int64) {
 			}
 			for _, o := range c.adj[v].nbr {
 				if o != u && c.has(r, o) {
-					c.nodes[o].dd2 += s
+					c.four[o].dd2 += s
 					atU++
 				}
 			}
 		}
-		nr.k4 += s * kr
+		fr.k4 += s * kr
 		inside += kr
 	}
-	c.nodes[u].dd2 += s * atU
-	c.nodes[v].dd2 += s * atV
-	c.nodes[u].k4 += s * inside / 2
-	c.nodes[v].k4 += s * inside / 2
+	c.four[u].dd2 += s * atU
+	c.four[v].dd2 += s * atV
+	c.four[u].k4 += s * inside / 2
+	c.four[v].k4 += s * inside / 2
 }
 
 // cycles counts the 4-cycles x–other–b–a–x of G⁻ from x's side: a ∈
@@ -192,19 +192,19 @@ func (c *Counter) cycles(x, other uint32, want int, dOther int64, s int64) int64
 		if c.nodes[a].deg > containsRatio*dOther {
 			for _, b := range c.adj[other].nbr {
 				if b != x && c.has(a, b) {
-					c.nodes[b].cyc += s
+					c.four[b].cyc += s
 					m++
 				}
 			}
 		} else {
 			for _, b := range c.adj[a].nbr {
 				if mark[b>>6]>>(b&63)&1 != 0 {
-					c.nodes[b].cyc += s
+					c.four[b].cyc += s
 					m++
 				}
 			}
 		}
-		c.nodes[a].cyc += s * m
+		c.four[a].cyc += s * m
 		total += m
 	}
 	return total

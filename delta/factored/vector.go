@@ -60,11 +60,12 @@ func (c *Counter) fourNode(x uint32, n []int64) {
 	n[5] = (d-1)*(nx.s1-d) - 2*t
 	n[6] = leaf
 	n[7] = d * (d - 1) * (d - 2) / 6
-	n[8] = nx.cyc
+	fx := &c.four[x]
+	n[8] = fx.cyc
 	n[9] = tails - 2*t
 	n[10] = tail2
 	n[11] = t * (d - 2)
-	n[12] = nx.dd2
+	n[12] = fx.dd2
 	n[13] = dia3
-	n[14] = nx.k4
+	n[14] = fx.k4
 }
