@@ -70,7 +70,9 @@ const ShardHeader = "Orbitwatch-Shard"
 //
 // Every answer but /metrics is JSON; errors are {"error":"…"} with a
 // fitting status. The id is one path segment, URL-escaped ("a%2Fb" is the
-// id "a/b"; an unescaped "/" is kept as part of the id too). A node owned by
+// id "a/b"; an unescaped "/" is kept as part of the id too, but "//" and
+// "." or ".." segments are cleaned away by the router unless escaped: the
+// ids "." and ".." are read as %2E and %2E%2E). A node owned by
 // another shard is read through v.Read, which forwards it.
 func NewAPI(v View, opts APIOptions) http.Handler {
 	if opts.Metrics == nil {
@@ -217,7 +219,7 @@ func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id,
 		writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("node %q was forwarded here but shard %d owns it: the shards disagree on the shard count", id, owner))
 		return
 	}
-	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", url.PathEscape(id)+suffix)
+	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", escapeID(id)+suffix)
 	if err != nil {
 		writeError(w, http.StatusInternalServerError, fmt.Sprintf("address of shard %d: %v", owner, err))
 		return
@@ -250,6 +252,16 @@ func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id,
 	w.Header().Set(ShardHeader, resp.Header.Get(ShardHeader))
 	w.WriteHeader(resp.StatusCode)
 	w.Write(body)
+}
+
+// escapeID escapes a node id as one path segment. url.PathEscape leaves
+// the ids "." and ".." as they are, which path cleaning would then remove
+// (with a redirect); their dots are escaped too.
+func escapeID(id string) string {
+	if id == "." || id == ".." {
+		return strings.ReplaceAll(id, ".", "%2E")
+	}
+	return url.PathEscape(id)
 }
 
 // maxForwardBody bounds a relayed answer: a 730-orbit vector of 20-digit

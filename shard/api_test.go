@@ -401,7 +401,8 @@ func TestAPIForwardsToOwnerAndReadsAsOf(t *testing.T) {
 }
 
 func TestAPISeqReadsForwardOverHTTP(t *testing.T) {
-	events := paymentsLog(2, 300)
+	events := paymentsLog(2, 298)
+	events = append(events, pay(stream.OpAdd, ".", "..", 298), pay(stream.OpAdd, "..", "acct-001", 299))
 	views, snaps := buildShards(t, 2, events, []uint64{150, 300})
 	servers := make([]*httptest.Server, 2)
 	peers := make([]string, 2)
@@ -435,6 +436,22 @@ func TestAPISeqReadsForwardOverHTTP(t *testing.T) {
 			}
 			if b.Seq != 150 || !slices.Equal(b.Orbits, want) {
 				t.Fatalf("shard %d %q?seq=200: seq %d %v, want 150 %v", i, node, b.Seq, b.Orbits, want)
+			}
+		}
+	}
+	// The ids "." and ".." survive the router and the forwarding when
+	// escaped: of the two servers asked, one owns the node and one forwards.
+	for _, id := range []string{".", ".."} {
+		for i := range servers {
+			resp, err := http.Get(servers[i].URL + "/v1/nodes/" + escapeID(id) + "?seq=300")
+			if err != nil {
+				t.Fatal(err)
+			}
+			body, _ := io.ReadAll(resp.Body)
+			resp.Body.Close()
+			var b nodeJSON
+			if resp.StatusCode != http.StatusOK || json.Unmarshal(body, &b) != nil || b.Node != id || !slices.Equal(b.Orbits, snaps[1].vectors[id]) {
+				t.Errorf("shard %d, id %q: %d %s, want %v", i, id, resp.StatusCode, body, snaps[1].vectors[id])
 			}
 		}
 	}
