@@ -76,7 +76,7 @@ type snapshot struct {
 // buildShards applies events (one per log position from 1) and commits a
 // checkpoint to every shard's store at each position in cuts, returning
 // the views and the applier's vectors at each checkpoint.
-func buildShards(t *testing.T, n int, events []stream.Event, cuts []uint64) ([]*storeView, []snapshot) {
+func buildShards(t testing.TB, n int, events []stream.Event, cuts []uint64) ([]*storeView, []snapshot) {
 	t.Helper()
 	c, err := NewCounting(delta.Undirected, 4)
 	if err != nil {
@@ -592,5 +592,25 @@ func TestAPIStatusReadyzAndMetrics(t *testing.T) {
 	}
 	if !reflect.DeepEqual(fams["orbitwatch_events_rejected_total"].samples[0].labels, map[string]string{"reason": "self-loop"}) {
 		t.Errorf("reject labels %v", fams["orbitwatch_events_rejected_total"].samples[0].labels)
+	}
+}
+
+// BenchmarkAPINodeRead measures one GET /v1/nodes/{id} of a locally owned
+// node through the handler (routing, a Badger read at the last cut, JSON).
+func BenchmarkAPINodeRead(b *testing.B) {
+	views, snaps := buildShards(b, 1, paymentsLog(4, 2000), []uint64{1000, 2000})
+	h := NewAPI(views[0], APIOptions{})
+	var paths []string
+	for node := range snaps[1].vectors {
+		paths = append(paths, nodePath(node))
+	}
+	slices.Sort(paths)
+	b.ReportAllocs()
+	for i := 0; b.Loop(); i++ {
+		rec := httptest.NewRecorder()
+		h.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, paths[i%len(paths)], nil))
+		if rec.Code != http.StatusOK {
+			b.Fatalf("%s: %d %s", paths[i%len(paths)], rec.Code, rec.Body)
+		}
 	}
 }
