@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"runtime"
+	"slices"
 	"sync"
 	"testing"
 
@@ -105,6 +106,16 @@ func BenchmarkFactored(b *testing.B) {
 		}
 		benchReads(b, c, g, nodes)
 		b.ReportMetric(float64(len(nodes))/events, "halo/event")
+		sizes := make([]int, 0, 512)
+		for _, e := range sample[:cap(sizes)] {
+			halo.Clear()
+			c.Halo(g, e[0], e[1], halo)
+			sizes = append(sizes, int(halo.GetCardinality()))
+		}
+		slices.Sort(sizes)
+		b.ReportMetric(float64(sizes[len(sizes)/2]), "halo-p50")
+		b.ReportMetric(float64(sizes[len(sizes)*9/10]), "halo-p90")
+		b.ReportMetric(float64(sizes[len(sizes)-1]), "halo-max")
 	})
 	b.Run("derive-all", func(b *testing.B) {
 		buf := make([]uint64, 0, maxOrbits)

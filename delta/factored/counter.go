@@ -108,15 +108,22 @@ func (c *Counter) find(x, y uint32) (int, bool) {
 	return slices.BinarySearch(c.adj[x].nbr, y)
 }
 
+// maxDegree bounds the degrees a Counter accepts: with d ≤ 2^20 every
+// pattern count (at most d·d_max², e.g. 4-path ends) fits in int64.
+const maxDegree = 1 << 20
+
 // Insert updates the counts for inserting uv. Same preconditions as
 // delta.Engine.Insert: g is Undirected and lacks uv, u != v, both nodes
 // exist in g. g is not modified and the caller links uv in it as usual;
 // the Counter tracks the edge in its own adjacency, so it panics when it
-// already has uv.
+// already has uv, and when a degree would pass 2^20.
 func (c *Counter) Insert(g *delta.Graph, u, v uint32) {
 	c.grow(g.NumNodes())
 	if _, ok := c.find(u, v); ok || u == v || int(max(u, v)) >= len(c.nodes) {
 		panic("factored: Insert of a self-loop, present edge or unknown node")
+	}
+	if max(c.nodes[u].deg, c.nodes[v].deg) >= maxDegree {
+		panic("factored: degree would pass 2^20, counts could overflow int64")
 	}
 	c.update(u, v, 1)
 }
