@@ -12,9 +12,11 @@
 //
 // Writes are cheap and reads cost O(deg x): the trade-off against the eager
 // engine of delta/undirected, which materialises every vector, is measured
-// in this package's benchmarks (DESIGN.md §7). Touched reports the halo of
-// an event, the nodes whose vectors may have changed, so a checkpoint can
-// derive exactly those.
+// in this package's benchmarks (DESIGN.md §7). Touched names the nodes
+// whose vectors may have changed since the last cut, expanded once per
+// batch, so a checkpoint derives exactly those; Halo gives one event's.
+// The Counter keeps its own sorted copy of the adjacency, with the
+// triangle count of every edge beside it.
 //
 // It is not for directed graphs, for 5-node graphlets, or for storing
 // vectors with their history (the caller derives and stores them), and a
