@@ -7,7 +7,7 @@
   let catalog = null;      // {orbits: [{id, name, graphlet}]}
   let current = null;      // node id shown
   let chosen = new Set();  // orbit ids in the history chart
-  let lastVector = null;
+  const rulesSeen = new Set(); // rule names offered in the recent-alerts filter
 
   function el(tag, attrs, text) {
     const e = tag.startsWith("svg:") ? document.createElementNS(NS, tag.slice(4)) : document.createElement(tag);
@@ -134,7 +134,6 @@
     $("node-meta").textContent = "loading…";
     try {
       const v = await getJSON("/v1/nodes/" + enc(id));
-      lastVector = v.orbits;
       $("node-meta").textContent = `cut ${v.seq} · event time ${fmtTime(v.event_time)} · ${v.kind}, graphlets up to ${v.max_nodes} nodes`;
       $("sig-chart").replaceChildren(signatureChart(v.orbits));
       if (chosen.size === 0) {
@@ -200,7 +199,14 @@
 
   async function pollAlerts() {
     try {
-      const r = await getJSON("/v1/alerts?limit=25");
+      const rule = $("rule-filter").value;
+      const r = await getJSON("/v1/alerts?limit=25" + (rule ? "&rule=" + enc(rule) : ""));
+      for (const al of r.alerts) {
+        if (!rulesSeen.has(al.rule)) {
+          rulesSeen.add(al.rule);
+          $("rule-filter").append(el("option", {value: al.rule}, al.rule));
+        }
+      }
       $("recent").replaceChildren(...r.alerts.map((a) => alertItem(a, true)));
       if (r.alerts.length === 0) $("recent").append(el("li", {class: "none muted"}, "no alerts yet"));
     } catch (e) {
@@ -241,6 +247,7 @@
   });
   window.addEventListener("hashchange", fromHash);
 
+  $("rule-filter").addEventListener("change", pollAlerts);
   getJSON("/v1/catalog").then((c) => { catalog = c; }).catch(() => {}).finally(() => {
     fromHash();
     pollAlerts();
