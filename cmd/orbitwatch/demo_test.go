@@ -350,3 +350,17 @@ func TestDemoPage(t *testing.T) {
 	}
 	c.stop(t)
 }
+
+// TestServeAlertsFlag: serve refuses a rules file with a mistake, naming
+// the file and the line, and exits with 1.
+func TestServeAlertsFlag(t *testing.T) {
+	dir := t.TempDir()
+	bad := filepath.Join(dir, "rules.yaml")
+	if err := os.WriteFile(bad, []byte("baseline: lookback\nrules:\n  - name: ring\n    kind: orbit-count\n    orbit: 5-cycle\n    fire: 8\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, code := run(t, "serve", "--data", filepath.Join(dir, "data"), "--nats-listen", "127.0.0.1:0", "--http", "127.0.0.1:0", "--alerts", bad)
+	if code != 1 || !strings.Contains(out, "rules.yaml") || !strings.Contains(out, "line 5") {
+		t.Fatalf("serve with a bad rules file: exit %d\n%s", code, out)
+	}
+}
