@@ -42,15 +42,8 @@ func TestWorkersAlertOnOwnedNodes(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: "DEMO", Subject: "demo.events", Shard: i, Shards: shards, Batch: 64, Counting: c, Store: st,
-			Alerts: alert.New(cfg, c.Catalog)})
-		if err != nil {
-			t.Fatal(err)
-		}
-		ctx, cancel := context.WithCancel(context.Background())
-		rw := &runningWorker{w: w, st: st, cancel: cancel, done: make(chan error, 1)}
-		go func() { rw.done <- w.Run(ctx) }()
-		ws = append(ws, rw)
+		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: "DEMO", Subject: "demo.events", Shard: i, Shards: shards, Batch: 64, Counting: c, Store: st,
+			Alerts: alert.New(cfg, c.Catalog)}))
 	}
 	waitCut(t, ws, uint64(len(log)))
 

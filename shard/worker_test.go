@@ -168,16 +168,22 @@ func startDeployment(t *testing.T, url, name, subject, deployment string, c0 *Co
 		if err != nil {
 			t.Fatal(err)
 		}
-		w, err := NewWorker(WorkerConfig{Conn: nc, Stream: name, Subject: subject, Deployment: deployment, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st})
-		if err != nil {
-			t.Fatal(err)
-		}
-		ctx, cancel := context.WithCancel(context.Background())
-		rw := &runningWorker{w: w, st: st, cancel: cancel, done: make(chan error, 1)}
-		go func() { rw.done <- w.Run(ctx) }()
-		ws = append(ws, rw)
+		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: name, Subject: subject, Deployment: deployment, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st}))
 	}
 	return ws
+}
+
+// runWorker makes the worker of cfg and runs it until stop.
+func runWorker(t *testing.T, cfg WorkerConfig) *runningWorker {
+	t.Helper()
+	w, err := NewWorker(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	rw := &runningWorker{w: w, st: cfg.Store, cancel: cancel, done: make(chan error, 1)}
+	go func() { rw.done <- w.Run(ctx) }()
+	return rw
 }
 
 func (rw *runningWorker) stop(t *testing.T) {
