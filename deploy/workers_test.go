@@ -62,6 +62,8 @@ func startWorkers(t *testing.T, c *cluster, n int) []*worker {
 			w.cmd.Process.Signal(syscall.SIGKILL)
 			<-w.done
 			if t.Failed() {
+				// ORBITWATCH_DEPLOY_DUMP=DIR keeps each worker's whole
+				// output, stacks included, as DIR/worker-<shard>.txt.
 				if dump := os.Getenv("ORBITWATCH_DEPLOY_DUMP"); dump != "" {
 					os.WriteFile(filepath.Join(dump, fmt.Sprintf("worker-%d.txt", i)), []byte(w.output()), 0o644)
 				}
