@@ -96,3 +96,75 @@ func TestWorkersAlertOnOwnedNodes(t *testing.T) {
 		rw.stop(t)
 	}
 }
+
+// BenchmarkAlertStageCut measures one cut's evaluation in the worker's
+// alert stage on the small demo scenario: the look-back read of every
+// touched node's baseline from Badger and the scoring of the demo rules.
+// The cut is the scenario's last structural change after the whole story,
+// committed cut by cut every 50 events before it; touched/cut reports the
+// nodes it scores.
+func BenchmarkAlertStageCut(b *testing.B) {
+	sc := demo.Generate(demo.SmallConfig())
+	c, err := NewCounting(delta.Undirected, 4)
+	if err != nil {
+		b.Fatal(err)
+	}
+	cfg, err := demo.AlertConfig(c.Catalog)
+	if err != nil {
+		b.Fatal(err)
+	}
+	st, err := storage.Open(b.TempDir(), storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: c.Catalog.NumOrbits()})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	a := NewApplier(c, 0)
+	stage := NewAlertStage(alert.New(cfg, c.Catalog))
+	last := len(sc.Events) - 1
+	for last > 0 && !structural(sc, last) {
+		last--
+	}
+	if last == 0 {
+		b.Fatal("no structural change in the scenario")
+	}
+	for i, e := range sc.Events[:last] {
+		seq := uint64(i + 1)
+		if err := a.Apply(seq, e); err != nil {
+			b.Fatal(err)
+		}
+		if seq%50 != 0 && i != last-1 {
+			continue
+		}
+		if _, err := stage.Evaluate(st, a, nil, alertCut(a, seq, time.Time{})); err != nil {
+			b.Fatal(err)
+		}
+		if err := st.Commit(a.Checkpoint(nil)); err != nil {
+			b.Fatal(err)
+		}
+		a.ResetTouched()
+	}
+	if err := a.Apply(uint64(last+1), sc.Events[last]); err != nil {
+		b.Fatal(err)
+	}
+	cut := alertCut(a, uint64(last+1), time.Time{})
+	b.ReportAllocs()
+	b.ResetTimer()
+	for range b.N {
+		if _, err := stage.Evaluate(st, a, nil, cut); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(len(a.Touched())), "touched/cut")
+}
+
+// structural reports whether event i of sc is the first payment between
+// its two nodes (a new edge of the simple graph).
+func structural(sc *demo.Scenario, i int) bool {
+	e := sc.Events[i]
+	for _, f := range sc.Events[:i] {
+		if f.Src == e.Src && f.Dst == e.Dst || f.Src == e.Dst && f.Dst == e.Src {
+			return false
+		}
+	}
+	return true
+}
