@@ -189,7 +189,7 @@ func publishRetry(ctx context.Context, js jetstream.JetStream, msg *nats.Msg, id
 			return nil
 		}
 		var apiErr *jetstream.APIError
-		if errors.As(err, &apiErr) && apiErr.Code != 503 {
+		if errors.As(err, &apiErr) && apiErr.Code != 503 || errors.Is(err, nats.ErrMaxPayload) || errors.Is(err, nats.ErrBadSubject) {
 			return fmt.Errorf("publish %s: %w", id, err)
 		}
 		if ctx.Err() != nil {

@@ -21,15 +21,20 @@ const shuffleVersion = 1
 //	uvarint  dictionary size at the batch end (every shard interns the
 //	         same ids in the same order, so dense ids agree; the owner
 //	         checks this)
+//	uvarint  part number, from 0: a message larger than the server's
+//	         maximum payload is sent in parts
+//	byte     1 on the last part, else 0
 //	uvarint  number of changes, then for each in increasing (node, orbit):
 //	uvarint  node (dense id), uvarint orbit, varint change (not 0)
 //
-// Its message id is shuffleID(stream, batch, origin, owner), so a resend
-// of the same batch is dropped by the server as a duplicate.
+// Its message id is shuffleID(deployment, batch, origin, owner, part), so a
+// resend of the same batch is dropped by the server as a duplicate.
 type shuffleMsg struct {
 	origin, owner int
 	batch         uint64
 	nodes         uint64
+	part          int
+	last          bool
 	changes       []change
 	streamSeq     uint64 // where the owner read it in the shuffle stream
 }
@@ -40,8 +45,8 @@ type change struct {
 	d     int64
 }
 
-func shuffleID(stream string, batch uint64, origin, owner int) string {
-	return fmt.Sprintf("%s/b%d/o%d/t%d", stream, batch, origin, owner)
+func shuffleID(deployment string, batch uint64, origin, owner, part int) string {
+	return fmt.Sprintf("%s/b%d/o%d/t%d/p%d", deployment, batch, origin, owner, part)
 }
 
 // sums holds summed orbit changes per (node, orbit) in a dense node-major
@@ -84,6 +89,7 @@ func (s *sums) next() { s.epoch++ }
 type outbox struct {
 	sums    sums
 	touched [][]uint32 // per owner, in order of first change
+	body    []byte
 }
 
 func newOutbox(shards, orbits int) *outbox {
@@ -97,38 +103,51 @@ func (b *outbox) add(owner int, x uint32, o int, d int64) {
 	}
 }
 
-// encode appends owner's message of this batch to dst and zeroes owner's
-// sums. Zero sums are left out. After every owner's message, call done.
-func (b *outbox) encode(dst []byte, origin, owner int, batch, nodes uint64) []byte {
+// encode returns owner's message of this batch, in parts whose change
+// lists stay within limit bytes (≥ 1), and zeroes owner's sums. Zero sums
+// are left out. After every owner's message, call done.
+func (b *outbox) encode(origin, owner int, batch, nodes uint64, limit int) [][]byte {
 	xs := b.touched[owner]
 	slices.Sort(xs)
+	var parts [][]byte
 	n := 0
-	for _, x := range xs {
-		for _, d := range b.sums.row(x) {
-			if d != 0 {
-				n++
-			}
+	b.body = b.body[:0]
+	flush := func(last bool) {
+		m := make([]byte, 0, 32+len(b.body))
+		m = append(m, shuffleVersion)
+		m = binary.AppendUvarint(m, uint64(origin))
+		m = binary.AppendUvarint(m, uint64(owner))
+		m = binary.AppendUvarint(m, batch)
+		m = binary.AppendUvarint(m, nodes)
+		m = binary.AppendUvarint(m, uint64(len(parts)))
+		if last {
+			m = append(m, 1)
+		} else {
+			m = append(m, 0)
 		}
+		m = binary.AppendUvarint(m, uint64(n))
+		parts = append(parts, append(m, b.body...))
+		b.body, n = b.body[:0], 0
 	}
-	dst = append(dst, shuffleVersion)
-	dst = binary.AppendUvarint(dst, uint64(origin))
-	dst = binary.AppendUvarint(dst, uint64(owner))
-	dst = binary.AppendUvarint(dst, batch)
-	dst = binary.AppendUvarint(dst, nodes)
-	dst = binary.AppendUvarint(dst, uint64(n))
 	for _, x := range xs {
 		row := b.sums.row(x)
 		for o, d := range row {
-			if d != 0 {
-				dst = binary.AppendUvarint(dst, uint64(x))
-				dst = binary.AppendUvarint(dst, uint64(o))
-				dst = binary.AppendVarint(dst, d)
+			if d == 0 {
+				continue
+			}
+			b.body = binary.AppendUvarint(b.body, uint64(x))
+			b.body = binary.AppendUvarint(b.body, uint64(o))
+			b.body = binary.AppendVarint(b.body, d)
+			n++
+			if len(b.body) >= limit {
+				flush(false)
 			}
 		}
 		clear(row)
 	}
+	flush(true)
 	b.touched[owner] = xs[:0]
-	return dst
+	return parts
 }
 
 // done ends the batch once every owner's message is encoded.
@@ -140,7 +159,13 @@ func decodeShuffle(b []byte) (shuffleMsg, error) {
 		return shuffleMsg{}, errors.New("not a version 1 shuffle message")
 	}
 	r := varintReader{b: b[1:]}
-	m := shuffleMsg{origin: int(r.uvarint()), owner: int(r.uvarint()), batch: r.uvarint(), nodes: r.uvarint()}
+	m := shuffleMsg{origin: int(r.uvarint()), owner: int(r.uvarint()), batch: r.uvarint(), nodes: r.uvarint(), part: int(r.uvarint())}
+	if r.err == nil {
+		if len(r.b) == 0 || r.b[0] > 1 {
+			return shuffleMsg{}, errors.New("shuffle message: bad last-part flag")
+		}
+		m.last, r.b = r.b[0] == 1, r.b[1:]
+	}
 	n := r.uvarint()
 	if r.err == nil && n > uint64(len(r.b)) {
 		return shuffleMsg{}, fmt.Errorf("shuffle message claims %d changes in %d bytes", n, len(r.b))

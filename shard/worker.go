@@ -6,7 +6,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -116,16 +115,17 @@ type Worker struct {
 	owners  []int32 // owning shard by dense node id, filled as ids appear
 	cut     uint64
 	origins []uint64
-	base    Stats                    // counts up to the cut this process started from
-	inbox   map[uint64][]*shuffleMsg // by batch end, one slot per origin
-	merged  sums                     // a batch's changes summed over origins
-	mergedX []uint32                 // the nodes with merged changes
+	base    Stats                 // counts up to the cut this process started from
+	inbox   map[uint64][]*arrived // by batch end, one slot per origin
+	merged  sums                  // a batch's changes summed over origins
+	mergedX []uint32              // the nodes with merged changes
 	shufNxt uint64
 
 	batchFirst time.Time // when the current batch's first message was read
 	lastRead   time.Time
 	pending    uint64
 	cutAsked   uint64
+	partLimit  int                    // tests: bytes of changes per shuffle part (0: from the server's maximum payload)
 	cutAck     jetstream.PubAckFuture // of the last cut request, until seen
 
 	startLast  atomic.Uint64 // the log's last seq when Run started; MaxUint64 before
@@ -192,7 +192,7 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 	if err != nil {
 		return nil, err
 	}
-	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards, cfg.Counting.Catalog.NumOrbits()), inbox: map[uint64][]*shuffleMsg{}, merged: newSums(cfg.Counting.Catalog.NumOrbits()),
+	w := &Worker{cfg: cfg, js: js, a: a, out: newOutbox(cfg.Shards, cfg.Counting.Catalog.NumOrbits()), inbox: map[uint64][]*arrived{}, merged: newSums(cfg.Counting.Catalog.NumOrbits()),
 		origins: make([]uint64, cfg.Shards), shufNxt: 1, started: time.Now(), nbrReq: make(chan neighborsReq), blobs: map[string][]byte{}}
 	if cfg.Alerts != nil {
 		w.alerts = NewAlertStage(cfg.Alerts)
@@ -463,16 +463,18 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 	// origin's part of a batch may take a count below zero that another
 	// origin's part raises again; only the whole batch's sum is a change
 	// between two true states.
-	for origin, m := range w.inbox[end] {
-		if m.nodes != nodes {
-			return fmt.Errorf("batch %d: shard %d knew %d nodes at the batch end, this shard %d: the shards disagree on the log", end, origin, m.nodes, nodes)
-		}
-		for _, c := range m.changes {
-			if int(c.node) >= int(nodes) || c.orbit >= w.merged.orbits {
-				return fmt.Errorf("batch %d from shard %d: change of node %d orbit %d out of range", end, origin, c.node, c.orbit)
+	for origin, in := range w.inbox[end] {
+		for _, m := range in.parts {
+			if m.nodes != nodes {
+				return fmt.Errorf("batch %d: shard %d knew %d nodes at the batch end, this shard %d: the shards disagree on the log", end, origin, m.nodes, nodes)
 			}
-			if w.merged.add(c.node, c.orbit, c.d) {
-				w.mergedX = append(w.mergedX, c.node)
+			for _, c := range m.changes {
+				if int(c.node) >= int(nodes) || c.orbit >= w.merged.orbits {
+					return fmt.Errorf("batch %d from shard %d: change of node %d orbit %d out of range", end, origin, c.node, c.orbit)
+				}
+				if w.merged.add(c.node, c.orbit, c.d) {
+					w.mergedX = append(w.mergedX, c.node)
+				}
 			}
 		}
 		w.origins[origin] = end
@@ -502,57 +504,81 @@ func (w *Worker) endBatch(ctx context.Context, end uint64, readAt time.Time, shu
 	return nil
 }
 
-// send publishes this shard's message of batch end to every owner: all at
-// once, then waits for their acks; one that fails is sent again until the
-// server takes it (its id makes a second copy a duplicate).
+// send publishes this shard's message of batch end to every owner: all
+// parts at once, then waits for their acks; one that fails is sent again
+// until the server takes it (its id makes a second copy a duplicate).
 func (w *Worker) send(ctx context.Context, end, nodes uint64) error {
-	msgs := make([]*nats.Msg, w.cfg.Shards)
-	futs := make([]jetstream.PubAckFuture, w.cfg.Shards)
-	for owner := range w.cfg.Shards {
-		w.buf = w.out.encode(w.buf[:0], w.cfg.Shard, owner, end, nodes)
-		msgs[owner] = &nats.Msg{Subject: shuffleSubject(&w.cfg, owner), Data: slices.Clone(w.buf)}
-		futs[owner], _ = w.js.PublishMsgAsync(msgs[owner], jetstream.WithMsgID(shuffleID(w.cfg.Deployment, end, w.cfg.Shard, owner)))
+	type out struct {
+		msg *nats.Msg
+		id  string
+		fut jetstream.PubAckFuture
 	}
-	for owner, f := range futs {
-		if f != nil {
+	// Parts keep well under the server's maximum payload: a change is at
+	// most 20 bytes past the limit, the header under 64.
+	limit := max(int(w.cfg.Conn.MaxPayload())-4096, 1024)
+	if w.partLimit > 0 {
+		limit = w.partLimit
+	}
+	var outs []out
+	for owner := range w.cfg.Shards {
+		for part, data := range w.out.encode(w.cfg.Shard, owner, end, nodes, limit) {
+			o := out{msg: &nats.Msg{Subject: shuffleSubject(&w.cfg, owner), Data: data}, id: shuffleID(w.cfg.Deployment, end, w.cfg.Shard, owner, part)}
+			o.fut, _ = w.js.PublishMsgAsync(o.msg, jetstream.WithMsgID(o.id))
+			outs = append(outs, o)
+		}
+	}
+	for _, o := range outs {
+		if o.fut != nil {
 			select {
-			case <-f.Ok():
+			case <-o.fut.Ok():
 				continue
-			case <-f.Err():
+			case <-o.fut.Err():
 			case <-ctx.Done():
 				return ctx.Err()
 			}
 		}
-		if err := publishRetry(ctx, w.js, msgs[owner], shuffleID(w.cfg.Deployment, end, w.cfg.Shard, owner)); err != nil {
+		if err := publishRetry(ctx, w.js, o.msg, o.id); err != nil {
 			return err
 		}
 	}
 	return nil
 }
 
-// complete reports whether every origin's message of batch end is in.
+// arrived holds the parts of one origin's message of one batch.
+type arrived struct {
+	parts []*shuffleMsg // by part number; nil where not yet in
+	last  int           // the last part's number, -1 until it is in
+}
+
+// complete reports whether every origin's message of batch end is in,
+// all its parts.
 func (w *Worker) complete(end uint64) bool {
-	msgs := w.inbox[end]
-	if msgs == nil {
+	slots := w.inbox[end]
+	if slots == nil {
 		return false
 	}
-	for _, m := range msgs {
-		if m == nil {
+	for _, in := range slots {
+		if in == nil || in.last < 0 || len(in.parts) != in.last+1 {
 			return false
+		}
+		for _, m := range in.parts {
+			if m == nil {
+				return false
+			}
 		}
 	}
 	return true
 }
 
-// receive files one shuffle message by batch and origin. A message for a
-// batch already applied from its origin, or a second one for the same
-// slot, is a resend and is dropped; so is one that does not decode or is
-// not for this shard (after a note to Logf).
+// receive files one shuffle message by batch, origin and part. A message
+// for a batch already applied from its origin, or a second one for the
+// same part, is a resend and is dropped; so is one that does not decode or
+// is not for this shard (after a note to Logf).
 func (w *Worker) receive(m inMsg) {
 	w.shufNxt = m.seq + 1
 	sm, err := decodeShuffle(m.data)
-	if err == nil && (sm.owner != w.cfg.Shard || sm.origin >= w.cfg.Shards) {
-		err = fmt.Errorf("message from shard %d for shard %d", sm.origin, sm.owner)
+	if err == nil && (sm.owner != w.cfg.Shard || sm.origin >= w.cfg.Shards || sm.part > 1<<20) {
+		err = fmt.Errorf("message from shard %d for shard %d, part %d", sm.origin, sm.owner, sm.part)
 	}
 	if err != nil {
 		if w.cfg.Logf != nil {
@@ -565,14 +591,25 @@ func (w *Worker) receive(m inMsg) {
 	}
 	slots := w.inbox[sm.batch]
 	if slots == nil {
-		slots = make([]*shuffleMsg, w.cfg.Shards)
+		slots = make([]*arrived, w.cfg.Shards)
 		w.inbox[sm.batch] = slots
 	}
-	if slots[sm.origin] != nil {
+	in := slots[sm.origin]
+	if in == nil {
+		in = &arrived{last: -1}
+		slots[sm.origin] = in
+	}
+	if sm.part < len(in.parts) && in.parts[sm.part] != nil {
 		return
 	}
+	for len(in.parts) <= sm.part {
+		in.parts = append(in.parts, nil)
+	}
 	sm.streamSeq = m.seq
-	slots[sm.origin] = &sm
+	in.parts[sm.part] = &sm
+	if sm.last {
+		in.last = sm.part
+	}
 }
 
 // commit writes the cut: the applier's changes since the last cut and the
@@ -580,9 +617,14 @@ func (w *Worker) receive(m inMsg) {
 func (w *Worker) commit() error {
 	next := w.shufNxt
 	for _, slots := range w.inbox {
-		for _, m := range slots {
-			if m != nil {
-				next = min(next, m.streamSeq)
+		for _, in := range slots {
+			if in == nil {
+				continue
+			}
+			for _, m := range in.parts {
+				if m != nil {
+					next = min(next, m.streamSeq)
+				}
 			}
 		}
 	}

@@ -157,6 +157,10 @@ func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, win tim
 	return startDeployment(t, url, name, subject, "", c0, win, shards, dir)
 }
 
+// partLimit, when set, makes the tests' workers cut their shuffle
+// messages into parts of this many bytes of changes.
+var partLimit int
+
 func startDeployment(t *testing.T, url, name, subject, deployment string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
 	t.Helper()
 	var ws []*runningWorker
@@ -180,6 +184,7 @@ func runWorker(t *testing.T, cfg WorkerConfig) *runningWorker {
 	if err != nil {
 		t.Fatal(err)
 	}
+	w.partLimit = partLimit
 	ctx, cancel := context.WithCancel(context.Background())
 	rw := &runningWorker{w: w, st: cfg.Store, cancel: cancel, done: make(chan error, 1)}
 	go func() { rw.done <- w.Run(ctx) }()
@@ -403,6 +408,38 @@ func TestTwoDeploymentsFollowOneLog(t *testing.T) {
 		sameVectors(t, fmt.Sprintf("%d-shard deployment vs one applier", len(ws)), owned(t, ws, want), want)
 	}
 	for _, rw := range append(one, two...) {
+		rw.stop(t)
+	}
+}
+
+// TestWorkersWithShuffleParts: with shuffle messages cut into parts of 200
+// bytes of changes (as a big batch is cut under the server's maximum
+// payload), three workers still end at one applier's vectors.
+func TestWorkersWithShuffleParts(t *testing.T) {
+	partLimit = 200
+	t.Cleanup(func() { partLimit = 0 })
+	c := mustCounting(t, delta.Undirected, 4)
+	log := testLog(1500, 13)
+	want := reference(t, c, 0, log)
+	srv := startServer(t)
+	_, js := connect(t, srv.URL())
+	ws := startWorkers(t, srv.URL(), "PARTS", "parts.events", c, 0, 3, t.TempDir())
+	publishLog(t, js, "PARTS", "parts.events", log)
+	waitCut(t, ws, lastSeq(t, js, "PARTS"))
+	sameVectors(t, "workers with shuffle parts vs one applier", owned(t, ws, want), want)
+	s, err := js.Stream(context.Background(), "PARTS_SHUFFLE")
+	if err != nil {
+		t.Fatal(err)
+	}
+	info, err := s.Info(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Without parts there would be 3 × 3 messages per batch.
+	if batches := lastSeq(t, js, "PARTS") / 64; info.State.Msgs <= 9*batches {
+		t.Fatalf("%d shuffle messages for about %d batches: no message was cut into parts", info.State.Msgs, batches)
+	}
+	for _, rw := range ws {
 		rw.stop(t)
 	}
 }
