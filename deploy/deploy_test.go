@@ -167,10 +167,15 @@ func startCluster(t *testing.T) *cluster {
 		}
 		if t.Failed() {
 			for i, l := range c.logs {
-				if l != nil {
-					l.mu.Lock()
-					t.Logf("server %d log (tail):\n%s", i+1, tail(l.String(), 40))
-					l.mu.Unlock()
+				if l == nil {
+					continue
+				}
+				l.mu.Lock()
+				text := l.String()
+				l.mu.Unlock()
+				t.Logf("server %d log (tail):\n%s", i+1, tail(text, 40))
+				if dump := os.Getenv("ORBITWATCH_DEPLOY_DUMP"); dump != "" {
+					os.WriteFile(filepath.Join(dump, fmt.Sprintf("nats-%d.log", i+1)), []byte(text), 0o644)
 				}
 			}
 		}
