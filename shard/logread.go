@@ -110,34 +110,102 @@ type inMsg struct {
 	read    time.Time
 }
 
+// stallAfter is how long a reader waits for its next message while the
+// stream holds messages past it before it drops its consumer and makes a
+// new one: after a cluster server is killed, the client library's own
+// reset of an ordered consumer has been seen to stay stuck for minutes.
+const stallAfter = 3 * time.Second
+
 // follow reads stream name (only filter, when set) in order from sequence
 // start into out until ctx is done. A transport failure (a server restart,
-// a lost consumer) is retried from the next sequence after a pause, so out
-// sees every sequence once and in order.
+// a lost consumer) or a stalled consumer is retried from the next sequence
+// after a pause, so out sees every sequence once and in order.
 func follow(ctx context.Context, js jetstream.JetStream, name, filter string, start uint64, out chan<- inMsg) {
 	next := max(start, 1)
 	for ctx.Err() == nil {
-		cfg := jetstream.OrderedConsumerConfig{DeliverPolicy: jetstream.DeliverAllPolicy}
-		if next > 1 {
-			cfg.DeliverPolicy, cfg.OptStartSeq = jetstream.DeliverByStartSequencePolicy, next
-		}
-		if filter != "" {
-			cfg.FilterSubjects = []string{filter}
-		}
-		c, err := js.OrderedConsumer(ctx, name, cfg)
-		if err != nil {
-			pause(ctx, 200*time.Millisecond)
-			continue
-		}
-		it, err := c.Messages(jetstream.PullMaxMessages(2048))
-		if err != nil {
-			pause(ctx, 200*time.Millisecond)
-			continue
-		}
-		next = drain(ctx, it, next, out)
-		it.Stop()
+		rctx, cancel := context.WithCancel(ctx)
+		in := make(chan inMsg, 256)
+		done := make(chan struct{})
+		go func(from uint64) {
+			defer close(done)
+			readFrom(rctx, js, name, filter, from, in)
+		}(next)
+		next = forward(ctx, js, name, filter, next, in, done, out)
+		cancel()
 		pause(ctx, 100*time.Millisecond)
 	}
+}
+
+// readFrom makes one ordered consumer from sequence next and drains it into
+// in until it fails or ctx is done.
+func readFrom(ctx context.Context, js jetstream.JetStream, name, filter string, next uint64, in chan<- inMsg) {
+	cfg := jetstream.OrderedConsumerConfig{DeliverPolicy: jetstream.DeliverAllPolicy}
+	if next > 1 {
+		cfg.DeliverPolicy, cfg.OptStartSeq = jetstream.DeliverByStartSequencePolicy, next
+	}
+	if filter != "" {
+		cfg.FilterSubjects = []string{filter}
+	}
+	c, err := js.OrderedConsumer(ctx, name, cfg)
+	if err != nil {
+		pause(ctx, 200*time.Millisecond)
+		return
+	}
+	it, err := c.Messages(jetstream.PullMaxMessages(2048))
+	if err != nil {
+		pause(ctx, 200*time.Millisecond)
+		return
+	}
+	drain(ctx, it, next, in)
+	it.Stop()
+}
+
+// forward passes messages from one consumer's reader to out in sequence
+// order and returns the next sequence wanted when the reader ends, or when
+// it has delivered nothing for stallAfter although the stream has more.
+func forward(ctx context.Context, js jetstream.JetStream, name, filter string, next uint64, in <-chan inMsg, done <-chan struct{}, out chan<- inMsg) uint64 {
+	tick := time.NewTicker(time.Second)
+	defer tick.Stop()
+	last := time.Now()
+	for {
+		select {
+		case m := <-in:
+			if m.seq < next {
+				continue
+			}
+			select {
+			case out <- m:
+				next, last = m.seq+1, time.Now()
+			case <-ctx.Done():
+				return next
+			}
+		case <-done:
+			return next
+		case <-tick.C:
+			if time.Since(last) >= stallAfter && streamHasFrom(ctx, js, name, filter, next) {
+				return next
+			}
+		case <-ctx.Done():
+			return next
+		}
+	}
+}
+
+// streamHasFrom reports whether stream name holds a message at sequence
+// next or later (on filter, when set). Failures to ask count as no.
+func streamHasFrom(ctx context.Context, js jetstream.JetStream, name, filter string, next uint64) bool {
+	qctx, cancel := context.WithTimeout(ctx, 2*time.Second)
+	defer cancel()
+	st, err := js.Stream(qctx, name)
+	if err != nil {
+		return false
+	}
+	if filter == "" {
+		info, err := st.Info(qctx)
+		return err == nil && info.State.LastSeq >= next
+	}
+	m, err := st.GetLastMsgForSubject(qctx, filter)
+	return err == nil && m.Sequence >= next
 }
 
 // drain moves messages from it to out until an error, returning the next
