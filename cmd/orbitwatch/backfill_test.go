@@ -2,6 +2,7 @@ package main
 
 import (
 	"bufio"
+	"errors"
 	"bytes"
 	"fmt"
 	"math/rand/v2"
@@ -280,5 +281,55 @@ func TestBackfillWindowRejectsLate(t *testing.T) {
 	// a-b expired (watermark Jan 11 ≥ Jan 1 + 7d); left: b-c, a-c → path b-c-a... c is the middle.
 	if got["c"][2] != 1 || got["a"][0] != 1 || got["b"][0] != 1 {
 		t.Fatalf("window state: a %v b %v c %v", got["a"], got["b"], got["c"])
+	}
+}
+
+// TestBackfillKeepHistory: with --keep-history the retention floor follows
+// the watermark, so checkpoints older than the kept span can no longer be
+// read, while those inside it read exactly as without retention.
+func TestBackfillKeepHistory(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "log.csv")
+	writeLog(t, log, 6000, 4) // event times one second apart: 6000 s in all
+	kept := filepath.Join(dir, "kept")
+	all := filepath.Join(dir, "all")
+	for _, d := range []string{kept, all} {
+		args := []string{"backfill", "--data", d, "--input", log, "--checkpoint-every", "500"}
+		if d == kept {
+			args = append(args, "--keep-history", "30m")
+		}
+		if out, code := run(t, args...); code != 0 {
+			t.Fatalf("backfill: exit %d\n%s", code, out)
+		}
+	}
+	open := func(d string) *storage.Store {
+		st, err := storage.OpenReadOnly(d)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return st
+	}
+	sk, sa := open(kept), open(all)
+	defer sk.Close()
+	defer sa.Close()
+	// The last watermark is 6000 s in; 30 minutes back is 4200 s, so the
+	// floor is the checkpoint at seq 4000 (its watermark 4000 s ≤ 4200 s).
+	if sk.Floor() != 4000 || sa.Floor() != 0 {
+		t.Fatalf("retention floor %d (kept) / %d (all), want 4000 / 0", sk.Floor(), sa.Floor())
+	}
+	if _, _, _, err := sk.VectorAt("hub-0", 3500); !errors.Is(err, storage.ErrRetention) {
+		t.Fatalf("read below the floor: %v, want ErrRetention", err)
+	}
+	for _, seq := range []uint64{4000, 5000, 6000} {
+		a, _, _, err1 := sk.VectorAt("hub-0", seq)
+		b, _, _, err2 := sa.VectorAt("hub-0", seq)
+		if err1 != nil || err2 != nil {
+			t.Fatalf("seq %d: %v / %v", seq, err1, err2)
+		}
+		for o := range b {
+			if a[o] != b[o] {
+				t.Fatalf("seq %d orbit %d: %d with retention, %d without", seq, o, a[o], b[o])
+			}
+		}
 	}
 }
