@@ -2,8 +2,8 @@ package main
 
 import (
 	"bufio"
-	"errors"
 	"bytes"
+	"errors"
 	"fmt"
 	"math/rand/v2"
 	"os"
