@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math/rand/v2"
 	"strconv"
 	"time"
 
@@ -99,6 +100,82 @@ func ensureStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfi
 		return 0, fmt.Errorf("log stream %s: %w", cfg.Stream, err)
 	}
 	return info.State.LastSeq, nil
+}
+
+// Start-up pacing: how long one attempt at the streams may wait for the
+// server, the pause after the first failed attempt, and the longest pause
+// (each pause doubles the last, plus up to a quarter of it at random so
+// that the workers of a deployment do not ask in step).
+const (
+	startAttempt   = 5 * time.Second
+	startFirstWait = 100 * time.Millisecond
+	startMaxWait   = 5 * time.Second
+)
+
+// startStreams runs ensureStreams until it succeeds, fails with an error a
+// later attempt cannot mend (see transient), or ctx is done (then it
+// returns ctx.Err()). Each failed attempt is told to cfg.Logf, when set,
+// with its reason and the pause before the next: at start-up a cluster
+// may still be electing a leader (requests time out or are refused as
+// temporarily unavailable), or the server may be restarting.
+func startStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfig) (last uint64, err error) {
+	wait := startFirstWait
+	for attempt := 1; ; attempt++ {
+		actx, cancel := context.WithTimeout(ctx, startAttempt)
+		last, err = ensureStreams(actx, js, cfg)
+		cancel()
+		if err == nil {
+			return last, nil
+		}
+		if ctx.Err() != nil {
+			return 0, ctx.Err()
+		}
+		if !transient(err) {
+			return 0, err
+		}
+		d := wait + rand.N(wait/4+1)
+		if cfg.Logf != nil {
+			cfg.Logf("start-up attempt %d: %v; trying again in %v", attempt, err, d.Round(time.Millisecond))
+		}
+		pause(ctx, d)
+		wait = min(2*wait, startMaxWait)
+	}
+}
+
+// JetStream error codes (the server's err_code) of refusals that last
+// only while a cluster settles: no meta leader or quorum yet, a server
+// that is not the leader, a stream offline while its peers are down,
+// results missing from a peer, and no peers to place a replica on (a
+// killed server's place is empty until it returns).
+const (
+	codeClusterNotAvailable = 10008
+	codeClusterNotLeader    = 10009
+	codeStreamOffline       = 10118
+	codeStreamOfflineReason = 10194
+	codeClusterIncomplete   = 10004
+	codeClusterNoPeers      = 10005
+)
+
+// transient reports whether a later attempt may succeed where err failed:
+// the server did not answer in time (a request timed out: a server
+// restarting or a cluster electing a leader), or JetStream refused with
+// one of the codes above. Everything else is final: a stream with other
+// settings, a shard count or batch mismatch, no JetStream at the server
+// (no responder: a JetStream server answers its API before it accepts
+// clients), a closed connection, a permission or authorization error.
+func transient(err error) bool {
+	if errors.Is(err, context.DeadlineExceeded) || errors.Is(err, nats.ErrTimeout) || errors.Is(err, nats.ErrConnectionReconnecting) {
+		return true
+	}
+	var apiErr *jetstream.APIError
+	if !errors.As(err, &apiErr) {
+		return false
+	}
+	switch apiErr.ErrorCode {
+	case codeClusterNotAvailable, codeClusterNotLeader, codeStreamOffline, codeStreamOfflineReason, codeClusterIncomplete, codeClusterNoPeers:
+		return true
+	}
+	return false
 }
 
 // inMsg is one message read from a stream, in order.

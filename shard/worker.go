@@ -249,7 +249,12 @@ func (w *Worker) ownerOf(x uint32) int {
 // the last complete cut is in the store (a single shard first cuts what it
 // has read), and a new Run (after NewWorker on
 // the same store) goes on from there. Any other return is an error that
-// stops the worker: an invariant violation or a server refusal.
+// stops the worker: an invariant violation or a server refusal. At
+// start-up, while JetStream does not answer in time or refuses as
+// temporarily unavailable (a cluster electing a leader, a server
+// restarting), Run tries again with growing pauses until ctx is done,
+// telling Logf each time; a refusal that retrying cannot mend (streams
+// with other settings, another shard count) is returned at once.
 func (w *Worker) Run(ctx context.Context) error {
 	err := w.run(ctx)
 	if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
@@ -259,7 +264,7 @@ func (w *Worker) Run(ctx context.Context) error {
 }
 
 func (w *Worker) run(ctx context.Context) error {
-	last, err := ensureStreams(ctx, w.js, &w.cfg)
+	last, err := startStreams(ctx, w.js, &w.cfg)
 	if err != nil {
 		return err
 	}
