@@ -82,6 +82,9 @@ func New(cfg Config, cat *catalog.Catalog) *Evaluator {
 		panic("alert: invalid config: " + msg)
 	}
 	cfg.Rules = append([]Rule(nil), cfg.Rules...)
+	for i := range cfg.Rules {
+		cfg.Rules[i].Against = append([]OrbitWeight(nil), cfg.Rules[i].Against...)
+	}
 	n := cat.NumOrbits()
 	e := &Evaluator{
 		cfg: cfg, cat: cat, weights: Weights(cat),
@@ -232,10 +235,31 @@ func (e *Evaluator) score(r *Rule, nc *NodeChange, total uint64, dist float64, s
 	case OrbitCount:
 		c := nc.Now[r.Orbit]
 		return float64(c), c >= r.MinCount
-	default:
+	case OrbitGrowth:
 		c := nc.Now[r.Orbit]
 		return float64(c) / math.Max(e.base[r.Orbit], 1), c >= r.MinCount
+	default:
+		c := nc.Now[r.Orbit]
+		return Share(nc.Now, r.Orbit, r.Against), c >= r.MinCount
 	}
+}
+
+// Share returns the OrbitShare score of vector v for orbit o against the
+// weighted orbits of against:
+//
+//	v_o / (v_o + Σ_a w_a·v_a)
+//
+// and 0 when that sum is 0. Every orbit must be an index of v.
+func Share(v []uint64, o int, against []OrbitWeight) float64 {
+	c := float64(v[o])
+	sum := c
+	for _, a := range against {
+		sum += a.Weight * float64(v[a.Orbit])
+	}
+	if sum == 0 {
+		return 0
+	}
+	return c / sum
 }
 
 // state returns st, or a new state for node when st is nil.

@@ -39,11 +39,20 @@ func LoadConfig(path string, cat *catalog.Catalog) (Config, error) {
 //	  cooldown: 1h
 //	rules:
 //	  - name: fan-out
-//	    kind: orbit-growth      # signature | orbit-count | orbit-growth
+//	    kind: orbit-growth      # signature | orbit-count | orbit-growth | orbit-share
 //	    orbit: centre of 3-star # orbit id or catalog orbit name
 //	    fire: 8
 //	    rearm: 3                # default 0.7 × fire
 //	    min_count: 200
+//	  - name: ring
+//	    kind: orbit-share       # share of orbit among orbit + Σ weight·against
+//	    orbit: 4-cycle
+//	    against:                # orbit: weight, or a list of orbits (weight 1)
+//	      end of 4-path: 0.5
+//	      tail end of tailed triangle: 1
+//	      degree-2 node of diamond: 1
+//	    fire: 0.5               # in (0, 1]
+//	    min_count: 8
 //
 // Every key is optional; omitted settings take the DefaultConfig values,
 // and without a rules list the default rules of cat apply. An unknown key,
@@ -258,6 +267,8 @@ func (p *parser) rules(n *yaml.Node, gates Rule) ([]Rule, error) {
 				return p.number(v, &r.Rearm)
 			case "min_count":
 				return p.count(v, &r.MinCount)
+			case "against":
+				return p.against(v, &r.Against)
 			default:
 				return p.gate(key, v, &r)
 			}
@@ -275,12 +286,50 @@ func (p *parser) rules(n *yaml.Node, gates Rule) ([]Rule, error) {
 		if _, ok := p.lines[strconv.Itoa(i)+".orbit"]; !ok && r.Kind != Signature {
 			return nil, lineErr(rn, "%s rule %q has no orbit", r.Kind, r.Name)
 		}
+		if _, ok := p.lines[strconv.Itoa(i)+".against"]; !ok && r.Kind == OrbitShare {
+			return nil, lineErr(rn, "orbit-share rule %q has no against orbits", r.Name)
+		}
 		if r.Rearm == -1 {
 			r.Rearm = DefaultRearmShare * r.Fire
 		}
 		out[i] = r
 	}
 	return out, nil
+}
+
+// against reads the orbits of an orbit-share rule: a list of orbits
+// (each of weight 1) or a mapping of orbits to weights.
+func (p *parser) against(n *yaml.Node, out *[]OrbitWeight) error {
+	switch n.Kind {
+	case yaml.SequenceNode:
+		if len(n.Content) == 0 {
+			return lineErr(n, "against is an empty list")
+		}
+		for _, on := range n.Content {
+			w := OrbitWeight{Weight: 1}
+			if err := p.orbit(on, &w.Orbit); err != nil {
+				return err
+			}
+			*out = append(*out, w)
+		}
+	case yaml.MappingNode:
+		if len(n.Content) == 0 {
+			return lineErr(n, "against is an empty mapping")
+		}
+		for i := 0; i+1 < len(n.Content); i += 2 {
+			var w OrbitWeight
+			if err := p.orbit(n.Content[i], &w.Orbit); err != nil {
+				return err
+			}
+			if err := p.number(n.Content[i+1], &w.Weight); err != nil {
+				return err
+			}
+			*out = append(*out, w)
+		}
+	default:
+		return lineErr(n, "against must be a list of orbits or a mapping of orbits to weights")
+	}
+	return nil
 }
 
 // orbit reads an orbit id or a catalog orbit name.
