@@ -12,6 +12,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/nats-io/nats-server/v2/server"
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
 
@@ -66,6 +67,27 @@ func openShardStore(t *testing.T, c *Counting, dir string, i int) *storage.Store
 		t.Fatal(err)
 	}
 	return st
+}
+
+// freeAddr returns a loopback host:port that nothing listened on a moment
+// ago.
+func freeAddr(t *testing.T) string {
+	t.Helper()
+	l, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer l.Close()
+	return l.Addr().String()
+}
+
+func tcpPort(t *testing.T, addr string) int {
+	t.Helper()
+	a, err := net.ResolveTCPAddr("tcp", addr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return a.Port
 }
 
 func portOf(t *testing.T, u string) string {
@@ -165,12 +187,7 @@ func TestWorkersStartWhileServerRestarts(t *testing.T) {
 // comes stops cleanly when its context ends in the middle of a start-up
 // attempt.
 func TestWorkerStopsWhileWaitingForJetStream(t *testing.T) {
-	l, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	addr := l.Addr().String()
-	l.Close()
+	addr := freeAddr(t)
 	c := mustCounting(t, delta.Undirected, 3)
 	st := openShardStore(t, c, t.TempDir(), 0)
 	defer st.Close()
@@ -280,4 +297,141 @@ func TestTransient(t *testing.T) {
 			t.Errorf("transient(%v) = %v, want %v", tc.err, got, tc.want)
 		}
 	}
+}
+
+// startCluster starts three JetStream servers in this process, routed to
+// each other on loopback ports, and returns them once one is the
+// JetStream meta leader and all are current with it, with the clients'
+// URL list.
+func startCluster(t *testing.T) ([]*server.Server, string) {
+	t.Helper()
+	var clients, routes []string
+	for range 3 {
+		clients = append(clients, freeAddr(t))
+		routes = append(routes, freeAddr(t))
+	}
+	var srvs []*server.Server
+	for i := range 3 {
+		var o server.Options
+		o.ServerName, o.Host, o.Port, o.JetStream, o.StoreDir, o.NoSigs, o.NoLog = fmt.Sprintf("s%d", i), "127.0.0.1", tcpPort(t, clients[i]), true, t.TempDir(), true, true
+		o.Cluster.Name, o.Cluster.Host, o.Cluster.Port = "startup", "127.0.0.1", tcpPort(t, routes[i])
+		o.Routes = server.RoutesFromStr("nats://" + strings.Join(routes, ",nats://"))
+		s, err := server.NewServer(&o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		go s.Start()
+		t.Cleanup(func() { s.Shutdown(); s.WaitForShutdown() })
+		srvs = append(srvs, s)
+	}
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		leader, current := false, 0
+		for _, s := range srvs {
+			if s.JetStreamIsLeader() {
+				leader = true
+			}
+			if s.JetStreamIsCurrent() {
+				current++
+			}
+		}
+		if leader && current == len(srvs) {
+			return srvs, "nats://" + strings.Join(clients, ",nats://")
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("cluster of 3: no JetStream meta leader with all servers current after 30 s")
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+}
+
+// TestWorkersStartWhileClusterElects: a deployment's streams are R3 on a
+// three-server cluster holding the whole log; the log stream's leader is
+// shut down together with the JetStream meta leader (one server) and two
+// workers start at once, while the survivors elect new leaders. Their
+// first requests often time out meanwhile (how often depends on how fast
+// the election is; the retries are logged, not counted: the restart test
+// above makes them certain). The workers must come up and end with a
+// single applier's vectors.
+func TestWorkersStartWhileClusterElects(t *testing.T) {
+	n := 1000
+	if testing.Short() {
+		n = 500
+	}
+	c := mustCounting(t, delta.Undirected, 4)
+	var log []busMsg
+	for _, m := range testLog(n, 23) {
+		if m.raw == nil {
+			log = append(log, m)
+		}
+	}
+	want := reference(t, c, 0, log)
+	const name, subject = "ELECT", "elect.events"
+	srvs, urls := startCluster(t)
+	nc, js := connect(t, urls)
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	// The deployment as it stood before the server was lost.
+	cfg := WorkerConfig{Stream: name, Subject: subject, Deployment: name, Replicas: 3, Shards: 2, Batch: 64}
+	if _, err := startStreams(ctx, js, &cfg); err != nil {
+		t.Fatal(err)
+	}
+	p := stream.NewPublisher(js, subject, stream.PublisherOptions{Stream: name})
+	for _, m := range log {
+		if err := p.Publish(ctx, m.ev); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := p.Flush(ctx); err != nil {
+		t.Fatal(err)
+	}
+	// The JetStream meta leader is made the log stream's leader too and
+	// shut down: both must be elected anew before a stream request is
+	// answered.
+	var meta *server.Server
+	for _, srv := range srvs {
+		if srv.JetStreamIsLeader() {
+			meta = srv
+		}
+	}
+	if meta == nil {
+		t.Fatal("no JetStream meta leader among the servers")
+	}
+	leadBy(t, ctx, nc, js, name, meta.Name())
+	meta.Shutdown()
+
+	var ws []*runningWorker
+	var logs logLines
+	dataDir := t.TempDir()
+	for i := range cfg.Shards {
+		cc := mustCounting(t, c.Catalog.Kind, c.Catalog.MaxNodes)
+		wc := cfg
+		wc.Conn, wc.Shard, wc.Counting, wc.Store, wc.Logf = reconnecting(t, urls), i, cc, openShardStore(t, cc, dataDir, i), logs.logf
+		ws = append(ws, runWorker(t, wc))
+	}
+	waitCut(t, ws, uint64(len(log)))
+	sameVectors(t, "workers started while the cluster elected a leader vs one applier", owned(t, ws, want), want)
+	t.Logf("start-up retries: %q", logs.retries())
+	for _, rw := range ws {
+		rw.stop(t)
+	}
+}
+
+// leadBy moves the leadership of stream name to the server called want,
+// by leader step-downs that name it as preferred (JetStream API
+// $JS.API.STREAM.LEADER.STEPDOWN.<stream> with placement "preferred",
+// served by nats-server 2.11 and later).
+func leadBy(t *testing.T, ctx context.Context, nc *nats.Conn, js jetstream.JetStream, name, want string) {
+	t.Helper()
+	for ctx.Err() == nil {
+		s, err := js.Stream(ctx, name)
+		if err == nil && s.CachedInfo().Cluster != nil && s.CachedInfo().Cluster.Leader == want {
+			return
+		}
+		if err == nil {
+			nc.RequestWithContext(ctx, "$JS.API.STREAM.LEADER.STEPDOWN."+name, []byte(`{"placement":{"preferred":"`+want+`"}}`))
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	t.Fatalf("stream %s: leadership not moved to %s: %v", name, want, ctx.Err())
 }
