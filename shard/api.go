@@ -124,9 +124,12 @@ func (a *api) get(h http.HandlerFunc) http.HandlerFunc {
 	}
 }
 
-// nodeJSON is the body of a node read: exactly these keys, event_time
-// null when the cut carries no event time.
-type nodeJSON struct {
+// NodeVector is one node's orbit vector at one cut: the body of the API's
+// node read and what `orbitwatch query --json` prints, exactly these keys.
+// Seq is the cut's sequence; EventTime its event-time watermark (RFC 3339,
+// UTC), nil (JSON null) when no event before it carried a time. Orbits[i]
+// is the count of orbit i of the catalog for Kind and MaxNodes.
+type NodeVector struct {
 	Node      string     `json:"node"`
 	Kind      string     `json:"kind"`
 	MaxNodes  int        `json:"max_nodes"`
@@ -199,7 +202,7 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		writeError(w, status, rep.Error)
 		return
 	}
-	body := nodeJSON{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, Orbits: rep.Orbits}
+	body := NodeVector{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, Orbits: rep.Orbits}
 	if !rep.EventTime.IsZero() {
 		t := rep.EventTime.UTC()
 		body.EventTime = &t

@@ -187,7 +187,7 @@ func decodeStrict(t *testing.T, body []byte, keys ...string) map[string]json.Raw
 	return m
 }
 
-func readNode(t *testing.T, h http.Handler, path string) nodeJSON {
+func readNode(t *testing.T, h http.Handler, path string) NodeVector {
 	t.Helper()
 	code, hdr, body := get(t, h, path)
 	if code != http.StatusOK {
@@ -197,7 +197,7 @@ func readNode(t *testing.T, h http.Handler, path string) nodeJSON {
 		t.Fatalf("GET %s: content type %q", path, ct)
 	}
 	decodeStrict(t, body, "node", "kind", "max_nodes", "seq", "event_time", "orbits")
-	var b nodeJSON
+	var b NodeVector
 	if err := json.Unmarshal(body, &b); err != nil {
 		t.Fatal(err)
 	}
@@ -372,7 +372,7 @@ func TestAPIForwardsToOwnerAndReadsAsOf(t *testing.T) {
 				if hdr.Get(ShardHeader) != fmt.Sprint(OwnerOf(node, 3)) {
 					t.Fatalf("shard %d GET %s answered by shard %s, want owner %d", i, path, hdr.Get(ShardHeader), OwnerOf(node, 3))
 				}
-				var b nodeJSON
+				var b NodeVector
 				if err := json.Unmarshal(body, &b); err != nil {
 					t.Fatal(err)
 				}
@@ -430,7 +430,7 @@ func TestAPISeqReadsForwardOverHTTP(t *testing.T) {
 			if resp.StatusCode != http.StatusOK || resp.Header.Get(ShardHeader) != fmt.Sprint(owner) {
 				t.Fatalf("shard %d %q?seq=200: %d from shard %s: %s", i, node, resp.StatusCode, resp.Header.Get(ShardHeader), body)
 			}
-			var b nodeJSON
+			var b NodeVector
 			if err := json.Unmarshal(body, &b); err != nil {
 				t.Fatal(err)
 			}
@@ -449,7 +449,7 @@ func TestAPISeqReadsForwardOverHTTP(t *testing.T) {
 			}
 			body, _ := io.ReadAll(resp.Body)
 			resp.Body.Close()
-			var b nodeJSON
+			var b NodeVector
 			if resp.StatusCode != http.StatusOK || json.Unmarshal(body, &b) != nil || b.Node != id || !slices.Equal(b.Orbits, snaps[1].vectors[id]) {
 				t.Errorf("shard %d, id %q: %d %s, want %v", i, id, resp.StatusCode, body, snaps[1].vectors[id])
 			}

@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"orbitwatch/delta/catalog"
+	"orbitwatch/shard"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
@@ -21,25 +22,10 @@ func init() {
 	commands["query"] = command{"print one node's orbit vector as of a checkpoint of a data directory", runQuery}
 }
 
-// NodeVector is one node's orbit vector at one checkpoint, in the shape
-// `query --json` prints, the same as the body of the HTTP API's node read
-// (shard/api.go):
-//
-//	{"node":…,"kind":…,"max_nodes":…,"seq":…,"event_time":…,"orbits":[c0,c1,…]}
-//
-// Seq is the checkpoint's sequence; EventTime its event-time watermark
-// (RFC 3339 with nanoseconds, UTC), nil (JSON null) when no event before it
-// carried a time. Orbits[i] is the count of orbit i of the catalog for Kind
-// and MaxNodes. JSON strings are UTF-8, so a node id that is not valid UTF-8
-// is not carried byte for byte.
-type NodeVector struct {
-	Node      string     `json:"node"`
-	Kind      string     `json:"kind"`
-	MaxNodes  int        `json:"max_nodes"`
-	Seq       uint64     `json:"seq"`
-	EventTime *time.Time `json:"event_time"`
-	Orbits    []uint64   `json:"orbits"`
-}
+// NodeVector is the shape `query --json` prints: the HTTP API's node body
+// (JSON strings are UTF-8, so a node id that is not valid UTF-8 is not
+// carried byte for byte).
+type NodeVector = shard.NodeVector
 
 func runQuery(args []string) int {
 	c := newReadCommand("query", true)
