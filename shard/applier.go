@@ -12,9 +12,8 @@ import (
 
 // Reasons an event is rejected by the applier, beyond delta's.
 var (
-	ErrLate    = errors.New("late: older than the window on arrival")
-	ErrNoTime  = errors.New("missing ts (a window is set)")
-	ErrUnknown = errors.New("remove of absent edge")
+	ErrLate   = errors.New("late: older than the window on arrival")
+	ErrNoTime = errors.New("missing ts (a window is set)")
 )
 
 // Reject is a rejected event: it changed nothing.
@@ -91,10 +90,7 @@ func (a *Applier) add(x uint32, o int, d int64) {
 // an invariant violation: the applier's state is no longer trustworthy and
 // the caller must stop.
 func (a *Applier) Apply(seq uint64, ev stream.Event) error {
-	if seq <= a.seq {
-		panic("shard: Apply with a sequence that does not increase")
-	}
-	a.seq = seq
+	a.advance(seq, "Apply")
 	if a.fault != nil {
 		return a.fault
 	}
@@ -118,6 +114,11 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 	var err error
 	if ev.Op == stream.OpAdd {
 		err = a.increment(u, v)
+		if errors.Is(err, delta.ErrMultiplicity) {
+			// Only a present edge can overflow, so both nodes were known
+			// and interning changed nothing: the event is simply refused.
+			return a.rejectWith(ev, err)
+		}
 		if err == nil && a.window != nil {
 			a.window.push(ev.TS.Add(a.window.width), seq, u, v)
 		}
@@ -138,11 +139,16 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 // event: it changes nothing but the position and the count of rejects by
 // reason.
 func (a *Applier) RejectLine(seq uint64, reason string) {
+	a.advance(seq, "RejectLine")
+	a.rejected[reason]++
+}
+
+// advance moves the log position to seq, which must be past it.
+func (a *Applier) advance(seq uint64, caller string) {
 	if seq <= a.seq {
-		panic("shard: RejectLine with a sequence that does not increase")
+		panic("shard: " + caller + " with a sequence that does not increase")
 	}
 	a.seq = seq
-	a.rejected[reason]++
 }
 
 func (a *Applier) rejectWith(ev stream.Event, err error) error {
@@ -162,14 +168,7 @@ func (a *Applier) check(ev stream.Event) error {
 		u, ok1 := a.dict.Lookup(ev.Src)
 		v, ok2 := a.dict.Lookup(ev.Dst)
 		if !ok1 || !ok2 || !a.graph.HasEdge(u, v) {
-			return ErrUnknown
-		}
-	}
-	if ev.Op == stream.OpAdd {
-		u, ok1 := a.dict.Lookup(ev.Src)
-		v, ok2 := a.dict.Lookup(ev.Dst)
-		if ok1 && ok2 && a.graph.Multiplicity(u, v) == ^uint32(0) {
-			return delta.ErrMultiplicity
+			return delta.ErrAbsent
 		}
 	}
 	return nil
@@ -201,12 +200,7 @@ func (a *Applier) AddDelta(x uint32, o int, d int64) error {
 
 // Pass uses up log position seq for a log message that is not an event (a
 // control message): it changes nothing but the position.
-func (a *Applier) Pass(seq uint64) {
-	if seq <= a.seq {
-		panic("shard: Pass with a sequence that does not increase")
-	}
-	a.seq = seq
-}
+func (a *Applier) Pass(seq uint64) { a.advance(seq, "Pass") }
 
 // computesEdge reports whether this applier computes the change of {u,v}.
 func (a *Applier) computesEdge(u, v uint32) bool {
@@ -217,18 +211,22 @@ func (a *Applier) increment(u, v uint32) error {
 	if !a.graph.HasEdge(u, v) && a.computesEdge(u, v) {
 		a.count.Engine.Insert(a.graph, u, v, a.emit)
 	}
-	_, err := a.graph.Increment(u, v)
+	if _, err := a.graph.Increment(u, v); err != nil {
+		return err
+	}
 	a.edges = append(a.edges, [2]uint32{u, v})
-	return err
+	return nil
 }
 
 func (a *Applier) decrement(u, v uint32) error {
 	if a.graph.Multiplicity(u, v) == 1 && a.computesEdge(u, v) {
 		a.count.Engine.Delete(a.graph, u, v, a.emit)
 	}
-	_, err := a.graph.Decrement(u, v)
+	if _, err := a.graph.Decrement(u, v); err != nil {
+		return err
+	}
 	a.edges = append(a.edges, [2]uint32{u, v})
-	return err
+	return nil
 }
 
 // expire applies the window's removes whose expiry the watermark has reached.

@@ -37,8 +37,8 @@ func TestApplierRejectsChangeNothing(t *testing.T) {
 			{ev(stream.OpAdd, "a", "b", 0), nil},
 			{ev(stream.OpAdd, "b", "c", 0), nil},
 			{ev(stream.OpAdd, "c", "c", 0), delta.ErrSelfLoop},
-			{ev(stream.OpRemove, "a", "c", 0), ErrUnknown},
-			{ev(stream.OpRemove, "a", "zz", 0), ErrUnknown},
+			{ev(stream.OpRemove, "a", "c", 0), delta.ErrAbsent},
+			{ev(stream.OpRemove, "a", "zz", 0), delta.ErrAbsent},
 			{ev(stream.OpAdd, "a", "b", 0), nil},
 			{ev(stream.OpRemove, "a", "b", 0), nil},
 		}
