@@ -223,3 +223,26 @@ func (g *Graph) Clone() *Graph {
 	}
 	return c
 }
+
+// Links returns how y is joined to x, seen from x: LinkOut|LinkIn for an
+// undirected edge; LinkOut for x→y and LinkIn for y→x in a Directed graph;
+// 0 when they are not adjacent.
+func (g *Graph) Links(x, y uint32) Link {
+	if int(x) >= len(g.out) || int(y) >= len(g.out) {
+		return 0
+	}
+	if g.kind == Undirected {
+		if g.out[x].Contains(y) {
+			return LinkOut | LinkIn
+		}
+		return 0
+	}
+	var l Link
+	if g.out[x].Contains(y) {
+		l |= LinkOut
+	}
+	if g.in[x].Contains(y) {
+		l |= LinkIn
+	}
+	return l
+}

@@ -16,11 +16,22 @@ import (
 // Subject is one incremental counter under test.
 type Subject struct {
 	Name string
-	// Engine is the incremental counter under test.
+	// New returns a fresh, empty counter under test. When it is nil the
+	// subject is Engine, run as delta.NewEager(Engine).
+	New func() delta.Counter
+	// Engine is an eager engine under test when New is nil.
 	Engine delta.Engine
 	// Recount is the subject's separate static recount. It may be nil only
 	// for the suite's own self-test, where brute is the engine.
 	Recount delta.Recounter
+}
+
+// counter returns a fresh counter of the subject.
+func (s Subject) counter() delta.Counter {
+	if s.New != nil {
+		return s.New()
+	}
+	return delta.NewEager(s.Engine)
 }
 
 // Run replays every stream shape of the subject's kind and fails t at the
@@ -28,13 +39,14 @@ type Subject struct {
 // It needs a Python with networkx and igraph (see delta/internal/pyref).
 func Run(t testing.TB, s Subject) {
 	t.Helper()
-	kind, k := s.Engine.Kind(), s.Engine.MaxNodes()
+	probe := s.counter()
+	kind, k := probe.Kind(), probe.MaxNodes()
 	c, err := catalog.New(kind, k)
 	if err != nil {
 		t.Fatalf("conformance: %s: %v", s.Name, err)
 	}
-	if s.Engine.NumOrbits() != c.NumOrbits() {
-		t.Fatalf("conformance: %s: engine has %d orbits, catalog %v 2..%d has %d", s.Name, s.Engine.NumOrbits(), kind, k, c.NumOrbits())
+	if probe.NumOrbits() != c.NumOrbits() {
+		t.Fatalf("conformance: %s: counter has %d orbits, catalog %v 2..%d has %d", s.Name, probe.NumOrbits(), kind, k, c.NumOrbits())
 	}
 	ref := &references{}
 	for _, st := range streams(kind, testing.Short()) {
@@ -76,7 +88,7 @@ func seed(name string) uint64 {
 	return h.Sum64()
 }
 
-// replay applies one stream to a graph and the subject's vectors, checks
+// replay applies one stream to a graph and the subject's counter, checks
 // every checkpoint against the recount and brute at once, and queues the
 // outside-reference checks of the stream.
 type replay struct {
@@ -85,10 +97,12 @@ type replay struct {
 	c      *catalog.Catalog
 	label  string
 	g      *delta.Graph
-	v      *delta.Vectors
-	emit   delta.Emit
-	fault  error
+	cnt    delta.Counter
+	v      *delta.Vectors // the counter's vectors at the last checkpoint
 	events int
+	// records holds every node's record at the last checkpoint, to hold
+	// Changed to the records that really changed.
+	records map[uint32]string
 	due    int // events until the next checkpoint
 	ref    *references
 	queued int // reference checks queued by this stream
@@ -101,21 +115,12 @@ type replay struct {
 }
 
 func newReplay(t testing.TB, s Subject, c *catalog.Catalog, stream string, nodes int, ref *references) *replay {
-	rp := &replay{t: t, s: s, c: c, label: fmt.Sprintf("conformance: %s, stream %q", s.Name, stream), g: delta.NewGraph(c.Kind), v: delta.NewVectors(0, c.NumOrbits()), due: 10, ref: ref}
+	rp := &replay{t: t, s: s, c: c, label: fmt.Sprintf("conformance: %s, stream %q", s.Name, stream), g: delta.NewGraph(c.Kind), v: delta.NewVectors(0, c.NumOrbits()), due: 10, ref: ref, records: map[uint32]string{}}
+	if s.New != nil || s.Engine != nil {
+		rp.cnt = s.counter()
+	}
 	rp.g.Grow(nodes)
 	rp.v.Grow(nodes)
-	rp.emit = func(x uint32, o int, d int64) {
-		if rp.fault != nil {
-			return
-		}
-		if int(x) >= rp.v.NumNodes() || o < 0 || o >= rp.c.NumOrbits() {
-			rp.fault = fmt.Errorf("emit of node %d orbit %d outside %d nodes × %d orbits", x, o, rp.v.NumNodes(), rp.c.NumOrbits())
-			return
-		}
-		if err := rp.v.Add(x, o, d); err != nil {
-			rp.fault = err
-		}
-	}
 	return rp
 }
 
@@ -140,21 +145,21 @@ func (rp *replay) step(r *rand.Rand, e event, nodes int) {
 	}
 }
 
-// apply runs the engine only on a simple-graph change: Insert while g lacks
-// uv, then Increment; Delete while g has uv with multiplicity 1, then
+// apply runs the counter only on a simple-graph change: Insert while g
+// lacks uv, then Increment; Delete while g has uv with multiplicity 1, then
 // Decrement.
 func (rp *replay) apply(e event) {
 	t, g := rp.t, rp.g
 	t.Helper()
 	g.Grow(int(max(e.u, e.v)) + 1)
-	rp.v.Grow(g.NumNodes())
 	before := g.NumEdges()
 	var changed bool
 	var err error
+	var fault error
 	if e.add {
 		present := g.HasEdge(e.u, e.v)
 		if !present {
-			rp.s.Engine.Insert(g, e.u, e.v, rp.emit)
+			fault = rp.cnt.Insert(g, e.u, e.v, false)
 			rp.unchanged(e, before, false)
 		}
 		changed, err = g.Increment(e.u, e.v)
@@ -164,7 +169,7 @@ func (rp *replay) apply(e event) {
 	} else {
 		simple := g.Multiplicity(e.u, e.v) == 1
 		if simple {
-			rp.s.Engine.Delete(g, e.u, e.v, rp.emit)
+			fault = rp.cnt.Delete(g, e.u, e.v)
 			rp.unchanged(e, before, true)
 		}
 		changed, err = g.Decrement(e.u, e.v)
@@ -175,8 +180,8 @@ func (rp *replay) apply(e event) {
 	if err != nil {
 		t.Fatalf("%s, event %d: %v of %d-%d: %v", rp.label, rp.events, verb(e), e.u, e.v, err)
 	}
-	if rp.fault != nil {
-		t.Fatalf("%s, event %d: %s %d-%d: %v", rp.label, rp.events, verb(e), e.u, e.v, rp.fault)
+	if fault != nil {
+		t.Fatalf("%s, event %d: %s %d-%d: %v", rp.label, rp.events, verb(e), e.u, e.v, fault)
 	}
 }
 
@@ -214,20 +219,73 @@ func (rp *replay) refuse(e event) {
 	}
 }
 
-// checkpoint demands incremental == Recount == brute on every node and
-// orbit, and queues the networkx checks of this graph.
+// checkpoint demands, on every node and orbit, that the counter's vectors,
+// the vectors Derive reads from its records and adjacency, and the
+// Recount equal brute; that Changed named every node whose record
+// changed since the last checkpoint; and, at every third checkpoint, that
+// a fresh counter restored from the records goes on in its place. It
+// queues the networkx checks of this graph.
 func (rp *replay) checkpoint() {
 	t := rp.t
 	t.Helper()
 	rp.cut = rp.events
 	rp.checkpoints++
 	want := brute.Count(rp.g, rp.c)
-	rp.v.Grow(rp.g.NumNodes())
+	rp.checkChanged()
+	rp.v = rp.vectors(func(x uint32, dst []uint64) []uint64 { return rp.cnt.Vector(x, dst) })
 	rp.compare("incremental", rp.v, want)
+	src := delta.NewMemSource(rp.g, rp.cnt)
+	derived := rp.vectors(func(x uint32, dst []uint64) []uint64 {
+		got, err := rp.cnt.Derive(src, x, dst)
+		if err != nil {
+			t.Fatalf("%s, checkpoint at event %d: Derive node %d: %v", rp.label, rp.cut, x, err)
+		}
+		return got
+	})
+	rp.compare("derived from records", derived, want)
+	if rp.checkpoints%3 == 0 {
+		fresh := rp.s.counter()
+		if err := fresh.Restore(rp.g, src); err != nil {
+			t.Fatalf("%s, checkpoint at event %d: Restore: %v", rp.label, rp.cut, err)
+		}
+		rp.cnt = fresh
+		rp.compare("restored", rp.vectors(func(x uint32, dst []uint64) []uint64 { return rp.cnt.Vector(x, dst) }), want)
+	}
 	if rp.s.Recount != nil {
 		rp.compare("recount", rp.s.Recount.Recount(rp.g), want)
 	}
 	rp.queueCheckpoint(rp.v.Clone())
+}
+
+// vectors returns every node's vector as read.
+func (rp *replay) vectors(read func(x uint32, dst []uint64) []uint64) *delta.Vectors {
+	v := delta.NewVectors(rp.g.NumNodes(), rp.c.NumOrbits())
+	var buf []uint64
+	for x := range uint32(rp.g.NumNodes()) {
+		buf = read(x, buf)
+		if len(buf) != rp.c.NumOrbits() {
+			rp.t.Fatalf("%s, checkpoint at event %d: node %d read %d counts, want %d", rp.label, rp.cut, x, len(buf), rp.c.NumOrbits())
+		}
+		copy(v.Row(x), buf)
+	}
+	return v
+}
+
+// checkChanged fails when a node's record differs from the last
+// checkpoint's without Changed naming it, then keeps the new records.
+func (rp *replay) checkChanged() {
+	named := map[uint32]bool{}
+	rp.cnt.Changed(func(x uint32) { named[x] = true })
+	var buf []byte
+	for x := range uint32(rp.g.NumNodes()) {
+		buf = rp.cnt.AppendRecord(buf[:0], x)
+		if rec := string(buf); rec != rp.records[x] {
+			if !named[x] {
+				rp.t.Fatalf("%s, checkpoint at event %d: record of node %d changed but Changed did not name it", rp.label, rp.cut, x)
+			}
+			rp.records[x] = rec
+		}
+	}
 }
 
 func (rp *replay) compare(what string, got, want *delta.Vectors) {
