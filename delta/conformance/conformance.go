@@ -103,9 +103,9 @@ type replay struct {
 	// records holds every node's record at the last checkpoint, to hold
 	// Changed to the records that really changed.
 	records map[uint32]string
-	due    int // events until the next checkpoint
-	ref    *references
-	queued int // reference checks queued by this stream
+	due     int // events until the next checkpoint
+	ref     *references
+	queued  int // reference checks queued by this stream
 	// cut is the event count at the last checkpoint, for messages.
 	cut         int
 	checkpoints int
