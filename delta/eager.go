@@ -60,12 +60,12 @@ func (c *eager) Delete(g *Graph, u, v uint32) error {
 	return c.fault
 }
 
-func (c *eager) Vector(x uint32, dst []uint64) []uint64 {
+func (c *eager) Vector(x uint32, dst []uint64) ([]uint64, error) {
 	dst = append(dst[:0], make([]uint64, c.vec.NumOrbits())...)
 	if int(x) < c.vec.NumNodes() {
 		copy(dst, c.vec.Row(x))
 	}
-	return dst
+	return dst, nil
 }
 
 func (c *eager) Changed(visit func(x uint32)) {

@@ -232,7 +232,7 @@ func (rp *replay) checkpoint() {
 	rp.checkpoints++
 	want := brute.Count(rp.g, rp.c)
 	rp.checkChanged()
-	rp.v = rp.vectors(func(x uint32, dst []uint64) []uint64 { return rp.cnt.Vector(x, dst) })
+	rp.v = rp.vectors(rp.read)
 	rp.compare("incremental", rp.v, want)
 	src := delta.NewMemSource(rp.g, rp.cnt)
 	derived := rp.vectors(func(x uint32, dst []uint64) []uint64 {
@@ -249,12 +249,21 @@ func (rp *replay) checkpoint() {
 			t.Fatalf("%s, checkpoint at event %d: Restore: %v", rp.label, rp.cut, err)
 		}
 		rp.cnt = fresh
-		rp.compare("restored", rp.vectors(func(x uint32, dst []uint64) []uint64 { return rp.cnt.Vector(x, dst) }), want)
+		rp.compare("restored", rp.vectors(rp.read), want)
 	}
 	if rp.s.Recount != nil {
 		rp.compare("recount", rp.s.Recount.Recount(rp.g), want)
 	}
 	rp.queueCheckpoint(rp.v.Clone())
+}
+
+// read returns x's vector from the counter's in-memory state.
+func (rp *replay) read(x uint32, dst []uint64) []uint64 {
+	got, err := rp.cnt.Vector(x, dst)
+	if err != nil {
+		rp.t.Fatalf("%s, checkpoint at event %d: Vector node %d: %v", rp.label, rp.cut, x, err)
+	}
+	return got
 }
 
 // vectors returns every node's vector as read.
