@@ -42,6 +42,11 @@ type Orbit struct {
 	Graphlet  int    `json:"graphlet"`
 	Positions []int  `json:"positions"`
 	Name      string `json:"name"`
+	// Short is the orbit's short name for analysts: for directed orbits
+	// what the account pays and is paid by, with the other nodes as
+	// letters ("pays A and B; A two-way with B"); for undirected ones
+	// the same as Name.
+	Short string `json:"short"`
 }
 
 // table maps every k-node adjacency code to its graphlet and the orbit of
@@ -168,6 +173,7 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		c.Graphlets = append(c.Graphlets, g)
 	}
 	nameAll(c, classes)
+	shortNames(c)
 	byCode := make([]map[uint32]int, maxNodes+1)
 	for _, g := range c.Graphlets {
 		if byCode[g.Nodes] == nil {

@@ -52,6 +52,14 @@
 // out-star". Where the rule gives two equal names a form letter "(form a)",
 // "(form b)" is appended in numbering order, so names are unique.
 //
+// Every orbit also has a Short name. A directed one is read from the
+// account's side, with the other nodes as letters: what the account does
+// with each ("pays A and B, paid by C", "two-way with A" for a
+// reciprocal pair) and then the payments among the others ("A pays B; C
+// two-way with B"); a test reads every short name back into arcs and
+// checks that the catalog classifies them as the orbit named. Undirected
+// orbits keep their Name as Short.
+//
 // The package is not for counting: see delta/brute for the reference
 // enumerator and the engines in delta/… for incremental counting.
 package catalog
