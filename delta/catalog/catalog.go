@@ -47,6 +47,14 @@ type Orbit struct {
 	// letters ("pays A and B; A two-way with B"); for undirected ones
 	// the same as Name.
 	Short string `json:"short"`
+	// Numbering is NumberingPublished when the id is the one of the
+	// published numbering named in Source, NumberingProject when it is
+	// this package's rule alone (see the package documentation).
+	Numbering string `json:"numbering"`
+	// Source names the publication a published id follows and says
+	// whether it was checked or recalled from memory; empty for project
+	// ids.
+	Source string `json:"source,omitempty"`
 }
 
 // table maps every k-node adjacency code to its graphlet and the orbit of
@@ -154,6 +162,9 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		}
 	}
 	sortClasses(kind, classes)
+	if kind == delta.Undirected {
+		publishedOrder(classes)
+	}
 	for id, cl := range classes {
 		cl.id = id
 		sortOrbits(kind, cl)
@@ -173,6 +184,7 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		c.Graphlets = append(c.Graphlets, g)
 	}
 	nameAll(c, classes)
+	markProvenance(c)
 	shortNames(c)
 	byCode := make([]map[uint32]int, maxNodes+1)
 	for _, g := range c.Graphlets {

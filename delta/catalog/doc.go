@@ -31,10 +31,19 @@
 // and 2 middle of the 3-path; 3 triangle; 4, 5 of the 4-path; 6 leaf and 7
 // centre of the 3-star; 8 4-cycle; 9, 10, 11 of the tailed triangle; 12, 13
 // of the diamond; 14 K4. Tests check this structurally. For 5 nodes
-// (orbits 15–72) the same rule gives the 5-path as orbits 15–17 and the
-// 4-star as 22–23 like the published figure as we recall it, but the rest
-// of the 5-node numbering has NOT been checked against the paper and may
-// differ from it; treat orbit ids 15–72 as the project's own numbering.
+// (orbits 15–72) the graphlets of one edge count are further ordered so
+// that their orbit counts follow Pržulj 2007's figure as recalled from
+// memory (publishedOrbitCounts; no copy of the paper is at hand): that
+// places the 5-path at 15–17 (end, next to an end, middle) and K5 at 72,
+// which the issue states as published facts, and, from memory, the
+// 4-star at 22–23, the 5-cycle at 34, K5 minus a 3-path at 65–67, the
+// 4-wheel at 68–69 and K5 minus an edge at 70–71. Every Orbit says which:
+// Numbering is "published" (with the Source and whether it was checked or
+// recalled) or "project". Where the recalled layout leaves two graphlets
+// of one edge count with equal orbit counts, or a graphlet's orbits share
+// a degree, the package rule decides and the ids are the project's: a
+// user comparing with published vectors should carry over only the
+// published columns.
 // Directed numbering is the project's own (there is no published one for
 // digraphs with reciprocal arcs); totals are 15 graphlets / 33 orbits on
 // 2–3 nodes and 214 / 730 on 2–4, from our enumeration. Because node count
