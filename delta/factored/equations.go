@@ -2,6 +2,7 @@ package factored
 
 import (
 	"fmt"
+	"math/bits"
 	"sync"
 
 	"orbitwatch/delta"
@@ -72,17 +73,21 @@ var equations = sync.OnceValue(func() *overlap {
 //
 //	o_p = N_p − Σ_{o>p} overlap[p][o] · o_o,   p = k−1 … 0.
 //
-// A negative result means the maintained quantities are wrong (a bug or a
-// broken Insert/Delete contract); solve panics then, it never clamps.
-func (a *overlap) solve(n []int64, x uint32) {
+// A result below zero means the records are wrong (a bug or a broken
+// Insert/Delete contract): solve reports the orbit and ok false, it never
+// clamps. Every product and partial sum is at most N_p in a consistent
+// state, so nothing overflows before that is seen.
+func (a *overlap) solve(n []uint64) (orbit int, ok bool) {
 	for p := len(n) - 1; p >= 0; p-- {
 		v := n[p]
 		for o := p + 1; o < len(n); o++ {
-			v -= a[p][o] * n[o]
-		}
-		if v < 0 {
-			panic(fmt.Sprintf("factored: orbit %d of node %d solves to %d", p, x, v))
+			hi, m := bits.Mul64(uint64(a[p][o]), n[o])
+			if hi != 0 || m > v {
+				return p, false
+			}
+			v -= m
 		}
 		n[p] = v
 	}
+	return 0, true
 }

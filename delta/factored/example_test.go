@@ -21,16 +21,25 @@ func ExampleCounter() {
 	g.Grow(4)
 	c := factored.New(4)
 	link := func(u, v uint32) {
-		c.Insert(g, u, v)
+		if err := c.Insert(g, u, v, false); err != nil {
+			panic(err)
+		}
 		g.Link(u, v)
+	}
+	vector := func(x uint32) []uint64 {
+		vec, err := c.Vector(x, nil)
+		if err != nil {
+			panic(err)
+		}
+		return vec
 	}
 	for _, e := range [][2]uint32{{0, 1}, {1, 2}, {2, 3}, {3, 0}} {
 		link(e[0], e[1])
 	}
-	fmt.Println("ring   ", c.Vector(g, 0, nil))
+	fmt.Println("ring   ", vector(0))
 	link(0, 2)
-	fmt.Println("chord 0", c.Vector(g, 0, nil))
-	fmt.Println("chord 1", c.Vector(g, 1, nil))
+	fmt.Println("chord 0", vector(0))
+	fmt.Println("chord 1", vector(1))
 	// Output:
 	// ring    [2 2 1 0 0 0 0 0 1 0 0 0 0 0 0]
 	// chord 0 [3 0 1 2 0 0 0 0 0 0 0 0 0 1 0]

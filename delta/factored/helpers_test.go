@@ -14,12 +14,16 @@ import (
 // apply runs one event on uv through c (an insert if g lacks uv, else a
 // delete) and then changes g accordingly.
 func apply(c *Counter, g *delta.Graph, u, v uint32) {
+	var err error
 	if g.HasEdge(u, v) {
-		c.Delete(g, u, v)
+		err = c.Delete(g, u, v)
 		g.Unlink(u, v)
 	} else {
-		c.Insert(g, u, v)
+		err = c.Insert(g, u, v, false)
 		g.Link(u, v)
+	}
+	if err != nil {
+		panic(err)
 	}
 }
 
@@ -51,7 +55,10 @@ func derived(c *Counter, g *delta.Graph) *delta.Vectors {
 	vec := delta.NewVectors(g.NumNodes(), c.NumOrbits())
 	var buf []uint64
 	for x := range uint32(g.NumNodes()) {
-		buf = c.Vector(g, x, buf)
+		var err error
+		if buf, err = c.Vector(x, buf); err != nil {
+			panic(err)
+		}
 		copy(vec.Row(x), buf)
 	}
 	return vec
@@ -73,6 +80,9 @@ func checkRecount(t *testing.T, what string, c *Counter, g *delta.Graph) *delta.
 // and the brute-force enumeration of delta/brute.
 func checkAll(t *testing.T, what string, c *Counter, g *delta.Graph) {
 	t.Helper()
+	if err := invariants(c, g); err != nil {
+		t.Fatalf("%s: %v", what, err)
+	}
 	got := checkRecount(t, what, c, g)
 	cat, err := catalog.New(delta.Undirected, c.MaxNodes())
 	if err != nil {

@@ -1,211 +1,244 @@
 package factored
 
-import "slices"
+// containsRatio: a walk of a list of length n testing membership in
+// another is replaced by a walk of the other when n exceeds it by more than
+// this factor (a marked-bit test is cheaper than a binary search).
+const containsRatio = 8
 
-// containsRatio: a neighbour walk of a node a (cost d(a), one mark read
-// each) is replaced by binary searches of a smaller set in N(a) when d(a)
-// exceeds that set's size by more than this factor.
-const containsRatio = 16
-
-// update applies inserting (s = +1) or deleting (s = −1) the edge uv. Every
-// count below is taken in G⁻, the graph without uv, so both directions
-// share one derivation and differ only in sign. With A = N(u)\{v},
-// B = N(v)\{u} and W = A ∩ B (the common neighbours), the changes are:
+// update applies the local changes of inserting (s = +1) or deleting
+// (s = −1) the edge uv. Every count below is taken in G⁻, the graph
+// without uv (the adjacency, degrees, heavy lists and pair counts are in
+// G⁻ when it runs). With A = N(u), B = N(v) and W = A ∩ B:
 //
-//	d(u), d(v)          ±1
-//	s1(u) ±(d(v)+1), s1(v) ±(d(u)+1), s1(w) ±1 for w ∈ A, and again for w ∈ B
-//	t(u), t(v) ±|W|,    t(r) ±1 and tri(u,r), tri(v,r) ±1 for r ∈ W, tri(u,v) = |W|
-//	K4: k4(r) ±|N(r) ∩ W| for r ∈ W, k4(u), k4(v) ±e(W)
-//	diamonds (x at a degree-2 node), with uv the middle edge: dd2(r) ±(|W|−1)
-//	  for r ∈ W; with uv a side edge u–v, v and r ∈ W of degree 3: dd2(u)
-//	  ±Σ_{r∈W} |N(r) ∩ B| and dd2(o) ±1 per r ∈ W, o ∈ N(r) ∩ B; the same with
-//	  u and v swapped
-//	4-cycles u–v–a–b: one per a ∈ B, b ∈ A ∩ N(a); cyc(u), cyc(v) ± their
-//	  number, cyc(a) ±|N(a) ∩ A|, cyc(b) ±|N(b) ∩ B|
+//	t(u), t(v) ±|W|, t(r) ±1 for r ∈ W
+//	l1(z) ±1 for z ∈ A when u is light, l1(v) ±(d(u)+1); the same with u, v swapped
+//	K4s: k4(r) ±|N(r) ∩ W| for r ∈ W, k4(u), k4(v) ±e(W)
+//	diamonds (x at a degree-2 node): with uv the chord, dd2(r) ±(|W|−1)
+//	  for r ∈ W; with u–v a side edge and v–r the chord (r ∈ W), dd2(u)
+//	  and dd2(o) ±1 per o ∈ N(v) ∩ N(r); the same with u and v swapped
+//	4-cycles x–y–b–a ({x,y} = {u,v}, a ∈ N(x), b ∈ N(y) ∩ N(a)): the
+//	  pair {y, a} is seen by x and b, the pair {x, b} by y and a
 //
-// so the nodes written are u, v, A ∪ B (s1, cyc, dd2) and W (t, k4, edge
-// triangles). The work is d(u) + d(v) marks, Σ_{r∈W} min(d(r), d(u)+d(v))
-// for the diamonds and K4s and, from the side with the smaller neighbour
-// degree sum, Σ_a min(d(a), 16·d(other)) for the 4-cycles.
+// where a diamond whose chord, or a 4-cycle pair, is two heavy nodes is
+// not kept but read from the heavy pair counts, and the heavy nodes'
+// light-degree sums follow l1. The work is d(x) marks at a light
+// endpoint, Σ_{r∈W} min(d(r), |W|) for K4s and diamonds, and
+// Σ_{a∈N(x)} min(d(a), d(y)) from the lighter endpoint x for 4-cycles,
+// with hub lists searched, never walked.
 func (c *Counter) update(u, v uint32, s int64) {
-	nu, nv := &c.nodes[u], &c.nodes[v]
-	du, dv := nu.deg, nv.deg
-	if s < 0 {
-		du, dv = du-1, dv-1
-	}
-	costU, costV := nu.s1, nv.s1
-	c.common = c.common[:0]
-	c.markSide(u, v, 0, s)
-	c.markSide(v, u, 1, s)
-	nu.s1 += s * (dv + 1)
-	nv.s1 += s * (du + 1)
-	nu.deg += s
-	nv.deg += s
+	c.markSide(u, 0)
+	c.markSide(v, 1)
 	k := int64(len(c.common))
-	nu.tri += s * k
-	nv.tri += s * k
+	for _, x := range [2]uint32{u, v} {
+		c.nodes[x].tri += s * k
+	}
 	for _, r := range c.common {
 		c.nodes[r].tri += s
+		c.touch(r)
 	}
+	c.lightSums(u, v, s)
+	c.lightSums(v, u, s)
 	if c.maxNodes == 4 {
-		c.diamonds(u, v, du+dv, s)
-		var p int64
-		if costU <= costV {
-			p = c.cycles(u, v, 1, dv, s)
+		c.cliques(u, v, s)
+		c.diamonds(u, v, s)
+		c.diamonds(v, u, s)
+		if c.nodes[u].deg <= c.nodes[v].deg {
+			c.cycles(u, v, 1, s)
 		} else {
-			p = c.cycles(v, u, 0, du, s)
+			c.cycles(v, u, 0, s)
 		}
-		c.four[u].cyc += s * p
-		c.four[v].cyc += s * p
 	}
-	c.edgeTriangles(u, v, s)
-	for side, x := range [2]uint32{u, v} {
-		m := c.marks[side]
-		for _, y := range c.adj[x].nbr {
+	c.unmark(u, 0)
+	c.unmark(v, 1)
+}
+
+// markSide marks N(x) in marks[side] when x is light.
+func (c *Counter) markSide(x uint32, side int) {
+	if c.isHeavy(x) {
+		return
+	}
+	m := c.marks[side]
+	for it := c.adj[x].runs(); it.next(); {
+		for _, y := range it.nbr {
+			m[y>>6] |= 1 << (y & 63)
+		}
+	}
+}
+
+func (c *Counter) unmark(x uint32, side int) {
+	if c.isHeavy(x) {
+		return
+	}
+	m := c.marks[side]
+	for it := c.adj[x].runs(); it.next(); {
+		for _, y := range it.nbr {
 			m[y>>6] = 0
 		}
 	}
 }
 
-// markSide sets N(x)\{other} in marks[side] and x and N(x) in sources,
-// moves their neighbour degree sums by s and, for the second side,
-// collects the common neighbours.
-func (c *Counter) markSide(x, other uint32, side int, s int64) {
-	m, first := c.marks[side], c.marks[0]
-	c.sources[x>>6] |= 1 << (x & 63)
-	for _, y := range c.adj[x].nbr {
-		if y == other {
-			continue
-		}
-		c.nodes[y].s1 += s
-		w, b := y>>6, uint64(1)<<(y&63)
-		m[w] |= b
-		c.sources[w] |= b
-		if side == 1 && first[w]&b != 0 {
-			c.common = append(c.common, y)
-		}
+// in reports whether z ∈ N(x), x being the endpoint on side.
+func (c *Counter) in(x uint32, side int, z uint32) bool {
+	if !c.isHeavy(x) {
+		return c.marks[side][z>>6]>>(z&63)&1 != 0
 	}
+	return c.adj[x].has(z)
 }
 
-// edgeTriangles moves tri(u,r), tri(v,r) and their mirrors by s for every
-// common neighbour r, then adds (insert) or removes (delete) the adjacency
-// entries of uv itself, with tri(u,v) = |W|.
-func (c *Counter) edgeTriangles(u, v uint32, s int64) {
-	d := uint32(s) // mod 2^32, so ^0 subtracts one
-	for _, r := range c.common {
-		c.addTri(u, r, d)
-		c.addTri(v, r, d)
-		c.addTri(r, u, d)
-		c.addTri(r, v, d)
+// lightSums moves the light-degree sums for x's degree change when x is
+// light: l1 of every z ∈ N(x) by s and of the other endpoint by s·(d(x)+1)
+// (its new neighbour's degree in G), and al of the heavy neighbours of
+// each z ∈ N(x). The other endpoint's own heavy neighbours hear of its l1
+// through terms.
+func (c *Counter) lightSums(x, other uint32, s int64) {
+	if c.isHeavy(x) {
+		return
 	}
-	k := uint32(len(c.common))
-	for _, e := range [2][2]uint32{{u, v}, {v, u}} {
-		a := &c.adj[e[0]]
-		i, _ := slices.BinarySearch(a.nbr, e[1])
-		if s > 0 {
-			a.nbr = slices.Insert(a.nbr, i, e[1])
-			a.tri = slices.Insert(a.tri, i, k)
-		} else {
-			a.nbr = slices.Delete(a.nbr, i, i+1)
-			a.tri = slices.Delete(a.tri, i, i+1)
+	for it := c.adj[x].runs(); it.next(); {
+		for _, z := range it.nbr {
+			c.nodes[z].l1 += s
+			if c.maxNodes == 4 {
+				for _, h := range c.heavyN[z] {
+					c.hv[h].al += s
+					c.touch(h)
+				}
+			}
+			if c.isHeavy(z) {
+				c.touch(z)
+			}
 		}
 	}
+	c.nodes[other].l1 += s * (c.nodes[x].deg + 1)
+	c.touch(other)
 }
 
-// addTri adds d to tri(x,y); y must be in N(x).
-func (c *Counter) addTri(x, y, d uint32) {
-	i, _ := slices.BinarySearch(c.adj[x].nbr, y)
-	c.adj[x].tri[i] += d
-}
-
-// has reports whether y ∈ N(x).
-func (c *Counter) has(x, y uint32) bool {
-	_, ok := slices.BinarySearch(c.adj[x].nbr, y)
-	return ok
-}
-
-// diamonds applies the K4 and diamond changes of update; span is
-// d(u) + d(v) in G⁻.
-func (c *Counter) diamonds(u, v uint32, span int64, s int64) {
+// cliques applies the K4 changes (the edges inside W) and the diamonds
+// with uv as the chord.
+func (c *Counter) cliques(u, v uint32, s int64) {
 	k := int64(len(c.common))
-	var atU, atV, inside int64
+	var inside int64
 	for _, r := range c.common {
-		fr := &c.four[r]
-		fr.dd2 += s * (k - 1)
 		var kr int64
-		if c.nodes[r].deg <= containsRatio*span {
-			for _, o := range c.adj[r].nbr {
-				b := c.bits(o)
-				if b == 0 {
-					continue
+		a := &c.adj[r]
+		if int64(a.size()) <= containsRatio*k {
+			for it := a.runs(); it.next(); {
+				for _, o := range it.nbr {
+					kr += int64(c.inW[o>>6] >> (o & 63) & 1)
 				}
-				if b&inV != 0 {
-					c.four[o].dd2 += s
-					atU++
-				}
-				if b&inU != 0 {
-					c.four[o].dd2 += s
-					atV++
-				}
-				if b == both {
+			}
+		} else {
+			for _, o := range c.common {
+				if a.has(o) {
 					kr++
 				}
 			}
-		} else {
-			for _, o := range c.adj[u].nbr {
-				if o != v && c.has(r, o) {
-					c.four[o].dd2 += s
-					atV++
-					if c.bits(o)&inV != 0 {
-						kr++
-					}
-				}
-			}
-			for _, o := range c.adj[v].nbr {
-				if o != u && c.has(r, o) {
-					c.four[o].dd2 += s
-					atU++
-				}
-			}
 		}
-		fr.k4 += s * kr
+		if kr != 0 {
+			c.four[r].k4 += s * kr
+			c.touch(r)
+		}
 		inside += kr
 	}
-	c.four[u].dd2 += s * atU
-	c.four[v].dd2 += s * atV
 	c.four[u].k4 += s * inside / 2
 	c.four[v].k4 += s * inside / 2
+	if len(c.common) > 1 && !(c.isHeavy(u) && c.isHeavy(v)) {
+		for _, r := range c.common {
+			c.four[r].dd2 += s * (k - 1)
+		}
+	}
 }
 
-// cycles counts the 4-cycles x–other–b–a–x of G⁻ from x's side: a ∈
-// N(x)\{other}, b ∈ N(a) set in marks[want] (b ∈ N(other)\{x}); dOther is
-// d(other) in G⁻. It moves cyc(a) and cyc(b) by s per cycle and returns
-// the number of cycles.
-func (c *Counter) cycles(x, other uint32, want int, dOther int64, s int64) int64 {
-	var total int64
-	mark := c.marks[want]
-	for _, a := range c.adj[x].nbr {
-		if a == other {
+// diamonds applies the diamond changes with u–v a side edge at u (a
+// degree-2 node) and v–r the chord, r ∈ W: the other degree-2 nodes are
+// o ∈ N(v) ∩ N(r), and u ∉ N(v) in G⁻.
+func (c *Counter) diamonds(u, v uint32, s int64) {
+	var atU int64
+	for _, r := range c.common {
+		if c.isHeavy(v) && c.isHeavy(r) {
 			continue
 		}
-		var m int64
-		if c.nodes[a].deg > containsRatio*dOther {
-			for _, b := range c.adj[other].nbr {
-				if b != x && c.has(a, b) {
-					c.four[b].cyc += s
-					m++
-				}
-			}
-		} else {
-			for _, b := range c.adj[a].nbr {
-				if mark[b>>6]>>(b&63)&1 != 0 {
-					c.four[b].cyc += s
-					m++
-				}
+		atU += c.commonWalk(v, r, func(o uint32) {
+			c.four[o].dd2 += s
+			c.touch(o)
+		})
+	}
+	c.four[u].dd2 += s * atU
+}
+
+// commonWalk calls f for every o ∈ N(p) ∩ N(q) and returns their number,
+// walking the shorter list and searching the longer.
+func (c *Counter) commonWalk(p, q uint32, f func(o uint32)) int64 {
+	a, b := &c.adj[p], &c.adj[q]
+	if a.size() > b.size() {
+		a, b = b, a
+	}
+	var n int64
+	for it := a.runs(); it.next(); {
+		for _, o := range it.nbr {
+			if b.has(o) {
+				f(o)
+				n++
 			}
 		}
-		c.four[a].cyc += s * m
-		total += m
 	}
-	return total
+	return n
+}
+
+// cycles applies the 4-cycle changes from the lighter endpoint x towards
+// y (marks on side sy): cycles x–y–b–a with a ∈ N(x) and
+// b ∈ N(a) ∩ N(y) (x ∉ N(y) in G⁻, so b ≠ x). A pair of two heavy nodes
+// is read from the pair counts, not kept: {y, a} for x and b, {x, b} for
+// y and a.
+func (c *Counter) cycles(x, y uint32, sy int, s int64) {
+	hx, hy := c.isHeavy(x), c.isHeavy(y)
+	var atX, atY int64
+	for it := c.adj[x].runs(); it.next(); {
+		for _, a := range it.nbr {
+			if hy && c.isHeavy(a) {
+				n := c.codeg(a, y)
+				if hx {
+					for _, b := range c.heavyN[a] {
+						if c.adj[y].has(b) {
+							n--
+						}
+					}
+				}
+				if n != 0 {
+					atY += n
+					c.four[a].cyc += s * n
+					c.touch(a)
+				}
+				continue
+			}
+			var m, ma int64
+			visit := func(b uint32) {
+				c.four[b].cyc += s
+				c.touch(b)
+				m++
+				if !(hx && c.isHeavy(b)) {
+					ma++
+				}
+			}
+			aa := &c.adj[a]
+			if !hy && int64(aa.size()) <= containsRatio*c.nodes[y].deg {
+				for jt := aa.runs(); jt.next(); {
+					for _, b := range jt.nbr {
+						if c.in(y, sy, b) {
+							visit(b)
+						}
+					}
+				}
+			} else {
+				c.commonWalk(a, y, visit)
+			}
+			atX += m
+			atY += ma
+			if ma != 0 {
+				c.four[a].cyc += s * ma
+				c.touch(a)
+			}
+		}
+	}
+	c.four[x].cyc += s * atX
+	c.four[y].cyc += s * atY
 }
