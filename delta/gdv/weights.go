@@ -1,4 +1,4 @@
-package alert
+package gdv
 
 import (
 	"math"
@@ -84,7 +84,7 @@ func Weights(cat *catalog.Catalog) []float64 {
 		}
 		w[i] = 1 - math.Log(float64(o))/math.Log(n)
 		if w[i] <= 0 {
-			panic("alert: an orbit depends on every orbit of the catalog")
+			panic("gdv: an orbit depends on every orbit of the catalog")
 		}
 	}
 	return w

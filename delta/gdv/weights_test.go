@@ -1,4 +1,4 @@
-package alert_test
+package gdv_test
 
 import (
 	"slices"
@@ -6,7 +6,7 @@ import (
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
-	"orbitwatch/shard/alert"
+	"orbitwatch/delta/gdv"
 )
 
 func TestDependenciesMatchPublishedWeights(t *testing.T) {
@@ -14,7 +14,7 @@ func TestDependenciesMatchPublishedWeights(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	got := alert.Dependencies(cat)
+	got := gdv.Dependencies(cat)
 	// o_i for orbits 0–17 in the numbering of Pržulj 2007 as used by
 	// Milenković & Pržulj 2008 for the GDV similarity weights, recalled from
 	// memory (orbits 0–14 and the 5-path's 15–17 are numbered as published;
@@ -56,7 +56,7 @@ func TestWeightsInRange(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		w := alert.Weights(cat)
+		w := gdv.Weights(cat)
 		if len(w) != cat.NumOrbits() {
 			t.Fatalf("%v %d: %d weights for %d orbits", c.kind, c.k, len(w), cat.NumOrbits())
 		}

@@ -34,7 +34,7 @@ func (m BaselineMode) String() string {
 type RuleKind uint8
 
 const (
-	// Signature scores the GDV distance (Distance) between the vector and
+	// Signature scores the GDV distance (gdv.Metric) between the vector and
 	// its baseline, in [0, 1].
 	Signature RuleKind = iota
 	// OrbitCount scores the node's count of one orbit.

@@ -2,7 +2,6 @@ package alert_test
 
 import (
 	"fmt"
-	"math"
 	"reflect"
 	"testing"
 	"time"
@@ -200,24 +199,6 @@ func TestAlertContent(t *testing.T) {
 	}
 	if a.ID != alert.AlertID("fan-out", "acct-9", 77) || len(a.ID) != 16 || a.ID == alert.AlertID("fan-out", "acct-9", 78) || a.ID == alert.AlertID("fan-ou", "tacct-9", 77) {
 		t.Fatalf("alert ids are not distinct per rule, node and seq")
-	}
-}
-
-func TestDistanceByHand(t *testing.T) {
-	w := []float64{1, 0.5}
-	contrib := make([]float64, 2)
-	// u = (3, 0), v = (1, 0): D_0 = ln(4/2)/ln(5) = 0.4307; D_1 = 0.
-	// D = (1·0.4307 + 0.5·0)/1.5 = 0.2871.
-	d := alert.Distance([]uint64{3, 0}, []float64{1, 0}, w, contrib)
-	if want := math.Log(2) / math.Log(5) / 1.5; math.Abs(d-want) > 1e-12 || math.Abs(contrib[0]-math.Log(2)/math.Log(5)) > 1e-12 || contrib[1] != 0 {
-		t.Fatalf("distance %v contrib %v, want %v", d, contrib, want)
-	}
-	// Equal vectors are at distance 0; a huge change stays below 1.
-	if d := alert.Distance([]uint64{5, 9}, []float64{5, 9}, w, contrib); d != 0 {
-		t.Fatalf("distance of equal vectors %v", d)
-	}
-	if d := alert.Distance([]uint64{1 << 40, 1 << 40}, []float64{0, 0}, w, contrib); d >= 1 || d < 0.99 {
-		t.Fatalf("distance of 2^40 from 0 is %v, want just below 1", d)
 	}
 }
 

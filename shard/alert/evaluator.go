@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"orbitwatch/delta/catalog"
+	"orbitwatch/delta/gdv"
 )
 
 // Cut is the point of the log an evaluation belongs to: its sequence, its
@@ -44,11 +45,11 @@ type Stats struct {
 // Evaluator applies a Config at each cut. It is not safe for concurrent
 // use; a worker calls it from its own goroutine.
 type Evaluator struct {
-	cfg     Config
-	cat     *catalog.Catalog
-	weights []float64
-	pairs   []int   // orbits of the 2-node graphlets: their sum is the degree
-	decay   float64 // ln 2 / half-life in ns, for BaselineDecayed
+	cfg    Config
+	cat    *catalog.Catalog
+	metric *gdv.Metric
+	pairs  []int   // orbits of the 2-node graphlets: their sum is the degree
+	decay  float64 // ln 2 / half-life in ns, for BaselineDecayed
 
 	nodes map[string]*nodeState
 	// Scratch for one node, reused so Evaluate allocates only for
@@ -87,7 +88,7 @@ func New(cfg Config, cat *catalog.Catalog) *Evaluator {
 	}
 	n := cat.NumOrbits()
 	e := &Evaluator{
-		cfg: cfg, cat: cat, weights: Weights(cat),
+		cfg: cfg, cat: cat, metric: gdv.ForCatalog(cat),
 		nodes: make(map[string]*nodeState),
 		base:  make([]float64, n), contrib: make([]float64, n),
 		minute: math.MinInt64,
@@ -163,7 +164,7 @@ func (e *Evaluator) node(cut Cut, t int64, nc *NodeChange, out []Alert) []Alert 
 			total = math.MaxUint64
 		}
 	}
-	dist := Distance(nc.Now, e.base, e.weights, e.contrib)
+	dist := e.metric.Between(nc.Now, e.base, e.contrib)
 	for ri := range e.cfg.Rules {
 		r := &e.cfg.Rules[ri]
 		signed := hasBase && baseTotal > 0 && baseDegree >= float64(r.MinDegree)
