@@ -128,3 +128,31 @@ func TestProvenance(t *testing.T) {
 		t.Logf("%v 2..%d: %d of %d orbits published", s.kind, s.max, published, c.NumOrbits())
 	}
 }
+
+// TestOverlap checks the orbit-equation matrix: upper triangular with a
+// unit diagonal, and by hand for a few entries that follow from the
+// definitions: a triangle holds 3 spanning 3-paths, its node is the
+// middle of one and an end of two (A[2][3] = 1, A[1][3] = 2); K4 holds 16
+// spanning trees (Cayley: 4^2), 12 of them 4-paths and 4 of them 3-stars;
+// its node is the centre of one star (A[7][14] = 1) and a leaf of three
+// (A[6][14] = 3); K5 holds 60 Hamiltonian paths (5!/2), each node the
+// middle of 12 (A[17][72] = 12).
+func TestOverlap(t *testing.T) {
+	c, _ := New(delta.Undirected, 5)
+	a := c.Overlap()
+	for p := range a {
+		for o := range a[p] {
+			if (p == o && a[p][o] != 1) || (p > o && a[p][o] != 0) {
+				t.Fatalf("A[%d][%d] = %d breaks the triangular order", p, o, a[p][o])
+			}
+		}
+	}
+	for _, w := range []struct {
+		p, o int
+		want int64
+	}{{2, 3, 1}, {1, 3, 2}, {7, 14, 1}, {6, 14, 3}, {5, 14, 6}, {4, 14, 6}, {17, 72, 12}, {15, 72, 24}, {23, 72, 1}} {
+		if a[w.p][w.o] != w.want {
+			t.Errorf("A[%d][%d] = %d, want %d", w.p, w.o, a[w.p][w.o], w.want)
+		}
+	}
+}

@@ -1,0 +1,253 @@
+package five
+
+import (
+	"math"
+
+	"orbitwatch/delta/catalog"
+)
+
+// worker is one goroutine's scratch space and core counts. acc[x·58 + o−15]
+// counts how often the core listing reached node x in 5-node orbit o.
+type worker struct {
+	c   *csr
+	eq  *equations
+	acc []uint64
+
+	mask  []uint8  // attachment of a node to the current core's positions
+	stamp []uint32 // neighbour marks of one node, valid while == cur
+	cur   uint32
+	list  []uint32
+
+	// Wedges v–a–c of the current v, grouped by c: a linked list per c
+	// from head[c] (valid while hstamp[c] == v+1) through wnext.
+	nbrOf   []uint32 // nbrOf[y] == v+1 only when y is a neighbour of v
+	hstamp  []uint32
+	head    []int32
+	wa      []uint32
+	wnext   []int32
+	reached []uint32
+	as, bs  []uint32
+
+	cnt     []uint32 // codegree of x with each node, for the tree pass
+	touched []uint32
+}
+
+func newWorker(c *csr, eq *equations) *worker {
+	n := c.n
+	return &worker{c: c, eq: eq, acc: make([]uint64, n*num5), mask: make([]uint8, n), stamp: make([]uint32, n),
+		nbrOf: make([]uint32, n), hstamp: make([]uint32, n), head: make([]int32, n), cnt: make([]uint32, n)}
+}
+
+// Code bits: a triangle on positions 0, 1, 2; a 4-cycle 0–1–2–3–0; and
+// the bits joining position 3 or 4 to the core positions set in a mask.
+var (
+	triCode = bitOf(0, 1) | bitOf(0, 2) | bitOf(1, 2)
+	c4Code  = bitOf(0, 1) | bitOf(1, 2) | bitOf(2, 3) | bitOf(0, 3)
+	c5Code  = c4Code&^bitOf(0, 3) | bitOf(3, 4) | bitOf(0, 4)
+	attach3 = attachBits(3, 3)
+	attach4 = attachBits(4, 3)
+	attachC = attachBits(4, 4)
+	bit34   = bitOf(3, 4)
+)
+
+func bitOf(i, j int) uint32 { return 1 << catalog.PairBit(i, j) }
+
+// attachBits returns, for every mask of the first k positions, the code
+// bits joining position p to the positions in the mask.
+func attachBits(p, k int) []uint32 {
+	out := make([]uint32, 1<<k)
+	for m := range out {
+		for i := range k {
+			if m>>i&1 != 0 {
+				out[m] |= bitOf(i, p)
+			}
+		}
+	}
+	return out
+}
+
+// credit counts the connected 5-node set t (tuple positions 0–4, code
+// its induced adjacency code) once for each member's orbit.
+func (w *worker) credit(t *[5]uint32, code uint32) {
+	_, orbs := w.eq.cat.Lookup(5, code)
+	for p, x := range t {
+		w.acc[int(x)*num5+int(orbs[p])-first5]++
+	}
+}
+
+func (w *worker) tick() uint32 {
+	if w.cur == math.MaxUint32 {
+		clear(w.stamp)
+		w.cur = 0
+	}
+	w.cur++
+	return w.cur
+}
+
+// triangleCores lists the triangles whose lowest-ranked node is v (edges
+// oriented up the degree order, so each triangle once) and counts the
+// connected 5-node sets that extend each by two nodes.
+func (w *worker) triangleCores(v uint32) {
+	c := w.c
+	// nbrOf, not stamp: extendTriangle ticks the stamps.
+	mark := v + 1
+	for _, u := range c.up(v) {
+		w.nbrOf[u] = mark
+	}
+	for _, u := range c.up(v) {
+		for _, x := range c.up(u) {
+			if w.nbrOf[x] == mark {
+				w.extendTriangle(v, u, x)
+			}
+		}
+	}
+}
+
+// extendTriangle counts every 5-node set {a, b, x, w1, w2} ⊇ the
+// triangle that is connected: both w1 and w2 adjacent to the triangle
+// (each unordered pair once), or w1 adjacent to it and w2 adjacent to w1
+// only.
+func (w *worker) extendTriangle(a, b, x uint32) {
+	c := w.c
+	core := [3]uint32{a, b, x}
+	l := w.list[:0]
+	for i, t := range core {
+		for _, y := range c.nb(t) {
+			if y == a || y == b || y == x {
+				continue
+			}
+			if w.mask[y] == 0 {
+				l = append(l, y)
+			}
+			w.mask[y] |= 1 << i
+		}
+	}
+	t := [5]uint32{a, b, x}
+	for i, w1 := range l {
+		t[3] = w1
+		code := triCode | attach3[w.mask[w1]]
+		rest := l[i+1:]
+		stamped := c.deg(w1) <= 8*len(rest)
+		var s uint32
+		if stamped {
+			s = w.tick()
+			for _, y := range c.nb(w1) {
+				w.stamp[y] = s
+			}
+		}
+		for _, w2 := range rest {
+			t[4] = w2
+			k := code | attach4[w.mask[w2]]
+			if (stamped && w.stamp[w2] == s) || (!stamped && c.adjacent(w1, w2)) {
+				k |= bit34
+			}
+			w.credit(&t, k)
+		}
+		for _, y := range c.nb(w1) {
+			if w.mask[y] == 0 && y != a && y != b && y != x {
+				t[4] = y
+				w.credit(&t, code|bit34)
+			}
+		}
+	}
+	for _, y := range l {
+		w.mask[y] = 0
+	}
+	w.list = l
+}
+
+// cycleCores lists the induced 4-cycles and 5-cycles whose highest-ranked
+// node is v, each once, and counts the 5-node sets they make: a 4-cycle
+// with each node adjacent to it, a 5-cycle alone. Both start from the
+// wedges v–a–c with a and c ranked below v and c not adjacent to v
+// (which an induced cycle through v needs).
+func (w *worker) cycleCores(v uint32) {
+	c := w.c
+	mark := v + 1
+	for _, y := range c.nb(v) {
+		w.nbrOf[y] = mark
+	}
+	w.wa, w.wnext, w.reached = w.wa[:0], w.wnext[:0], w.reached[:0]
+	rv := c.rank[v]
+	for _, a := range c.nb(v) {
+		if c.rank[a] > rv {
+			continue
+		}
+		for _, y := range c.nb(a) {
+			if c.rank[y] >= rv || w.nbrOf[y] == mark {
+				continue
+			}
+			if w.hstamp[y] != mark {
+				w.hstamp[y] = mark
+				w.head[y] = -1
+				w.reached = append(w.reached, y)
+			}
+			w.wa = append(w.wa, a)
+			w.wnext = append(w.wnext, w.head[y])
+			w.head[y] = int32(len(w.wa) - 1)
+		}
+	}
+	for _, y := range w.reached {
+		w.as = w.wedges(y, w.as[:0])
+		// 4-cycles v–a–y–b: induced when a and b are not adjacent.
+		for i, a := range w.as {
+			for _, b := range w.as[i+1:] {
+				if !c.adjacent(a, b) {
+					w.extendSquare(v, a, y, b)
+				}
+			}
+		}
+		// 5-cycles v–a–y–z–b with y < z: induced when a≁b, a≁z, b≁y.
+		for _, z := range c.nb(y) {
+			if z < y || w.hstamp[z] != mark {
+				continue
+			}
+			w.bs = w.wedges(z, w.bs[:0])
+			for _, a := range w.as {
+				if c.adjacent(a, z) {
+					continue
+				}
+				for _, b := range w.bs {
+					if a != b && !c.adjacent(a, b) && !c.adjacent(b, y) {
+						t := [5]uint32{v, a, y, z, b}
+						w.credit(&t, c5Code)
+					}
+				}
+			}
+		}
+	}
+}
+
+// wedges appends the nodes a of the wedges v–a–y of the current v.
+func (w *worker) wedges(y uint32, dst []uint32) []uint32 {
+	for i := w.head[y]; i >= 0; i = w.wnext[i] {
+		dst = append(dst, w.wa[i])
+	}
+	return dst
+}
+
+// extendSquare counts the 5-node sets made of the induced 4-cycle
+// p0–p1–p2–p3–p0 and one node adjacent to it.
+func (w *worker) extendSquare(p0, p1, p2, p3 uint32) {
+	c := w.c
+	core := [4]uint32{p0, p1, p2, p3}
+	l := w.list[:0]
+	for i, t := range core {
+		for _, y := range c.nb(t) {
+			if y == p0 || y == p1 || y == p2 || y == p3 {
+				continue
+			}
+			if w.mask[y] == 0 {
+				l = append(l, y)
+			}
+			w.mask[y] |= 1 << i
+		}
+	}
+	t := [5]uint32{p0, p1, p2, p3}
+	for _, y := range l {
+		t[4] = y
+		w.credit(&t, c4Code|attachC[w.mask[y]])
+		w.mask[y] = 0
+	}
+	w.list = l
+}

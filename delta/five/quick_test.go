@@ -1,0 +1,33 @@
+package five
+
+import (
+	"math/rand/v2"
+	"testing"
+
+	"orbitwatch/delta"
+	"orbitwatch/delta/brute"
+	"orbitwatch/delta/catalog"
+)
+
+func TestQuickRandom(t *testing.T) {
+	cat, _ := catalog.New(delta.Undirected, 5)
+	r := rand.New(rand.NewPCG(1, 2))
+	for trial := 0; trial < 200; trial++ {
+		n := 5 + r.IntN(12)
+		p := 0.1 + 0.6*r.Float64()
+		g := delta.NewGraph(delta.Undirected)
+		g.Grow(n)
+		for a := 0; a < n; a++ {
+			for b := a + 1; b < n; b++ {
+				if r.Float64() < p {
+					g.Increment(uint32(a), uint32(b))
+				}
+			}
+		}
+		want := brute.Count(g, cat)
+		got := NewRecounter(Options{}).Recount(g)
+		if x, o, a, b, ok := got.FirstDiff(want); !ok {
+			t.Fatalf("trial %d n=%d: node %d orbit %d (%s): got %d want %d", trial, n, x, o, cat.Orbits[o].Name, a, b)
+		}
+	}
+}
