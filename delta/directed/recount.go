@@ -1,0 +1,504 @@
+package directed
+
+import (
+	"fmt"
+	"sync/atomic"
+
+	"orbitwatch/delta"
+)
+
+// maxRecountDegree bounds the degrees Recount accepts: with d ≤ 2^20 every
+// pattern count (at most about d³, e.g. the ordered 3-stars at a node)
+// fits in int64.
+const maxRecountDegree = 1 << 20
+
+type recounter struct {
+	k  int
+	eq *equations
+}
+
+// NewRecounter returns the static directed recount of orbits on
+// 2..maxNodes nodes (maxNodes 3 or 4), a code path separate from Triads
+// and from every enumerating engine. It snapshots the graph into rows
+// relabelled by degree with the pair type of every entry, counts each
+// triangle once from its lowest node (typed triangles per node and per
+// edge), each non-induced 4-cycle once from its highest node, each
+// diamond with a degree-2 node at a triangle, each K4 once; every other
+// pattern (stars, paths, tailed triangles, diamonds at a degree-3 node)
+// comes from sums over a node's neighbours, and the orbit equations turn
+// each node's 730 pattern counts into orbit counts. Passes run on
+// runtime.GOMAXPROCS goroutines; the result does not depend on their
+// number.
+func NewRecounter(maxNodes int) delta.Recounter {
+	if maxNodes != 3 && maxNodes != 4 {
+		panic(fmt.Sprintf("directed: recount of %d-node graphlets (want 3 or 4)", maxNodes))
+	}
+	return &recounter{k: maxNodes, eq: equationsFor(maxNodes)}
+}
+
+// tri9 is one edge's triangles by type: tri9[p*3+q] for the entry (x, y)
+// counts the nodes r with type(x,r) = p+1 and type(y,r) = q+1.
+type tri9 [9]uint32
+
+// state is what the passes of one recount share.
+type state struct {
+	s   *snapshot
+	eq  *equations
+	vec *delta.Vectors
+	// tri[x] holds x's ordered triangles: tri[x][a][b][c] counts the
+	// ordered pairs (y, z) with type(x,y) = a, type(y,z) = b,
+	// type(x,z) = c (indices t−1).
+	tri [][3][3][3]int64
+	// edge[i] is the typed triangle count of entry i (4 nodes only).
+	edge []tri9
+	// w[x][a][b] = Σ_{y : type(x,y) = a} d_b(y).
+	w [][3][3]int64
+}
+
+// Recount returns every node's orbit vector. g must be Directed with no
+// node joined to more than 2^20 others.
+func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
+	if g.Kind() != delta.Directed {
+		panic("directed: recount of a graph of kind " + g.Kind().String())
+	}
+	s := newSnapshot(g)
+	n := s.numNodes()
+	if n > 0 && s.off[n]-s.off[n-1] > maxRecountDegree {
+		panic(fmt.Sprintf("directed: degree %d above 2^20, counts could overflow int64", s.off[n]-s.off[n-1]))
+	}
+	st := &state{s: s, eq: r.eq, vec: delta.NewVectors(n, r.eq.cat.NumOrbits()), tri: make([][3][3][3]int64, n), w: make([][3][3]int64, n)}
+	if r.k == 4 {
+		st.edge = make([]tri9, len(s.adj))
+	}
+	st.triangles()
+	if r.k == 4 {
+		st.mirror()
+	}
+	forEachNode(n, func(_ int, x uint32) {
+		w := &st.w[x]
+		for i := s.off[x]; i < s.off[x+1]; i++ {
+			d := &s.deg[s.adj[i]]
+			a := s.typ[i] - 1
+			for b := range 3 {
+				w[a][b] += d[b]
+			}
+		}
+	})
+	if r.k == 4 {
+		st.cycles()
+		st.diamondsAndCliques()
+	}
+	scratch := make([]*solveScratch, workers())
+	forEachNode(n, func(wk int, x uint32) {
+		if scratch[wk] == nil {
+			scratch[wk] = &solveScratch{n: make([]int64, r.eq.cat.NumOrbits())}
+		}
+		if err := st.solveNode(scratch[wk], x, r.k); err != nil {
+			panic(err)
+		}
+	})
+	return st.vec
+}
+
+// triangles counts every triangle x < y < z once, from x: the ordered
+// triangles of its three nodes and, for 4 nodes, the typed counts of its
+// three edges at their lower ends.
+func (st *state) triangles() {
+	s := st.s
+	forEachNode(s.numNodes(), func(_ int, x uint32) {
+		s.forEachTriangle(x, func(i, p, q int) {
+			y, z := s.adj[i], s.adj[p]
+			xy, xz, yz := s.typ[i], s.typ[p], s.typ[q]
+			yx, zx, zy := rev(xy), rev(xz), rev(yz)
+			st.addTri(x, xy, yz, xz)
+			st.addTri(x, xz, zy, xy)
+			st.addTri(y, yx, xz, yz)
+			st.addTri(y, yz, zx, yx)
+			st.addTri(z, zx, xy, zy)
+			st.addTri(z, zy, yx, zx)
+			if st.edge != nil {
+				atomic.AddUint32(&st.edge[i][(xz-1)*3+yz-1], 1)
+				atomic.AddUint32(&st.edge[p][(xy-1)*3+zy-1], 1)
+				atomic.AddUint32(&st.edge[q][(yx-1)*3+zx-1], 1)
+			}
+		})
+	})
+}
+
+// addTri counts one ordered triangle (y, z) at x with type(x,y) = a,
+// type(y,z) = b, type(x,z) = c.
+func (st *state) addTri(x uint32, a, b, c uint8) {
+	atomic.AddInt64(&st.tri[x][a-1][b-1][c-1], 1)
+}
+
+// mirror copies every edge's typed triangle counts from its lower end's
+// entry to its upper end's, transposed: tri(y,x)[q][p] = tri(x,y)[p][q].
+func (st *state) mirror() {
+	s := st.s
+	forEachNode(s.numNodes(), func(_ int, x uint32) {
+		for j := s.off[x]; j < s.up[x]; j++ {
+			k := s.find(s.adj[j], x)
+			src, dst := &st.edge[k], &st.edge[j]
+			for p := range 3 {
+				for q := range 3 {
+					dst[q*3+p] = src[p*3+q]
+				}
+			}
+		}
+	})
+}
+
+// credit adds v to node x's pattern count of orbit o (a slot of the output
+// row, read back by solveNode).
+func (st *state) credit(x uint32, o int, v uint64) {
+	atomic.AddUint64(&st.vec.Row(st.s.orig[x])[o], v)
+}
+
+// cycles counts the non-induced 4-cycles x–y–z–w–x once each, from their
+// highest node x: the wedges x–y–z with y, z below x are counted per z by
+// wedge type β = (type(x,y), type(y,z)), and every pair of wedges to one z
+// is a cycle. The pattern of a cycle at a node n reads
+// (type(n,n1), type(n1,m), type(n,n2), type(n2,m)) with m opposite n;
+// each labelled tuple is credited to its orbit's slot when that is the
+// canonical form (equations.slot). x and z get one tuple per ordered pair
+// of distinct wedges; a middle y gets, per other wedge through w, the
+// tuples (y, x, w, z) and (y, z, w, x). The work is Σ_x Σ_{y∈N(x), y<x}
+// |N(y) ∩ [0,x)| (Chiba & Nishizeki 1985) plus the credits.
+func (st *state) cycles() {
+	s, eq := st.s, st.eq
+	n := s.numNodes()
+	type scratch struct {
+		cn   [][9]uint32
+		seen []uint32
+	}
+	scr := make([]*scratch, workers())
+	forEachNode(n, func(wk int, x uint32) {
+		if scr[wk] == nil {
+			scr[wk] = &scratch{cn: make([][9]uint32, n)}
+		}
+		sc := scr[wk]
+		cn, seen := sc.cn, sc.seen[:0]
+		s.forEachWedgeBelow(x, func(_, z uint32, a, b uint8) {
+			c := &cn[z]
+			if *c == ([9]uint32{}) {
+				seen = append(seen, z)
+			}
+			c[(a-1)*3+b-1]++
+		})
+		for _, z := range seen {
+			c := &cn[z]
+			for b1 := range 9 {
+				if c[b1] == 0 {
+					continue
+				}
+				a1, z1 := uint8(b1/3+1), uint8(b1%3+1)
+				for b2 := range 9 {
+					if c[b2] == 0 {
+						continue
+					}
+					k := uint64(c[b1]) * uint64(c[b2])
+					if b1 == b2 {
+						k -= uint64(c[b1])
+					}
+					if k == 0 {
+						continue
+					}
+					a2, z2 := uint8(b2/3+1), uint8(b2%3+1)
+					if o := eq.slotOf(fCycle, a1, z1, a2, z2); o >= 0 {
+						st.credit(x, o, k)
+					}
+					if o := eq.slotOf(fCycle, rev(z1), rev(a1), rev(z2), rev(a2)); o >= 0 {
+						st.credit(z, o, k)
+					}
+				}
+			}
+		}
+		s.forEachWedgeBelow(x, func(y, z uint32, a, b uint8) {
+			c := &cn[z]
+			mine := (a-1)*3 + b - 1
+			for b2 := range 9 {
+				k := uint64(c[b2])
+				if uint8(b2) == mine {
+					k--
+				}
+				if k == 0 {
+					continue
+				}
+				a2, z2 := uint8(b2/3+1), uint8(b2%3+1)
+				if o := eq.slotOf(fCycle, rev(a), a2, b, rev(z2)); o >= 0 {
+					st.credit(y, o, k)
+				}
+				if o := eq.slotOf(fCycle, b, rev(z2), rev(a), a2); o >= 0 {
+					st.credit(y, o, k)
+				}
+			}
+		})
+		for _, z := range seen {
+			cn[z] = [9]uint32{}
+		}
+		sc.seen = seen
+	})
+}
+
+// diamondsAndCliques visits every triangle once more, now that every
+// edge's typed triangle count is known. For each of its nodes n and each
+// order (p, q) of the other two it credits the diamonds with n at a
+// degree-2 node: per type pair (e, f), tri(p,q)[e][f] nodes w joined to p
+// and q, less n itself. A K4 x < y < z′ < z is found at the triangle x, y,
+// z as the earlier triangle x, y, z′ with z′ joined to z; each of its
+// nodes is credited once per ordering of the other three that is its
+// orbit's canonical form.
+func (st *state) diamondsAndCliques() {
+	s := st.s
+	type earlier struct {
+		z    uint32
+		p, q int
+	}
+	lists := make([][]earlier, workers())
+	forEachNode(s.numNodes(), func(wk int, x uint32) {
+		zs := lists[wk][:0]
+		last := -1
+		s.forEachTriangle(x, func(i, p, q int) {
+			y, z := s.adj[i], s.adj[p]
+			xy, xz, yz := s.typ[i], s.typ[p], s.typ[q]
+			st.diamondAt(x, xy, xz, yz, &st.edge[q])
+			st.diamondAt(y, rev(xy), yz, xz, &st.edge[p])
+			st.diamondAt(z, rev(xz), rev(yz), xy, &st.edge[i])
+			if i != last {
+				zs, last = zs[:0], i
+			}
+			for _, e := range zs {
+				if k := s.find(e.z, z); k >= 0 {
+					st.clique([4]uint32{x, y, e.z, z}, [6]uint8{xy, s.typ[e.p], xz, s.typ[e.q], yz, s.typ[k]})
+				}
+			}
+			zs = append(zs, earlier{z, p, q})
+		})
+		lists[wk] = zs
+	})
+}
+
+// diamondAt credits the diamonds at apex n of the triangle n, p, q with
+// type(n,p) = np, type(n,q) = nq, type(p,q) = pq, and t the typed
+// triangle count of (p, q) from p's side, for both orders of p and q.
+func (st *state) diamondAt(n uint32, np, nq, pq uint8, t *tri9) {
+	eq := st.eq
+	pn, qn := rev(np), rev(nq)
+	for e := uint8(1); e <= 3; e++ {
+		for f := uint8(1); f <= 3; f++ {
+			// (p, q): w with type(p,w) = e, type(q,w) = f.
+			k := uint64(t[(e-1)*3+f-1])
+			if e == pn && f == qn {
+				k--
+			}
+			if k > 0 {
+				if o := eq.slotOf(fDiamondDeg2, np, nq, pq, e, f); o >= 0 {
+					st.credit(n, o, k)
+				}
+			}
+			// (q, p): w with type(q,w) = e, type(p,w) = f.
+			k = uint64(t[(f-1)*3+e-1])
+			if e == qn && f == pn {
+				k--
+			}
+			if k > 0 {
+				if o := eq.slotOf(fDiamondDeg2, nq, np, rev(pq), e, f); o >= 0 {
+					st.credit(n, o, k)
+				}
+			}
+		}
+	}
+}
+
+// cliquePerms lists the orderings of positions 1, 2, 3.
+var cliquePerms = [6][3]int{{1, 2, 3}, {1, 3, 2}, {2, 1, 3}, {2, 3, 1}, {3, 1, 2}, {3, 2, 1}}
+
+// clique credits the K4 on nodes v (v[0] < v[1] < v[2] < v[3] need not
+// hold) with pair types t of (0,1), (0,2), (0,3), (1,2), (1,3), (2,3) seen
+// from the first node of each pair.
+func (st *state) clique(v [4]uint32, t [6]uint8) {
+	var typ [4][4]uint8
+	pairs := [6][2]int{{0, 1}, {0, 2}, {0, 3}, {1, 2}, {1, 3}, {2, 3}}
+	for i, pr := range pairs {
+		typ[pr[0]][pr[1]] = t[i]
+		typ[pr[1]][pr[0]] = rev(t[i])
+	}
+	for root := range 4 {
+		others := [3]int{}
+		j := 0
+		for q := range 4 {
+			if q != root {
+				others[j] = q
+				j++
+			}
+		}
+		for _, perm := range cliquePerms {
+			pos := [4]int{root, others[perm[0]-1], others[perm[1]-1], others[perm[2]-1]}
+			var params [6]uint8
+			for i, e := range families[fClique].edges {
+				params[i] = typ[pos[e[0]]][pos[e[1]]]
+			}
+			if o := st.eq.slotOf(fClique, params[:]...); o >= 0 {
+				st.credit(v[root], o, 1)
+			}
+		}
+	}
+}
+
+// solveScratch is one worker's buffer for solveNode.
+type solveScratch struct {
+	n   []int64
+	sum sums
+}
+
+// sums are the sums over a node x's neighbours y that its 4-node patterns
+// need (indices t−1; tri(x,y)[b][c] counts r with type(x,r) = b,
+// type(y,r) = c):
+//
+//	q[a][b][c]       = Σ_{type(x,y)=a} w[y][b][c]
+//	leaf[a][b][c]    = Σ_{type(x,y)=a} d_b(y)·d_c(y)
+//	pend[a][b][c][e] = Σ_{type(x,y)=a} tri[y][b][c][e]
+//	v[a][b][c][e]    = Σ_{type(x,y)=a} tri(x,y)[b][c]·d_e(y)
+//	dd3[a][bc][ef]   = Σ_{type(x,y)=a} tri(x,y)[bc]·tri(x,y)[ef]
+type sums struct {
+	q    [3][3][3]int64
+	leaf [3][3][3]int64
+	pend [3][3][3][3]int64
+	v    [3][3][3][3]int64
+	dd3  [3][9][9]int64
+}
+
+// solveNode computes rank x's pattern counts (the 2–3 node ones by
+// smallPatterns, triangles from tri[x], the 4-node ones by the formulas of
+// fourPatterns, the slots credited by the enumerations), solves them and
+// stores x's orbit counts.
+func (st *state) solveNode(sc *solveScratch, x uint32, k int) error {
+	s := st.s
+	row := st.vec.Row(s.orig[x])
+	n := sc.n
+	for o := range n {
+		n[o] = int64(row[o])
+		if n[o] < 0 {
+			return fmt.Errorf("directed: node %d slot %d credited past 2^63", s.orig[x], o)
+		}
+	}
+	d := &s.deg[x]
+	st.eq.smallPatterns(n, d, &st.w[x])
+	tri := &st.tri[x]
+	for _, o := range st.eq.byFamily[fTriangle] {
+		p := &st.eq.patterns[o].params
+		n[o] += tri[p[0]-1][p[1]-1][p[2]-1]
+	}
+	if k == 4 {
+		st.neighbourSums(x, &sc.sum)
+		st.fourPatterns(n, x, &sc.sum)
+	}
+	if err := st.eq.solve(n, s.orig[x]); err != nil {
+		return err
+	}
+	for o, v := range n {
+		row[o] = uint64(v)
+	}
+	return nil
+}
+
+// neighbourSums fills the sums of rank x.
+func (st *state) neighbourSums(x uint32, sm *sums) {
+	s := st.s
+	*sm = sums{}
+	for i := s.off[x]; i < s.off[x+1]; i++ {
+		y := s.adj[i]
+		a := s.typ[i] - 1
+		dy := &s.deg[y]
+		wy := &st.w[y]
+		ty := &st.tri[y]
+		for b := range 3 {
+			for c := range 3 {
+				sm.q[a][b][c] += wy[b][c]
+				sm.leaf[a][b][c] += dy[b] * dy[c]
+				for e := range 3 {
+					sm.pend[a][b][c][e] += ty[b][c][e]
+				}
+			}
+		}
+		t := &st.edge[i]
+		if *t == (tri9{}) {
+			continue
+		}
+		for bc, k := range t {
+			if k == 0 {
+				continue
+			}
+			kk := int64(k)
+			for e := range 3 {
+				sm.v[a][bc/3][bc%3][e] += kk * dy[e]
+			}
+			for ef, k2 := range t {
+				sm.dd3[a][bc][ef] += kk * int64(k2)
+			}
+		}
+	}
+}
+
+// fourPatterns adds to n the pattern counts of the 4-node orbits that sums
+// over x's neighbours give (params in family edge order, ā the type seen
+// from the other side, [·] 1 when true):
+//
+//	star centre (a,b,c):  d_a·(d_b − [b=a])·(d_c − [c=a] − [c=b])
+//	star leaf (a,b,c):    leaf[a][b][c] − e₂·w[a][b] − e₁·w[a][c] + e₁e₂·d_a,
+//	                      e₁ = [b=ā], e₂ = [c=ā] + [c=b]
+//	4-path end (a,b,c):   q[a][b][c] − [b=ā]·d_a·d_c − [c=b̄]·(w[a][b] − [b=ā]·d_a) − tri[a][b][c̄]
+//	4-path middle (a,b,c): (d_a − [a=b])·(w[b][c] − [c=b̄]·d_b) − tri[b][c][a]
+//	tail end (a,b,c,e):   pend[a][b][c][e] − [b=ā]·tri[a][e][c] − [e=ā]·tri[a][b][c̄]
+//	tail degree 3 (a,b,c,e): tri[b][c][e]·(d_a − [a=b] − [a=e])
+//	tail degree 2 (a,b,c,e): v[a][b][c][e] − ([e=ā] + [e=c])·tri[a][c][b]
+//	diamond degree 3 (a,b,c,e,f): dd3[a][bc][ef] − [(b,c)=(e,f)]·tri[a][c][b]
+//
+// Each subtracted term counts the tuples of the sum whose nodes are not
+// distinct (a node met twice, or x met again). 4-cycles, diamonds at a
+// degree-2 node and K4s are in n already, credited by the enumerations.
+func (st *state) fourPatterns(n []int64, x uint32, sm *sums) {
+	eq := st.eq
+	d := &st.s.deg[x]
+	w := &st.w[x]
+	tri := &st.tri[x]
+	is := func(ok bool) int64 {
+		if ok {
+			return 1
+		}
+		return 0
+	}
+	for f := fStarCentre; f <= fDiamondDeg3; f++ {
+		if f == fCycle {
+			continue
+		}
+		for _, o := range eq.byFamily[f] {
+			p := &eq.patterns[o].params
+			a, b, c, e := p[0], p[1], p[2], p[3]
+			ar := rev(a)
+			A, B, C, E := a-1, b-1, c-1, e-1
+			var v int64
+			switch f {
+			case fStarCentre:
+				v = d[A] * (d[B] - is(b == a)) * (d[C] - is(c == a) - is(c == b))
+			case fStarLeaf:
+				e1, e2 := is(b == ar), is(c == ar)+is(c == b)
+				v = sm.leaf[A][B][C] - e2*w[A][B] - e1*w[A][C] + e1*e2*d[A]
+			case fPathEnd4:
+				v = sm.q[A][B][C] - is(b == ar)*d[A]*d[C] - is(c == rev(b))*(w[A][B]-is(b == ar)*d[A]) - tri[A][B][rev(c)-1]
+			case fPathMid4:
+				v = (d[A]-is(a == b))*(w[B][C]-is(c == rev(b))*d[B]) - tri[B][C][A]
+			case fTailEnd:
+				v = sm.pend[A][B][C][E] - is(b == ar)*tri[A][E][C] - is(e == ar)*tri[A][B][rev(c)-1]
+			case fTailDeg3:
+				v = tri[B][C][E] * (d[A] - is(a == b) - is(a == e))
+			case fTailDeg2:
+				v = sm.v[A][B][C][E] - (is(e == ar)+is(e == c))*tri[A][C][B]
+			case fDiamondDeg3:
+				F := p[4] - 1
+				v = sm.dd3[A][B*3+C][E*3+F] - is(b == e && c == p[4])*tri[A][C][B]
+			}
+			n[o] += v
+		}
+	}
+}
