@@ -3,6 +3,7 @@ package factored
 import (
 	"fmt"
 	"math/bits"
+	"slices"
 
 	"orbitwatch/delta"
 )
@@ -199,17 +200,32 @@ func (c *Counter) change(u, v uint32, s int64) {
 	}
 }
 
+// linked reports whether x and z are adjacent. A heavy node's list is
+// never searched: x heavy is adjacent to z exactly when z's short list of
+// heavy neighbours holds it. Two light nodes search the shorter list.
+func (c *Counter) linked(x, z uint32) bool {
+	switch {
+	case c.isHeavy(x):
+		return slices.Contains(c.heavyN[z], x)
+	case c.isHeavy(z):
+		return slices.Contains(c.heavyN[x], z)
+	case c.adj[x].size() > c.adj[z].size():
+		return c.adj[z].has(x)
+	}
+	return c.adj[x].has(z)
+}
+
 // collectCommon sets c.common to N(u) ∩ N(v) (the same in G and G⁻),
 // walking the shorter list and testing membership in the longer.
 func (c *Counter) collectCommon(u, v uint32) {
 	c.common = c.common[:0]
-	a, b := &c.adj[u], &c.adj[v]
-	if a.size() > b.size() {
-		a, b = b, a
+	a, other := &c.adj[u], v
+	if a.size() > c.adj[v].size() {
+		a, other = &c.adj[v], u
 	}
 	for r := a.runs(); r.next(); {
 		for _, y := range r.nbr {
-			if b.has(y) {
+			if c.linked(other, y) {
 				c.common = append(c.common, y)
 				c.inW[y>>6] |= 1 << (y & 63)
 			}

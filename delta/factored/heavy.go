@@ -146,7 +146,7 @@ func (c *Counter) movePairs(h uint32, s int64) {
 				}
 				n := c.codeg(h, q) - 1
 				c.four[w].cyc += s * n
-				if c.adj[h].has(q) {
+				if c.linked(h, q) {
 					c.four[w].dd2 += s * n
 				}
 				c.touch(w)

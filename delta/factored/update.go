@@ -82,7 +82,7 @@ func (c *Counter) in(x uint32, side int, z uint32) bool {
 	if !c.isHeavy(x) {
 		return c.marks[side][z>>6]>>(z&63)&1 != 0
 	}
-	return c.adj[x].has(z)
+	return c.linked(x, z)
 }
 
 // lightSums moves the light-degree sums for x's degree change when x is
@@ -128,7 +128,7 @@ func (c *Counter) cliques(u, v uint32, s int64) {
 			}
 		} else {
 			for _, o := range c.common {
-				if a.has(o) {
+				if c.linked(r, o) {
 					kr++
 				}
 			}
@@ -168,14 +168,13 @@ func (c *Counter) diamonds(u, v uint32, s int64) {
 // commonWalk calls f for every o ∈ N(p) ∩ N(q) and returns their number,
 // walking the shorter list and searching the longer.
 func (c *Counter) commonWalk(p, q uint32, f func(o uint32)) int64 {
-	a, b := &c.adj[p], &c.adj[q]
-	if a.size() > b.size() {
-		a, b = b, a
+	if c.adj[p].size() > c.adj[q].size() {
+		p, q = q, p
 	}
 	var n int64
-	for it := a.runs(); it.next(); {
+	for it := c.adj[p].runs(); it.next(); {
 		for _, o := range it.nbr {
-			if b.has(o) {
+			if c.linked(q, o) {
 				f(o)
 				n++
 			}
@@ -198,7 +197,7 @@ func (c *Counter) cycles(x, y uint32, sy int, s int64) {
 				n := c.codeg(a, y)
 				if hx {
 					for _, b := range c.heavyN[a] {
-						if c.adj[y].has(b) {
+						if c.linked(y, b) {
 							n--
 						}
 					}

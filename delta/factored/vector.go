@@ -219,7 +219,7 @@ func (c *Counter) heavyPairs(x uint32, q *local) {
 				continue
 			}
 			q.add(&q.cyc, n-1)
-			if c.adj[p].size() <= c.adj[r].size() && c.adj[p].has(r) || c.adj[p].size() > c.adj[r].size() && c.adj[r].has(p) {
+			if c.linked(p, r) {
 				q.add(&q.dd2, n-1)
 			}
 		}
