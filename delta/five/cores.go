@@ -104,9 +104,12 @@ func (w *worker) triangleCores(v uint32) {
 }
 
 // extendTriangle counts every 5-node set {a, b, x, w1, w2} ⊇ the
-// triangle that is connected: both w1 and w2 adjacent to the triangle
-// (each unordered pair once), or w1 adjacent to it and w2 adjacent to w1
-// only.
+// triangle that is connected: w1 and w2 both adjacent to the triangle, or
+// w1 adjacent to it and w2 adjacent to w1 only. Sets with w2 beyond the
+// triangle and adjacent pairs w1–w2 are listed one by one; the
+// non-adjacent pairs, which around a hub number C(d, 2), are counted by
+// the nodes' attachments to the triangle (7 classes), so the work is
+// linear in the degrees of the triangle's neighbours.
 func (w *worker) extendTriangle(a, b, x uint32) {
 	c := w.c
 	core := [3]uint32{a, b, x}
@@ -122,31 +125,65 @@ func (w *worker) extendTriangle(a, b, x uint32) {
 			w.mask[y] |= 1 << i
 		}
 	}
+	var size [8]int64        // nodes of l per attachment class
+	var adjPairs [8][8]int64 // adjacent pairs of l per class pair, each once
+	for _, y := range l {
+		size[w.mask[y]]++
+	}
 	t := [5]uint32{a, b, x}
-	for i, w1 := range l {
+	for _, w1 := range l {
 		t[3] = w1
-		code := triCode | attach3[w.mask[w1]]
-		rest := l[i+1:]
-		stamped := c.deg(w1) <= 8*len(rest)
-		var s uint32
-		if stamped {
-			s = w.tick()
-			for _, y := range c.nb(w1) {
-				w.stamp[y] = s
-			}
-		}
-		for _, w2 := range rest {
-			t[4] = w2
-			k := code | attach4[w.mask[w2]]
-			if (stamped && w.stamp[w2] == s) || (!stamped && c.adjacent(w1, w2)) {
-				k |= bit34
-			}
-			w.credit(&t, k)
-		}
+		m1 := w.mask[w1]
+		code := triCode | attach3[m1]
+		var near [8]int64 // neighbours of w1 in l per class
+		var chains int64  // neighbours of w1 beyond the triangle's reach
+		_, chain := w.eq.cat.Lookup(5, code|bit34)
 		for _, y := range c.nb(w1) {
-			if w.mask[y] == 0 && y != a && y != b && y != x {
-				t[4] = y
-				w.credit(&t, code|bit34)
+			m2 := w.mask[y]
+			switch {
+			case m2 != 0:
+				near[m2]++
+				if y > w1 {
+					adjPairs[min(m1, m2)][max(m1, m2)]++
+					t[4] = y
+					w.credit(&t, code|attach4[m2]|bit34)
+				}
+			case y != a && y != b && y != x:
+				chains++
+				w.acc[int(y)*num5+int(chain[4])-first5]++
+			}
+		}
+		if chains > 0 {
+			for p, y := range t[:4] {
+				w.acc[int(y)*num5+int(chain[p])-first5] += uint64(chains)
+			}
+		}
+		// w1's non-adjacent partners in l, class by class.
+		for m2 := uint8(1); m2 < 8; m2++ {
+			k := size[m2] - near[m2]
+			if m2 == m1 {
+				k--
+			}
+			if k > 0 {
+				_, orbs := w.eq.cat.Lookup(5, code|attach4[m2])
+				w.acc[int(w1)*num5+int(orbs[3])-first5] += uint64(k)
+			}
+		}
+	}
+	// The triangle's nodes once per non-adjacent pair.
+	for m1 := uint8(1); m1 < 8; m1++ {
+		for m2 := m1; m2 < 8; m2++ {
+			pairs := size[m1] * size[m2]
+			if m1 == m2 {
+				pairs = size[m1] * (size[m1] - 1) / 2
+			}
+			pairs -= adjPairs[m1][m2]
+			if pairs <= 0 {
+				continue
+			}
+			_, orbs := w.eq.cat.Lookup(5, triCode|attach3[m1]|attach4[m2])
+			for p, y := range core {
+				w.acc[int(y)*num5+int(orbs[p])-first5] += uint64(pairs)
 			}
 		}
 	}

@@ -51,12 +51,18 @@ func (r *Recounter) Recount(g *delta.Graph) *delta.Vectors {
 // around it; the orbits of the three 5-node trees by counting their
 // non-induced copies at each node by formula and solving the orbit
 // equations (catalog.Overlap) for the induced counts. g must be
-// undirected. The error is ErrOverflow.
+// undirected. The error is ErrOverflow, or after a bug an orbit that
+// solves to a negative count.
 func (r *Recounter) Count(g *delta.Graph) (*delta.Vectors, error) {
+	return r.count(g, loadEquations())
+}
+
+// count is Count with the equations given, so tests can show that wrong
+// coefficients are caught.
+func (r *Recounter) count(g *delta.Graph, eq *equations) (*delta.Vectors, error) {
 	if g.Kind() != delta.Undirected {
 		panic("five: recount of a graph that is not undirected")
 	}
-	eq := loadEquations()
 	c := newCSR(g)
 	n := c.n
 	out := delta.NewVectors(n, numOrbits)
@@ -98,14 +104,17 @@ func (r *Recounter) Count(g *delta.Graph) (*delta.Vectors, error) {
 		w.acc = nil
 	}
 	loc.sums()
-	var overflow atomic.Bool
+	if loc.ck.overflow {
+		return nil, ErrOverflow
+	}
+	var failed atomic.Pointer[error]
 	run.each(n, func(w int, x uint32) {
-		if !ws[w].trees(loc, x, out.Row(x)) {
-			overflow.Store(true)
+		if err := ws[w].trees(loc, x, out.Row(x)); err != nil {
+			failed.CompareAndSwap(nil, &err)
 		}
 	})
-	if overflow.Load() || loc.ck.overflow {
-		return nil, ErrOverflow
+	if err := failed.Load(); err != nil {
+		return nil, *err
 	}
 	return out, nil
 }

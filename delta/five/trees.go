@@ -9,8 +9,9 @@ import "fmt"
 //	o_p = N_p − Σ_{o ≠ p} A[p][o] · o_o
 //
 // with A = catalog.Overlap (a tree's copies lie on tree or cyclic node
-// sets; no tree holds another tree of the same size). It reports false on
-// overflow.
+// sets; no tree holds another tree of the same size). The error is
+// ErrOverflow, or an orbit that solves to a negative count (a broken
+// equation: never clamped).
 //
 // With d = d(x), N = N(x), t_y = common neighbours of x and y, t(·)
 // triangles at a node, c_y = common neighbours of x and y for every
@@ -30,7 +31,7 @@ import "fmt"
 // choices that repeat a node (the derivations are in the tests' brute
 // force check: every formula is held to enumeration on every connected
 // graph up to 7 nodes).
-func (w *worker) trees(l *local, x uint32, row []uint64) bool {
+func (w *worker) trees(l *local, x uint32, row []uint64) error {
 	c := w.c
 	var ck checked
 	// Codegrees of x with every node two steps away.
@@ -81,25 +82,25 @@ func (w *worker) trees(l *local, x uint32, row []uint64) bool {
 	end = ck.sub(ck.add(end, s1), sq)
 	n[pathEnd] = ck.add(ck.sub(end, 2*l.t2[x]), 2*t)
 	if ck.overflow {
-		return false
+		return ErrOverflow
 	}
 	for r, p := range w.eq.treeOrbit {
 		v := n[r]
 		for o := first5; o < numOrbits; o++ {
 			if a := w.eq.overlap[p][o]; a != 0 && o != p {
 				if row[o] > 1<<62 {
-					return false
+					return ErrOverflow
 				}
 				v = ck.sub(v, ck.mul(a, int64(row[o])))
 			}
 		}
 		if ck.overflow {
-			return false
+			return ErrOverflow
 		}
 		if v < 0 {
-			panic(fmt.Sprintf("five: tree orbit %d of node %d solves to %d", p, x, v))
+			return fmt.Errorf("five: tree orbit %d of node %d solves to %d", p, x, v)
 		}
 		row[p] = uint64(v)
 	}
-	return true
+	return nil
 }

@@ -9,7 +9,11 @@ import (
 	"orbitwatch/delta/catalog"
 )
 
-func TestQuickRandom(t *testing.T) {
+// TestRandomGraphs holds the recount to delta/brute on 200 seeded random
+// graphs of 5–16 nodes and densities 0.1–0.7, denser and larger than
+// the 7-node census: hubs in several triangles, overlapping 4- and
+// 5-cycles.
+func TestRandomGraphs(t *testing.T) {
 	cat, _ := catalog.New(delta.Undirected, 5)
 	r := rand.New(rand.NewPCG(1, 2))
 	for trial := 0; trial < 200; trial++ {
