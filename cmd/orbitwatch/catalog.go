@@ -29,6 +29,10 @@ type orbitJSON struct {
 	ID        int    `json:"id"`
 	Positions []int  `json:"positions"`
 	Name      string `json:"name"`
+	// Numbering is "published" (Source names the publication and says
+	// whether the id was checked or recalled) or "project".
+	Numbering string `json:"numbering"`
+	Source    string `json:"source,omitempty"`
 }
 
 func runCatalog(args []string) int {
@@ -56,7 +60,7 @@ func runCatalog(args []string) int {
 			}
 			for _, o := range cat.Orbits {
 				if o.Graphlet == g.ID {
-					gj.Orbits = append(gj.Orbits, orbitJSON{ID: o.ID, Positions: o.Positions, Name: o.Name})
+					gj.Orbits = append(gj.Orbits, orbitJSON{ID: o.ID, Positions: o.Positions, Name: o.Name, Numbering: o.Numbering, Source: o.Source})
 				}
 			}
 			out.Graphlets = append(out.Graphlets, gj)
@@ -69,10 +73,10 @@ func runCatalog(args []string) int {
 	}
 	fmt.Printf("%s graphlets on 2–%d nodes: %d graphlets, %d orbits\n\n", kind, cat.MaxNodes, len(cat.Graphlets), cat.NumOrbits())
 	tw := tabwriter.NewWriter(os.Stdout, 0, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "orbit\tgraphlet\tnodes\tpositions\torbit name\tgraphlet name")
+	fmt.Fprintln(tw, "orbit\tgraphlet\tnodes\tpositions\tnumbering\torbit name\tgraphlet name")
 	for _, o := range cat.Orbits {
 		g := cat.Graphlets[o.Graphlet]
-		fmt.Fprintf(tw, "%d\t%d\t%d\t%v\t%s\t%s\n", o.ID, g.ID, g.Nodes, o.Positions, o.Name, g.Name)
+		fmt.Fprintf(tw, "%d\t%d\t%d\t%v\t%s\t%s\t%s\n", o.ID, g.ID, g.Nodes, o.Positions, o.Numbering, o.Name, g.Name)
 	}
 	if err := tw.Flush(); err != nil {
 		return fail("catalog", err)
