@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"orbitwatch/bench/gen"
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
 	"orbitwatch/delta/gdv"
@@ -77,4 +78,38 @@ func BenchmarkNearest(b *testing.B) {
 			}
 		}
 	}
+}
+
+// BenchmarkDriftBA200k times GCD-11 between two checkpoints of one
+// Barabási–Albert graph (bench/gen, 200,000 nodes, m = 5): after 80% of
+// its edges and after all of them, counted by the static recount. "profiles"
+// is the whole drift (both Profiles from the orbit matrices, then
+// Compare); "compare" is Compare of two Profiles made once, the cost per
+// step of a series whose cuts are each profiled once.
+func BenchmarkDriftBA200k(b *testing.B) {
+	edges := gen.BarabasiAlbert(200_000, 5, 1)
+	count := func(edges []gen.Edge) *delta.Vectors {
+		g := delta.NewGraph(delta.Undirected)
+		g.Grow(gen.MaxNode(edges))
+		for _, e := range edges {
+			g.Link(e.U, e.V)
+		}
+		return orbits4(g)
+	}
+	early, late := count(edges[:len(edges)*4/5]), count(edges)
+	var d gdv.Drift
+	b.Run("profiles", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			d = drift(b, profile(b, early), profile(b, late))
+		}
+	})
+	pa, pb := profile(b, early), profile(b, late)
+	b.Run("compare", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			d = drift(b, pa, pb)
+		}
+	})
+	b.Logf("GCD-11 between 80%% and 100%% of BA(200k, 5): %.4f over %d and %d nodes", d.GCD, pa.Nodes, pb.Nodes)
 }
