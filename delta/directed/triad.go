@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math/bits"
+	"slices"
 	"sync"
 
 	"github.com/RoaringBitmap/roaring/v2"
@@ -61,6 +62,7 @@ type Triads struct {
 	it      roaring.ManyIntIterator
 	out, in []uint32
 	nbrs    []typed
+	other   []typed
 	common  []typed
 	pool    sync.Pool // *readScratch
 }
@@ -115,8 +117,11 @@ func (c *Triads) MaxNodes() int { return 3 }
 func (c *Triads) NumOrbits() int { return c.eq.cat.NumOrbits() }
 
 func (c *Triads) grow(n int) {
-	for len(c.recs) < n {
-		c.recs = append(c.recs, triadRecord{})
+	if len(c.recs) < n {
+		if cap(c.recs) < n {
+			c.recs = slices.Grow(c.recs, max(n, 2*cap(c.recs))-len(c.recs))
+		}
+		c.recs = c.recs[:n]
 	}
 	for len(c.changed)*64 < n {
 		c.changed = append(c.changed, 0)
@@ -125,45 +130,36 @@ func (c *Triads) grow(n int) {
 
 func (c *Triads) mark(x uint32) { c.changed[x>>6] |= 1 << (x & 63) }
 
-// typeOf returns the type of the pair (x, y) in g, seen from x (0: none).
-func typeOf(g *delta.Graph, x, y uint32) uint8 {
-	var t uint8
-	if g.Out(x).Contains(y) {
-		t |= tOut
-	}
-	if g.In(x).Contains(y) {
-		t |= tIn
-	}
-	return t
-}
-
 // Insert updates the records for adding the arc u→v to g, which lacks it.
 func (c *Triads) Insert(g *delta.Graph, u, v uint32, _ bool) error {
-	if g.Kind() != delta.Directed || u == v || g.HasEdge(u, v) {
-		panic("directed: Insert of a self-loop or present arc, or into an undirected graph")
-	}
-	old := typeOf(g, u, v)
-	return c.update(g, u, v, old, old|tOut)
+	return c.event(g, u, v, true)
 }
 
 // Delete updates the records for removing the arc u→v from g, which has it.
 func (c *Triads) Delete(g *delta.Graph, u, v uint32) error {
-	if g.Kind() != delta.Directed || !g.HasEdge(u, v) {
-		panic("directed: Delete of an absent arc")
-	}
-	old := typeOf(g, u, v)
-	return c.update(g, u, v, old, old&^tOut)
+	return c.event(g, u, v, false)
 }
 
-// update moves the pair (u, v) from type old to type now (seen from u;
-// either may be 0). The degrees of u and v move, and so does every
-// triangle u, v, w: with τ the pair types, w's orbit comes from
-// (τ(w,u), τ(u,v), τ(w,v)), u's from (τ(u,v), τ(v,w), τ(u,w)) and v's from
-// (τ(v,u), τ(u,w), τ(v,w)).
-func (c *Triads) update(g *delta.Graph, u, v uint32, old, now uint8) error {
+// event moves the pair (u, v) from its type now to the type with the arc
+// u→v added or removed. The degrees of u and v move, and so does every
+// triangle u, v, w: with τ the pair types (seen from the first node), u's
+// orbit comes from (τ(u,v), τ(v,w), τ(u,w)), v's from (τ(v,u), τ(u,w),
+// τ(v,w)) and w's from (τ(w,u), τ(u,v), τ(w,v)).
+func (c *Triads) event(g *delta.Graph, u, v uint32, insert bool) error {
+	if g.Kind() != delta.Directed || u == v {
+		panic("directed: event on a self-loop or an undirected graph")
+	}
 	c.g = g
 	c.grow(g.NumNodes())
 	c.fault = nil
+	common, old := c.commonNeighbours(g, u, v)
+	now := old | tOut
+	if !insert {
+		now = old &^ tOut
+	}
+	if insert == (old&tOut != 0) {
+		panic("directed: Insert of a present arc or Delete of an absent one")
+	}
 	ru, rv := &c.recs[u], &c.recs[v]
 	if old != 0 {
 		c.add(u, &ru.deg[old-1], -1)
@@ -178,19 +174,17 @@ func (c *Triads) update(g *delta.Graph, u, v uint32, old, now uint8) error {
 	}
 	c.mark(u)
 	c.mark(v)
-	for _, w := range c.commonNeighbours(g, u, v) {
+	for _, w := range common {
 		tuw, tvw := w.t>>4, w.t&0xf
-		for _, step := range [2]struct {
-			t uint8
-			d int64
-		}{{old, -1}, {now, 1}} {
-			if step.t == 0 {
-				continue
-			}
-			tu, tv := step.t, rev(step.t)
-			c.addTri(u, tu, tvw, tuw, step.d)
-			c.addTri(v, tv, tuw, tvw, step.d)
-			c.addTri(w.node, rev(tuw), tu, rev(tvw), step.d)
+		if old != 0 {
+			c.addTri(u, old, tvw, tuw, -1)
+			c.addTri(v, rev(old), tuw, tvw, -1)
+			c.addTri(w.node, rev(tuw), old, rev(tvw), -1)
+		}
+		if now != 0 {
+			c.addTri(u, now, tvw, tuw, 1)
+			c.addTri(v, rev(now), tuw, tvw, 1)
+			c.addTri(w.node, rev(tuw), now, rev(tvw), 1)
 		}
 		c.mark(w.node)
 	}
@@ -214,52 +208,102 @@ func (c *Triads) add(x uint32, p *int64, d int64) {
 
 func degree(r *triadRecord) int64 { return r.deg[0] + r.deg[1] + r.deg[2] }
 
-// commonNeighbours returns the nodes w ∉ {u, v} joined to both u and v,
-// with τ(u,w) in the high and τ(v,w) in the low four bits of t. It walks
-// the endpoint of smaller degree and tests the other's bitmaps, so a hub
-// endpoint costs a membership test per neighbour of the other one.
-func (c *Triads) commonNeighbours(g *delta.Graph, u, v uint32) []typed {
+// mergeRatio: the common neighbours are found by merging both endpoints'
+// sorted neighbour lists while the larger endpoint has at most this many
+// times the smaller one's neighbours, else by membership tests of the
+// smaller one's neighbours in the larger one's bitmaps.
+const mergeRatio = 8
+
+// commonNeighbours returns the type of (u, v) seen from u (0: not
+// joined) and the nodes w ∉ {u, v} joined to both u and v, with τ(u,w) in
+// the high and τ(v,w) in the low four bits of t. It walks the endpoint of
+// smaller degree, so a hub endpoint costs a membership test per neighbour
+// of the other one.
+func (c *Triads) commonNeighbours(g *delta.Graph, u, v uint32) ([]typed, uint8) {
 	small, large := u, v
-	if degree(&c.recs[v]) < degree(&c.recs[u]) {
-		small, large = v, u
+	ds, dl := degree(&c.recs[u]), degree(&c.recs[v])
+	if dl < ds {
+		small, large, ds, dl = v, u, dl, ds
 	}
 	c.nbrs = c.loadNeighbours(g, small, c.nbrs[:0])
-	out, in := g.Out(large), g.In(large)
+	var between uint8 // τ(small, large)
 	c.common = c.common[:0]
-	for _, w := range c.nbrs {
-		if w.node == large {
-			continue
+	if dl <= mergeRatio*max(ds, 1) {
+		c.other = c.loadNeighbours(g, large, c.other[:0])
+		a, b := c.nbrs, c.other
+		i, j := 0, 0
+		for i < len(a) && j < len(b) {
+			switch x, y := a[i], b[j]; {
+			case x.node < y.node:
+				if x.node == large {
+					between = x.t
+				}
+				i++
+			case x.node > y.node:
+				j++
+			default:
+				c.appendCommon(small == u, x.node, x.t, y.t)
+				i++
+				j++
+			}
 		}
-		var t uint8
-		if out.Contains(w.node) {
-			t |= tOut
+		for ; i < len(a); i++ {
+			if a[i].node == large {
+				between = a[i].t
+			}
 		}
-		if in.Contains(w.node) {
-			t |= tIn
-		}
-		if t == 0 {
-			continue
-		}
-		if small == u {
-			c.common = append(c.common, typed{w.node, w.t<<4 | t})
-		} else {
-			c.common = append(c.common, typed{w.node, t<<4 | w.t})
+	} else {
+		out, in := g.Out(large), g.In(large)
+		for _, w := range c.nbrs {
+			if w.node == large {
+				between = w.t
+				continue
+			}
+			var t uint8
+			if out.Contains(w.node) {
+				t |= tOut
+			}
+			if in.Contains(w.node) {
+				t |= tIn
+			}
+			if t != 0 {
+				c.appendCommon(small == u, w.node, w.t, t)
+			}
 		}
 	}
-	return c.common
+	if small != u {
+		between = rev(between)
+	}
+	return c.common, between
+}
+
+// appendCommon records a common neighbour w with τ(small,w) = ts and
+// τ(large,w) = tl, packed with u's type high.
+func (c *Triads) appendCommon(smallIsU bool, w uint32, ts, tl uint8) {
+	if smallIsU {
+		c.common = append(c.common, typed{w, ts<<4 | tl})
+	} else {
+		c.common = append(c.common, typed{w, tl<<4 | ts})
+	}
 }
 
 // loadNeighbours appends x's neighbours with their types to dst, in
 // increasing id order.
 func (c *Triads) loadNeighbours(g *delta.Graph, x uint32, dst []typed) []typed {
-	c.out = load(&c.it, c.out[:0], g.Out(x))
-	c.in = load(&c.it, c.in[:0], g.In(x))
+	d := &c.recs[x].deg
+	c.out = loadN(&c.it, c.out[:0], g.Out(x), int(d[tOut-1]+d[tBoth-1]))
+	c.in = loadN(&c.it, c.in[:0], g.In(x), int(d[tIn-1]+d[tBoth-1]))
 	return mergeTyped(c.out, c.in, dst)
 }
 
 // load appends the members of b to buf.
 func load(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap) []uint32 {
-	n := int(b.GetCardinality())
+	return loadN(it, buf, b, int(b.GetCardinality()))
+}
+
+// loadN appends the n members of b to buf; the caller knows n from its
+// records, which saves walking b's containers twice.
+func loadN(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap, n int) []uint32 {
 	if cap(buf) < n {
 		buf = make([]uint32, 0, n+n/4)
 	}

@@ -1,0 +1,134 @@
+package directed
+
+import (
+	"math/rand/v2"
+	"runtime"
+	"testing"
+	"time"
+
+	"orbitwatch/delta"
+	"orbitwatch/delta/internal/cpuclock"
+)
+
+// Sizes of the 2–3 benchmark: BA(100k, m=5) with random directions and
+// 5 % reciprocal pairs; the merchant graph adds 20 % more arcs, every one
+// from a distinct buyer into one merchant.
+const (
+	triadNodes   = 100_000
+	triadM       = 5
+	triadRecip   = 0.05
+	triadShare   = 0.20
+	churnSample  = 1 << 12
+	triadSampleN = 1 << 14
+)
+
+type triadFixture struct {
+	g        *delta.Graph
+	c        *Triads
+	sample   [][2]uint32 // arcs drawn uniformly
+	toHub    [][2]uint32 // arcs into the merchant, when there is one
+	backfill time.Duration
+	arcs     int
+}
+
+var triadFixtures = map[bool]*triadFixture{}
+
+// loadTriads builds (once) the counter of the plain or merchant graph by
+// inserting every arc, timing the backfill on the thread CPU clock.
+func loadTriads(b *testing.B, merchant bool) *triadFixture {
+	if f := triadFixtures[merchant]; f != nil {
+		return f
+	}
+	arcs := baArcs(triadNodes, triadM, 1, triadRecip)
+	var hub uint32 = ^uint32(0)
+	if merchant {
+		arcs, hub = withMerchant(arcs, triadNodes, int(triadShare*float64(len(arcs))), 2)
+	}
+	f := &triadFixture{g: delta.NewGraph(delta.Directed), c: NewTriads(), arcs: len(arcs)}
+	clock := cpuclock.Start()
+	if err := insertAll(f.c, f.g, arcs); err != nil {
+		b.Fatal(err)
+	}
+	f.backfill = clock.Stop()
+	f.c.Changed(func(uint32) {})
+	rng := rand.New(rand.NewPCG(3, 3))
+	for _, i := range rng.Perm(len(arcs))[:triadSampleN] {
+		f.sample = append(f.sample, arcs[i])
+	}
+	for _, a := range arcs {
+		if a[1] == hub && len(f.toHub) < triadSampleN {
+			f.toHub = append(f.toHub, a)
+		}
+	}
+	triadFixtures[merchant] = f
+	return f
+}
+
+// churnTriads deletes and re-inserts n arcs of sample from offset off, as
+// the applier would (counter first, then the graph), and returns the
+// thread CPU time and the allocations per event. With counter false only
+// the graph changes: the applier's own share.
+func churnTriads(b *testing.B, f *triadFixture, sample [][2]uint32, off, n int, counter bool) (time.Duration, float64) {
+	var ms runtime.MemStats
+	runtime.ReadMemStats(&ms)
+	before := ms.Mallocs
+	clock := cpuclock.Start()
+	for i := range n {
+		a := sample[(off+i)%len(sample)]
+		if counter {
+			if err := f.c.Delete(f.g, a[0], a[1]); err != nil {
+				b.Fatal(err)
+			}
+		}
+		f.g.Unlink(a[0], a[1])
+		if counter {
+			if err := f.c.Insert(f.g, a[0], a[1], false); err != nil {
+				b.Fatal(err)
+			}
+		}
+		f.g.Link(a[0], a[1])
+	}
+	t := clock.Stop()
+	runtime.ReadMemStats(&ms)
+	return t, float64(ms.Mallocs-before) / float64(2*n)
+}
+
+// BenchmarkTriads measures the 2–3 Counter per event, thread CPU time, on
+// BA(100k, m=5) with random directions and 5 % reciprocal pairs, with and
+// without 100k buyers (19 % more arcs) paying one merchant, in one run:
+// the backfill (every arc inserted in order, buyers' payments spread among
+// them), a churn of random arcs (delete and re-insert), and on the
+// merchant graph a churn of arcs into the merchant alone. Churn figures
+// are the counter's share: the same churn with graph updates alone is
+// subtracted. merchant/plain is the ratio the issue sets at ≤ 2. The
+// allocations are the whole churn's, graph updates included (Roaring
+// allocates when a payer's last arc comes and goes; the counter alone
+// allocates nothing, TestTriadsAllocateNothing).
+func BenchmarkTriads(b *testing.B) {
+	plain, merch := loadTriads(b, false), loadTriads(b, true)
+	var tPlain, tMerch, tHub time.Duration
+	var allocs float64
+	off := 0
+	churn := func(f *triadFixture, sample [][2]uint32) time.Duration {
+		t, a := churnTriads(b, f, sample, off, churnSample, true)
+		allocs = max(allocs, a)
+		g, _ := churnTriads(b, f, sample, off, churnSample, false)
+		return t - g
+	}
+	for b.Loop() {
+		tPlain += churn(plain, plain.sample)
+		tMerch += churn(merch, merch.sample)
+		tHub += churn(merch, merch.toHub)
+		off += churnSample
+	}
+	events := float64(2 * churnSample * b.N)
+	bf := func(f *triadFixture) float64 { return float64(f.backfill.Nanoseconds()) / float64(f.arcs) }
+	b.ReportMetric(bf(plain), "backfill-plain-ns/event")
+	b.ReportMetric(bf(merch), "backfill-merchant-ns/event")
+	b.ReportMetric(bf(merch)/bf(plain), "backfill-merchant/plain")
+	b.ReportMetric(float64(tPlain.Nanoseconds())/events, "churn-plain-ns/event")
+	b.ReportMetric(float64(tMerch.Nanoseconds())/events, "churn-merchant-ns/event")
+	b.ReportMetric(float64(tHub.Nanoseconds())/events, "churn-into-merchant-ns/event")
+	b.ReportMetric(float64(tMerch)/float64(tPlain), "churn-merchant/plain")
+	b.ReportMetric(allocs, "max-allocs/event")
+}
