@@ -113,3 +113,68 @@ func BenchmarkDriftBA200k(b *testing.B) {
 	})
 	b.Logf("GCD-11 between 80%% and 100%% of BA(200k, 5): %.4f over %d and %d nodes", d.GCD, pa.Nodes, pb.Nodes)
 }
+
+// BenchmarkNearestBA200k is BenchmarkNearest on counted vectors: the 15
+// orbits of every node of BA(200k, m = 5) (bench/gen, static recount),
+// queries the vectors of 16 nodes spread over the ids (old hubs first).
+func BenchmarkNearestBA200k(b *testing.B) {
+	vecs := orbits4(ba(200_000, 5, 1))
+	cat, err := catalog.New(delta.Undirected, 4)
+	if err != nil {
+		b.Fatal(err)
+	}
+	ix := gdv.NewIndex(gdv.ForCatalog(cat))
+	batch := ix.NewBatch()
+	for x := range uint32(vecs.NumNodes()) {
+		batch.Set(x, vecs.Row(x))
+	}
+	ix.Apply(batch)
+	b.ReportAllocs()
+	i := 0
+	for b.Loop() {
+		x := uint32(i % 16 * (vecs.NumNodes() / 16))
+		ix.Nearest(vecs.Row(x), 20, func(y uint32) bool { return y != x })
+		i++
+	}
+}
+
+// BenchmarkIndexSet times storing one node's new vector, the work per
+// changed node at a cut: Set under the lock, or Batch.Set (the logarithms,
+// outside the lock) and Apply (the copy, under it) per 4,096 nodes.
+func BenchmarkIndexSet(b *testing.B) {
+	for _, k := range []int{4, 5} {
+		cat, err := catalog.New(delta.Undirected, k)
+		if err != nil {
+			b.Fatal(err)
+		}
+		m := gdv.ForCatalog(cat)
+		r := rand.New(rand.NewPCG(1, 1))
+		pool := make([][]uint64, 4096)
+		for i := range pool {
+			pool[i] = make([]uint64, m.NumOrbits())
+			synthetic(r, pool[i])
+		}
+		ix := gdv.NewIndex(m)
+		ix.Grow(1 << 20)
+		b.Run(fmt.Sprintf("orbits=%d/Set", m.NumOrbits()), func(b *testing.B) {
+			b.ReportAllocs()
+			i := 0
+			for b.Loop() {
+				ix.Set(uint32(i*7919)%(1<<20), pool[i%len(pool)])
+				i++
+			}
+		})
+		b.Run(fmt.Sprintf("orbits=%d/Batch", m.NumOrbits()), func(b *testing.B) {
+			b.ReportAllocs()
+			batch := ix.NewBatch()
+			i := 0
+			for b.Loop() {
+				batch.Set(uint32(i*7919)%(1<<20), pool[i%len(pool)])
+				if i++; batch.Len() == 4096 {
+					ix.Apply(batch)
+					batch.Reset()
+				}
+			}
+		})
+	}
+}

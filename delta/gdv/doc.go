@@ -6,8 +6,9 @@
 // (Weights, derived from the catalog), the one function behind both the
 // signature-shift alert rule and the similar-accounts search; Largest
 // names the orbits that differ most. Index holds the signatures of every
-// node in one contiguous float32 array and answers exact k-nearest
-// queries by scanning it on every core.
+// node in one contiguous float32 array, updated in place (Set, or a Batch
+// per cut), and answers exact k-nearest queries by scanning it on every
+// core.
 //
 // Network with network: Profile summarises one orbit matrix (the GDVs of
 // all nodes at a cut) by the Spearman correlations between orbits and the

@@ -87,8 +87,63 @@ func (ix *Index) Set(node uint32, v []uint64) {
 	}
 	s := ix.m.SignatureLen()
 	ix.m.Signature(ix.data[int(node)*s:int(node+1)*s], v)
-	if w, b := node/64, uint64(1)<<(node%64); ix.set[w]&b == 0 {
-		ix.set[w] |= b
+	ix.mark(node)
+}
+
+// Batch holds signatures made outside an Index's lock, for Apply to copy
+// in under one write lock: a cut computes the logarithms of its changed
+// nodes while queries go on, and holds them up only for the copy.
+type Batch struct {
+	m     *Metric
+	nodes []uint32
+	sigs  []float32
+}
+
+// NewBatch returns an empty Batch for ix.
+func (ix *Index) NewBatch() *Batch { return &Batch{m: ix.m} }
+
+// Set adds node's new count vector v (the Metric's orbit count long).
+func (b *Batch) Set(node uint32, v []uint64) {
+	if len(v) != b.m.NumOrbits() {
+		panic("gdv: Batch.Set of a vector whose length differs from the orbit count")
+	}
+	n := len(b.sigs)
+	b.sigs = slices.Grow(b.sigs, b.m.SignatureLen())[:n+b.m.SignatureLen()]
+	b.m.Signature(b.sigs[n:], v)
+	b.nodes = append(b.nodes, node)
+}
+
+// Len returns the number of vectors in the Batch.
+func (b *Batch) Len() int { return len(b.nodes) }
+
+// Reset empties the Batch, keeping its memory.
+func (b *Batch) Reset() { b.nodes, b.sigs = b.nodes[:0], b.sigs[:0] }
+
+// Apply stores every vector of b, in b's order (a node set twice keeps its
+// last), as Set would. b must come from an Index of the same Metric.
+func (ix *Index) Apply(b *Batch) {
+	if b.m != ix.m {
+		panic("gdv: Apply of a Batch made for another Metric")
+	}
+	if len(b.nodes) == 0 {
+		return
+	}
+	ix.mu.Lock()
+	defer ix.mu.Unlock()
+	if top := int(slices.Max(b.nodes)); top >= ix.rows {
+		ix.grow(max(top+1, ix.rows+ix.rows/2))
+	}
+	s := ix.m.SignatureLen()
+	for i, x := range b.nodes {
+		copy(ix.data[int(x)*s:int(x+1)*s], b.sigs[i*s:(i+1)*s])
+		ix.mark(x)
+	}
+}
+
+// mark records that x has a row.
+func (ix *Index) mark(x uint32) {
+	if w, bit := x/64, uint64(1)<<(x%64); ix.set[w]&bit == 0 {
+		ix.set[w] |= bit
 		ix.n++
 	}
 }

@@ -12,26 +12,36 @@ import (
 	"orbitwatch/delta/gdv"
 )
 
-// byScan is the nearest list the slow way: the Metric's Distance to every
-// node with a vector, sorted by (distance, id), filtered, cut at k.
-func byScan(m *gdv.Metric, vecs map[uint32][]uint64, q []uint64, k int, filter func(uint32) bool) []gdv.Neighbor {
+// byScan is every node with a vector, by the slow way: the Metric's
+// Distance to each, sorted by (distance, id).
+func byScan(m *gdv.Metric, vecs map[uint32][]uint64, q []uint64) []gdv.Neighbor {
 	qs := m.Signature(nil, q)
 	var all []gdv.Neighbor
 	for x, v := range vecs {
-		if filter == nil || filter(x) {
-			all = append(all, gdv.Neighbor{Node: x, Distance: m.Distance(qs, m.Signature(nil, v), nil)})
-		}
+		all = append(all, gdv.Neighbor{Node: x, Distance: m.Distance(qs, m.Signature(nil, v), nil)})
 	}
 	slices.SortFunc(all, func(a, b gdv.Neighbor) int {
 		return cmp.Or(cmp.Compare(a.Distance, b.Distance), cmp.Compare(a.Node, b.Node))
 	})
-	return all[:min(k, len(all))]
+	return all
+}
+
+// firstK is the first k of all that pass filter (nil: all).
+func firstK(all []gdv.Neighbor, k int, filter func(uint32) bool) []gdv.Neighbor {
+	var out []gdv.Neighbor
+	for _, n := range all {
+		if len(out) < k && (filter == nil || filter(n.Node)) {
+			out = append(out, n)
+		}
+	}
+	return out
 }
 
 // TestNearestMatchesScan holds Nearest against byScan on 40,000 nodes
 // (several chunks per goroutine), a third of them drawn from a pool of 12
 // vectors so that ties straddle the k-th place, some ids never Set, with
-// and without a filter, before and after vectors change in place.
+// and without a filter, before and after vectors change in place one by
+// one and by a Batch.
 func TestNearestMatchesScan(t *testing.T) {
 	cat, err := catalog.New(delta.Undirected, 4)
 	if err != nil {
@@ -72,9 +82,10 @@ func TestNearestMatchesScan(t *testing.T) {
 				q = slices.Clone(pool[qi])
 			}
 			odd := func(x uint32) bool { return x%2 == 1 }
+			all := byScan(m, vecs, q)
 			for _, k := range []int{1, 7, 300, 50_000} {
 				for _, f := range []func(uint32) bool{nil, odd} {
-					got, want := ix.Nearest(q, k, f), byScan(m, vecs, q, k, f)
+					got, want := ix.Nearest(q, k, f), firstK(all, k, f)
 					if !slices.Equal(got, want) {
 						t.Fatalf("%s: query %d k=%d filter=%v: got %d neighbours, want %d; first difference at %d",
 							stage, qi, k, f != nil, len(got), len(want), firstDiff(got, want))
@@ -84,12 +95,20 @@ func TestNearestMatchesScan(t *testing.T) {
 		}
 	}
 	check("loaded")
-	for range 5000 {
+	for range 2500 {
 		x := uint32(r.IntN(41_000)) // some beyond the last id: the index grows
 		vecs[x] = draw()
 		ix.Set(x, vecs[x])
 	}
 	check("after in-place changes")
+	b := ix.NewBatch()
+	for range 2500 {
+		x := uint32(40_000 + r.IntN(2_000)) // some set twice: the last counts
+		vecs[x] = draw()
+		b.Set(x, vecs[x])
+	}
+	ix.Apply(b)
+	check("after a batch")
 	if got := ix.Nearest(pool[0], 0, nil); got != nil {
 		t.Errorf("k=0 gave %v", got)
 	}
