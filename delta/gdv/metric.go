@@ -217,6 +217,15 @@ func term(la, wa, lb, wb float32) float64 {
 	return float64(d * float64(w))
 }
 
+// Differ returns the (at most) n orbits that differ most between the
+// count vectors u and v: those with the largest terms of D(u, v), largest
+// first, ties by lower orbit (see Largest).
+func (m *Metric) Differ(u, v []uint64, n int) []int {
+	terms := make([]float64, len(m.w))
+	m.Distance(m.Signature(nil, u), m.Signature(nil, v), terms)
+	return Largest(terms, n)
+}
+
 // Largest returns the indexes of the (at most) n largest positive terms,
 // largest first, ties by lower index: the orbits that differ most.
 func Largest(terms []float64, n int) []int {

@@ -132,3 +132,17 @@ func TestLargest(t *testing.T) {
 		}
 	}
 }
+
+func TestDiffer(t *testing.T) {
+	m := gdv.NewMetric([]float64{1, 1, 1, 1})
+	// Orbit 0: 3 against 1, |ln 4 − ln 2|/ln 5 = 0.43; orbit 2: 0 against
+	// 5, ln 6/ln 7 = 0.92; orbit 3: 7 against 8, ln(9/8)/ln 10 = 0.05;
+	// orbit 1 equal.
+	u, v := []uint64{3, 4, 0, 7}, []uint64{1, 4, 5, 8}
+	if got := m.Differ(u, v, 2); !slices.Equal(got, []int{2, 0}) {
+		t.Errorf("Differ(u, v, 2) = %v, want [2 0]", got)
+	}
+	if got := m.Differ(v, u, 9); !slices.Equal(got, []int{2, 0, 3}) {
+		t.Errorf("Differ(v, u, 9) = %v, want [2 0 3]", got)
+	}
+}
