@@ -35,10 +35,7 @@ func openAlertStore(t *testing.T, dir string) *alertStore {
 
 func (a *alertStore) commit(seq uint64) {
 	a.t.Helper()
-	err := a.st.Commit(&Checkpoint{
-		Seq: seq, Watermark: alertWatermark(seq), Dict: a.dict,
-		Graph: delta.NewGraph(delta.Undirected), Vectors: delta.NewVectors(0, 15),
-	})
+	err := a.st.Commit(&Checkpoint{Seq: seq, Watermark: alertWatermark(seq)})
 	if err != nil {
 		a.t.Fatal(err)
 	}

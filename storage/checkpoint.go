@@ -2,7 +2,6 @@ package storage
 
 import (
 	"encoding/binary"
-	"errors"
 	"fmt"
 	"time"
 
@@ -11,48 +10,65 @@ import (
 	"orbitwatch/delta"
 )
 
-// Checkpoint is the state change one Commit makes durable.
+// Checkpoint is one cut's state change, already taken out of the live
+// state: a writer can hold several while the applier goes on.
 type Checkpoint struct {
-	// Seq is the sequence the state is complete at; it must exceed the
-	// store's last complete checkpoint.
+	// Seq is the log position the state is complete at; it must exceed
+	// the previous checkpoint's.
 	Seq uint64
 	// Watermark is the event-time watermark at Seq; it must not be earlier
 	// than the previous checkpoint's.
 	Watermark time.Time
-	// Dict is the dictionary loaded from this store (or NewDict for an empty
-	// store) with the ids interned since; its new entries are written.
-	Dict *Dict
-	// Graph is the current adjacency; Edges lists the pairs (u,v) whose
-	// multiplicity changed since the last checkpoint (either order for
-	// undirected graphs; repeats are harmless). Their multiplicity is read
-	// from Graph; 0 deletes the edge.
-	Graph *delta.Graph
-	Edges [][2]uint32
-	// Vectors holds every node's orbit vector; Nodes lists the nodes whose
-	// vector changed (repeats are harmless).
-	Vectors *delta.Vectors
-	Nodes   []uint32
+	// Names are the dictionary entries added since the previous
+	// checkpoint, in number order.
+	Names []string
+	// Edges are the pairs whose multiplicity changed since the previous
+	// checkpoint (either order for undirected graphs; the last entry for a
+	// pair wins), with the new multiplicity; 0 deletes the pair.
+	Edges []EdgeChange
+	// Records are the nodes whose record changed, with the new record; an
+	// empty record deletes it (an all-zero record).
+	Records []RecordChange
 	// Blobs are opaque applier records (input progress, pending expiries).
 	// A blob keeps its last written value until rewritten; a nil value
 	// deletes it.
 	Blobs map[string][]byte
 }
 
-// Commit writes cp as the checkpoint at version cp.Seq. Records go through
-// a managed write batch (several Badger transactions for a big checkpoint)
-// at version cp.Seq; after they are synced, one last transaction at the same
-// version writes the meta record that makes the checkpoint complete. Until
-// then readers and recovery see the previous checkpoint.
+// EdgeChange is a pair's new multiplicity.
+type EdgeChange struct {
+	U, V uint32
+	Mult uint32
+}
+
+// RecordChange is a node's new record.
+type RecordChange struct {
+	Node uint32
+	Data []byte
+}
+
+// Commit makes the checkpoints durable, oldest first, each at Badger
+// version = its Seq. Their records go through one managed write batch
+// (several Badger transactions for a big group) together with each
+// checkpoint's record and watermark index entry; after they are synced,
+// one last transaction at the newest checkpoint's version writes the meta
+// record that makes them complete. Until then readers and recovery see
+// the previous complete checkpoint, and a crash leaves nothing visible
+// (Open's repair removes the leftovers). Grouping cuts saves a sync per
+// cut when a log is replayed faster than it happened.
 //
 // Bad arguments from the caller's data (sequence not increasing, watermark
-// going back or out of range, a dictionary that does not continue the
-// stored one) are errors and write nothing. Mismatched kinds, orbit counts
-// or node numbers are programmer errors and panic. After a failure half-way
-// through, the store refuses further commits until it is reopened (which
-// repairs it).
-func (st *Store) Commit(cp *Checkpoint) error {
+// going back or out of range, names that do not continue the dictionary)
+// are errors and write nothing. A node or pair beyond the dictionary is a
+// programmer error and panics. After a failure half-way through, the
+// store refuses further commits until it is reopened (which repairs it).
+func (st *Store) Commit(cps ...*Checkpoint) error {
+	if len(cps) == 0 {
+		return nil
+	}
+	last := cps[len(cps)-1].Seq
 	if st.readOnly {
-		return fmt.Errorf("storage: commit %d: store opened read-only", cp.Seq)
+		return fmt.Errorf("storage: commit %d: store opened read-only", last)
 	}
 	st.mu.RLock()
 	complete, dictLen, failed := st.complete, st.dictLen, st.failed
@@ -62,41 +78,42 @@ func (st *Store) Commit(cp *Checkpoint) error {
 	}
 	st.mu.RUnlock()
 	if failed != nil {
-		return fmt.Errorf("storage: commit %d: an earlier commit failed half-way; reopen the store: %w", cp.Seq, failed)
+		return fmt.Errorf("storage: commit %d: an earlier commit failed half-way; reopen the store: %w", last, failed)
 	}
-	if cp.Seq <= complete {
-		return fmt.Errorf("storage: commit %d: sequence does not exceed the last checkpoint %d", cp.Seq, complete)
+	infos := make([]CheckpointInfo, len(cps))
+	for i, cp := range cps {
+		if cp.Seq <= complete {
+			return fmt.Errorf("storage: commit %d: sequence does not exceed the last checkpoint %d", cp.Seq, complete)
+		}
+		if cp.Watermark.Before(lastWM) {
+			return fmt.Errorf("storage: commit %d: watermark %v is before the previous checkpoint's %v", cp.Seq, cp.Watermark, lastWM)
+		}
+		if _, err := watermarkBits(cp.Watermark); err != nil {
+			return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
+		}
+		dictLen += len(cp.Names)
+		st.checkShapes(cp, dictLen)
+		complete, lastWM = cp.Seq, cp.Watermark
+		infos[i] = CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(mustBits(cp.Watermark)), Nodes: dictLen}
 	}
-	if cp.Watermark.Before(lastWM) {
-		return fmt.Errorf("storage: commit %d: watermark %v is before the previous checkpoint's %v", cp.Seq, cp.Watermark, lastWM)
-	}
-	wm, err := watermarkBits(cp.Watermark)
-	if err != nil {
-		return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
-	}
-	st.checkShapes(cp)
-	if cp.Dict.written != dictLen {
-		return fmt.Errorf("storage: commit %d: dictionary has %d stored entries, the store %d (not the dictionary loaded from this store)", cp.Seq, cp.Dict.written, dictLen)
-	}
-	if err := st.writeRecords(cp); err != nil {
+	if err := st.writeRecords(cps, infos); err != nil {
 		st.fail(err)
-		return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
+		return fmt.Errorf("storage: commit %d: %w", last, err)
 	}
-	if err := st.writeMeta(cp.Seq, wm, cp.Dict.Len()); err != nil {
+	if err := st.writeMeta(last, dictLen); err != nil {
 		st.fail(err)
-		return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
+		return fmt.Errorf("storage: commit %d: %w", last, err)
 	}
-	cp.Dict.written = cp.Dict.Len()
 	st.mu.Lock()
-	st.complete, st.dictLen = cp.Seq, cp.Dict.Len()
-	st.cps = append(st.cps, CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(wm), Nodes: cp.Dict.Len()})
+	st.complete, st.dictLen = last, dictLen
+	st.cps = append(st.cps, infos...)
 	for k, vs := range st.torn {
-		if vs[0] <= cp.Seq { // versions are listed newest first
+		if vs[0] <= last { // versions are listed newest first
 			delete(st.torn, k)
 			continue
 		}
 		for i, v := range vs {
-			if v <= cp.Seq {
+			if v <= last {
 				st.torn[k] = vs[:i]
 				break
 			}
@@ -106,35 +123,31 @@ func (st *Store) Commit(cp *Checkpoint) error {
 	return nil
 }
 
+func mustBits(t time.Time) uint64 {
+	b, err := watermarkBits(t)
+	if err != nil {
+		panic("storage: " + err.Error())
+	}
+	return b
+}
+
 func (st *Store) fail(err error) {
 	st.mu.Lock()
 	st.failed = err
 	st.mu.Unlock()
 }
 
-// checkShapes panics when cp does not fit the store's settings.
-func (st *Store) checkShapes(cp *Checkpoint) {
-	if cp.Dict == nil || cp.Graph == nil || cp.Vectors == nil {
-		panic("storage: checkpoint without dictionary, graph or vectors")
-	}
-	n := cp.Dict.Len()
-	if cp.Graph.Kind() != st.settings.Kind {
-		panic("storage: checkpoint graph kind differs from the store's")
-	}
-	if cp.Graph.NumNodes() > n {
-		panic("storage: checkpoint graph has nodes missing from the dictionary")
-	}
-	if cp.Vectors.NumOrbits() != st.settings.NumOrbits {
-		panic("storage: checkpoint vectors have another orbit count than the store's")
-	}
+// checkShapes panics when cp names a node beyond the dictionary of n
+// entries it leaves.
+func (st *Store) checkShapes(cp *Checkpoint, n int) {
 	for _, e := range cp.Edges {
-		if int(e[0]) >= n || int(e[1]) >= n || e[0] == e[1] {
+		if int(e.U) >= n || int(e.V) >= n || e.U == e.V {
 			panic("storage: checkpoint edge with an unknown node or a self-loop")
 		}
 	}
-	for _, x := range cp.Nodes {
-		if int(x) >= n || int(x) >= cp.Vectors.NumNodes() {
-			panic("storage: checkpoint node missing from the dictionary or the vectors")
+	for _, r := range cp.Records {
+		if int(r.Node) >= n {
+			panic("storage: checkpoint record of a node missing from the dictionary")
 		}
 	}
 }
@@ -190,46 +203,15 @@ func (w *batchWriter) at(k, v []byte, del bool, ts uint64) error {
 	return w.wb.SetEntryAt(badger.NewEntry(k, v), ts)
 }
 
-func (st *Store) writeRecords(cp *Checkpoint) error {
+func (st *Store) writeRecords(cps []*Checkpoint, infos []CheckpointInfo) error {
 	wb := st.db.NewManagedWriteBatch()
 	defer wb.Cancel()
-	w := &batchWriter{wb: wb, seq: cp.Seq, torn: st.torn}
-	var key, val []byte
-	for i := cp.Dict.written; i < cp.Dict.Len(); i++ {
-		name := cp.Dict.names[i]
-		key = binary.BigEndian.AppendUint32(append(key[:0], pDictID), uint32(i))
-		if err := w.put(key, []byte(name), false); err != nil {
-			return err
-		}
-		key = append(append(key[:0], pDictName), name...)
-		val = binary.BigEndian.AppendUint32(val[:0], uint32(i))
-		if err := w.put(key, val, false); err != nil {
-			return err
-		}
-	}
-	undirected := cp.Graph.Kind() == delta.Undirected
-	for _, e := range cp.Edges {
-		u, v := e[0], e[1]
-		if undirected && u > v {
-			u, v = v, u
-		}
-		m := cp.Graph.Multiplicity(u, v)
-		key = appendEdgeKey(key[:0], u, v)
-		val = binary.AppendUvarint(val[:0], uint64(m))
-		if err := w.put(key, val, m == 0); err != nil {
-			return err
-		}
-	}
-	for _, x := range cp.Nodes {
-		key = binary.BigEndian.AppendUint32(append(key[:0], pVector), x)
-		val = appendVector(val[:0], cp.Vectors.Row(x))
-		if err := w.put(key, val, false); err != nil {
-			return err
-		}
-	}
-	for name, b := range cp.Blobs {
-		key = append(append(key[:0], pBlob), name...)
-		if err := w.put(key, b, b == nil); err != nil {
+	w := &batchWriter{wb: wb, torn: st.torn}
+	next := infos[0].Nodes - len(cps[0].Names)
+	for i, cp := range cps {
+		w.seq = cp.Seq
+		var err error
+		if next, err = st.writeCheckpoint(w, cp, next, infos[i]); err != nil {
 			return err
 		}
 	}
@@ -239,21 +221,64 @@ func (st *Store) writeRecords(cp *Checkpoint) error {
 	return st.db.Sync()
 }
 
-// writeMeta commits, in one transaction at version seq, the meta record
-// (dictionary size), the checkpoint record (watermark, dictionary size)
-// and its watermark index entry.
-func (st *Store) writeMeta(seq, wm uint64, dictLen int) error {
-	txn := st.db.NewTransactionAt(seq, true)
-	defer txn.Discard()
+// writeCheckpoint puts one checkpoint's entries; next is the number of the
+// first new name. It returns the number after the last.
+func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info CheckpointInfo) (int, error) {
+	var key, val []byte
+	for _, name := range cp.Names {
+		key = binary.BigEndian.AppendUint32(append(key[:0], pDictID), uint32(next))
+		if err := w.put(key, []byte(name), false); err != nil {
+			return 0, err
+		}
+		key = append(append(key[:0], pDictName), name...)
+		val = binary.BigEndian.AppendUint32(val[:0], uint32(next))
+		if err := w.put(key, val, false); err != nil {
+			return 0, err
+		}
+		next++
+	}
+	directed := st.settings.Kind == delta.Directed
+	for _, e := range cp.Edges {
+		val = binary.AppendUvarint(val[:0], uint64(e.Mult))
+		pairs := [2][3]uint32{{pEdge, e.U, e.V}, {pEdge, e.V, e.U}}
+		if directed {
+			pairs[1] = [3]uint32{pInArc, e.V, e.U}
+		}
+		for _, p := range pairs {
+			key = appendPairKey(key[:0], byte(p[0]), p[1], p[2])
+			if err := w.put(key, val, e.Mult == 0); err != nil {
+				return 0, err
+			}
+		}
+	}
+	for _, r := range cp.Records {
+		key = binary.BigEndian.AppendUint32(append(key[:0], pRecord), r.Node)
+		if err := w.put(key, r.Data, len(r.Data) == 0); err != nil {
+			return 0, err
+		}
+	}
+	for name, b := range cp.Blobs {
+		key = append(append(key[:0], pBlob), name...)
+		if err := w.put(key, b, b == nil); err != nil {
+			return 0, err
+		}
+	}
+	wm := mustBits(cp.Watermark)
 	var wmb [8]byte
 	binary.BigEndian.PutUint64(wmb[:], wm)
-	idx := append(append([]byte{pWatermark}, wmb[:]...), keySeq(0, seq)[1:]...)
-	err := errors.Join(
-		txn.Set([]byte{pMeta}, binary.AppendUvarint(nil, uint64(dictLen))),
-		txn.Set(keySeq(pCheckpoint, seq), binary.AppendUvarint(wmb[:], uint64(dictLen))),
-		txn.Set(idx, []byte{}),
-	)
-	if err != nil {
+	idx := append(append([]byte{pWatermark}, wmb[:]...), keySeq(0, cp.Seq)[1:]...)
+	if err := w.put(keySeq(pCheckpoint, cp.Seq), binary.AppendUvarint(wmb[:], uint64(info.Nodes)), false); err != nil {
+		return 0, err
+	}
+	return next, w.put(idx, []byte{}, false)
+}
+
+// writeMeta commits, in one transaction at version seq, the meta record
+// (dictionary size) that makes every checkpoint up to seq complete.
+func (st *Store) writeMeta(seq uint64, dictLen int) error {
+	txn := st.db.NewTransactionAt(seq, true)
+	defer txn.Discard()
+	if err := txn.Set([]byte{pMeta}, binary.AppendUvarint(nil, uint64(dictLen))); err != nil {
 		return err
 	}
 	if err := txn.CommitAt(seq, nil); err != nil {

@@ -50,7 +50,10 @@ func crashChild(dir string) error {
 	if err != nil {
 		return err
 	}
-	m := modelFrom(s, undirected4.NumOrbits, crashSeed, crashAccts)
+	m, err := modelFrom(st, s, undirected4.NumOrbits, crashSeed, crashAccts)
+	if err != nil {
+		return err
+	}
 	fmt.Printf("ready %d\n", m.seq)
 	for m.seq < 100*crashStep {
 		m.run(m.seq + crashStep)
@@ -124,7 +127,7 @@ func TestCrashMidCheckpoint(t *testing.T) {
 		}
 		want.run(s.Seq)
 		want.edges, want.nodes, want.changed = nil, nil, map[string][]byte{}
-		checkState(t, s, want)
+		checkState(t, st, s, want)
 		t.Logf("round %d: kill %s+%v (last commit took %v), killed after done %d, recovered %d, torn leftovers %d keys", rounds, k.after, k.delay, took, lastDone, s.Seq, len(st.torn))
 		if len(st.torn) == 0 {
 			if err := st.Close(); err != nil {
@@ -136,7 +139,10 @@ func TestCrashMidCheckpoint(t *testing.T) {
 		// step ahead (below the torn version), one past it; the second
 		// reads back exactly only if the first wrote through to the torn
 		// versions.
-		cont := modelFrom(s, undirected4.NumOrbits, crashSeed, crashAccts)
+		cont, err := modelFrom(st, s, undirected4.NumOrbits, crashSeed, crashAccts)
+		if err != nil {
+			t.Fatal(err)
+		}
 		for _, ahead := range []uint64{crashStep / 3, crashStep + crashStep/3} {
 			cont.run(s.Seq + ahead)
 			if err := st.Commit(cont.checkpoint()); err != nil {
@@ -149,7 +155,7 @@ func TestCrashMidCheckpoint(t *testing.T) {
 		}
 		want.run(after.Seq)
 		want.edges, want.nodes, want.changed = nil, nil, map[string][]byte{}
-		checkState(t, after, want)
+		checkState(t, st, after, want)
 		if err := st.Close(); err != nil {
 			t.Fatal(err)
 		}
@@ -165,18 +171,19 @@ func TestCrashMidCheckpoint(t *testing.T) {
 	replay := newModel(delta.Undirected, undirected4.NumOrbits, crashSeed, crashAccts)
 	for _, c := range st.Checkpoints() {
 		replay.run(c.Seq)
-		n := 0
-		if _, err := st.ForEachAt(c.Seq, func(node string, vec []uint64) error {
-			if node != replay.dict.Name(uint32(n)) || !slices.Equal(vec, replay.vec.Row(uint32(n))) {
-				return fmt.Errorf("checkpoint %d node %d: %q %v, want %q %v", c.Seq, n, node, vec, replay.dict.Name(uint32(n)), replay.vec.Row(uint32(n)))
-			}
-			n++
-			return nil
-		}); err != nil {
+		s, err := st.LoadAt(c.Seq)
+		if err != nil {
 			t.Fatal(err)
 		}
-		if n != replay.dict.Len() {
-			t.Fatalf("checkpoint %d: %d nodes exported, want %d", c.Seq, n, replay.dict.Len())
+		if !slices.Equal(names(s.Dict), names(replay.dict)) || !slices.Equal(edgeList(s.Graph), edgeList(replay.g)) {
+			t.Fatalf("checkpoint %d: %d names %d edges stored, want %d %d", c.Seq, s.Dict.Len(), s.Graph.NumEdges(), replay.dict.Len(), replay.g.NumEdges())
+		}
+		vec, err := storedVectors(st, c.Seq, s.Dict.Len(), undirected4.NumOrbits)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if x, o, a, b, ok := vec.FirstDiff(replay.vec); !ok {
+			t.Fatalf("checkpoint %d node %d count %d: stored %d, want %d", c.Seq, x, o, a, b)
 		}
 	}
 	t.Logf("%d rounds, %d landed inside a checkpoint, %d checkpoints verified", rounds, torn, len(st.Checkpoints()))

@@ -3,13 +3,12 @@ package storage
 import "math"
 
 // Dict interns node ids (strings, bytes as given) to dense uint32 ids
-// 0, 1, 2, … in order of first appearance. Interning happens in memory;
-// Store.Commit writes the entries added since the last checkpoint.
+// 0, 1, 2, … in order of first appearance. Interning happens in memory; a
+// Checkpoint carries the entries added since the previous one (From).
 // A Dict is not safe for concurrent use.
 type Dict struct {
-	names   []string
-	ids     map[string]uint32
-	written int // entries 0..written-1 are in the store
+	names []string
+	ids   map[string]uint32
 }
 
 // NewDict returns an empty dictionary, for a store with no checkpoint yet.
@@ -61,5 +60,6 @@ func (d *Dict) Name(x uint32) string {
 // Len returns the number of interned ids.
 func (d *Dict) Len() int { return len(d.names) }
 
-// Unwritten returns how many entries the next checkpoint will write.
-func (d *Dict) Unwritten() int { return len(d.names) - d.written }
+// From returns the names of numbers n, n+1, … (shared with the Dict: the
+// slice stays valid, entries are never changed).
+func (d *Dict) From(n int) []string { return d.names[n:len(d.names):len(d.names)] }

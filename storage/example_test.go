@@ -32,39 +32,30 @@ func Example() {
 	till, _ := s.Dict.Intern("till-0001")
 	shop, _ := s.Dict.Intern("shop-0042")
 	bank, _ := s.Dict.Intern("bank-0007")
-	s.Vectors.Grow(s.Dict.Len())
-	for _, e := range [][2]uint32{{till, shop}, {shop, bank}} {
-		if _, err := s.Graph.Increment(e[0], e[1]); err != nil {
-			panic(err)
-		}
-	}
-	s.Vectors.Set(till, 0, 1)
-	s.Vectors.Set(till, 1, 1)
-	s.Vectors.Set(shop, 0, 2)
-	s.Vectors.Set(shop, 2, 1)
-	s.Vectors.Set(bank, 0, 1)
-	s.Vectors.Set(bank, 1, 1)
+	// The records are the counter's (package delta); here, the degree.
 	err = st.Commit(&storage.Checkpoint{
 		Seq:       2,
 		Watermark: time.Date(2031, 3, 1, 12, 0, 0, 0, time.UTC),
-		Dict:      s.Dict,
-		Graph:     s.Graph,
-		Edges:     [][2]uint32{{till, shop}, {shop, bank}},
-		Vectors:   s.Vectors,
-		Nodes:     []uint32{till, shop, bank},
+		Names:     []string{"till-0001", "shop-0042", "bank-0007"},
+		Edges:     []storage.EdgeChange{{U: till, V: shop, Mult: 1}, {U: shop, V: bank, Mult: 1}},
+		Records:   []storage.RecordChange{{Node: till, Data: []byte{1}}, {Node: shop, Data: []byte{2}}, {Node: bank, Data: []byte{1}}},
 		Blobs:     map[string][]byte{"progress": []byte("payments.csv line 2")},
 	})
 	if err != nil {
 		panic(err)
 	}
-	vec, cut, wm, err := st.VectorAt("shop-0042", 10)
+	src, err := st.SourceAt(10)
 	if err != nil {
 		panic(err)
 	}
-	fmt.Println(cut, wm.Format(time.DateOnly), vec[:4])
+	defer src.Close()
+	x, _ := src.Node("shop-0042")
+	rec, _ := src.Record(x)
+	nbrs, _ := src.Adjacent(x, nil)
+	fmt.Println(src.Checkpoint().Seq, src.Checkpoint().Watermark.Format(time.DateOnly), rec, len(nbrs))
 	seq, ok := st.SeqAtTime(time.Date(2031, 3, 2, 0, 0, 0, 0, time.UTC))
 	fmt.Println(seq, ok)
 	// Output:
-	// 2 2031-03-01 [2 0 1 0]
+	// 2 2031-03-01 [2] 2
 	// 2 true
 }

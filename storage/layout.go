@@ -18,18 +18,20 @@ import (
 //	'w' watermark(8) seq(8) watermark index, empty value
 //	'd' id(4)              dictionary: node name
 //	'n' name               dictionary: id(4)
-//	'e' u(4) v(4)          edge {u,v} (u<v) or arc u→v: uvarint multiplicity
-//	'v' id(4)              orbit vector, uvarints with trailing zeros dropped
+//	'e' x(4) y(4)          x joined to y: the edge {x,y} (stored under both
+//	                       ends) or the arc x→y; value: uvarint multiplicity
+//	'i' y(4) x(4)          Directed only: the arc x→y indexed under y
+//	'r' id(4)              the node's record, as the counter wrote it
 //	'b' name               applier blob
 //	'a', 'o'               alert records and their node index (alerts.go)
 //
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
-// one small entry per checkpoint, while a per-node bitmap would rewrite both
-// endpoints' whole neighbour sets (kilobytes for a hub) into the history at
-// every checkpoint that touches them. BenchmarkCheckpoint reports both: on
-// a uniform 1M-edge graph of mean degree 10, about 20 bytes on disk per
-// stored edge and 15 per update record, against about 106 raw bytes of
-// bitmaps per changed edge; around hubs the gap grows with the degree.
+// two small entries per checkpoint, while a per-node bitmap would rewrite
+// both endpoints' whole neighbour sets (kilobytes for a hub) into the
+// history at every checkpoint that touches them. Every pair is stored
+// under both of its nodes, so one prefix scan reads a node's neighbours at
+// any version (what an as-of read derives a vector from). Records are
+// opaque here: their layout is the counter's (package delta).
 const (
 	pSettings   = 's'
 	pFloor      = 'f'
@@ -39,17 +41,18 @@ const (
 	pDictID     = 'd'
 	pDictName   = 'n'
 	pEdge       = 'e'
-	pVector     = 'v'
+	pInArc      = 'i'
+	pRecord     = 'r'
 	pBlob       = 'b'
 )
 
 // checkpointPrefixes are the prefixes written at a checkpoint's version
-// before its meta record: by Commit's write batch (possibly several
-// transactions) and by PutAlerts ahead of the Commit of its cut. A crash
-// can leave them above the last complete checkpoint, so repair covers them.
-// The meta, checkpoint and watermark records are written in the final
-// single transaction and are never torn.
-var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pVector, pBlob, pAlert, pAlertNode}
+// before the meta record that completes it: by Commit's write batch
+// (several transactions, several checkpoints) and by PutAlerts ahead of
+// the Commit of its cut. A crash can leave them above the last complete
+// checkpoint, so repair covers them. The meta record alone is written in
+// a final single transaction and is never torn.
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pAlert, pAlertNode, pCheckpoint, pWatermark}
 
 func keyID(p byte, x uint32) []byte {
 	k := make([]byte, 5)
@@ -72,45 +75,11 @@ func keyName(p byte, name string) []byte {
 	return k
 }
 
-// appendEdgeKey appends 'e' u v; for undirected graphs the caller passes
-// u < v.
-func appendEdgeKey(b []byte, u, v uint32) []byte {
-	b = append(b, pEdge)
-	b = binary.BigEndian.AppendUint32(b, u)
-	return binary.BigEndian.AppendUint32(b, v)
-}
-
-// appendVector appends vec as uvarints, dropping trailing zeros, so an
-// all-zero vector is empty.
-func appendVector(b []byte, vec []uint64) []byte {
-	n := len(vec)
-	for n > 0 && vec[n-1] == 0 {
-		n--
-	}
-	for _, c := range vec[:n] {
-		b = binary.AppendUvarint(b, c)
-	}
-	return b
-}
-
-// decodeVector fills vec (length NumOrbits) from a value written by
-// appendVector.
-func decodeVector(b []byte, vec []uint64) error {
-	i := 0
-	for len(b) > 0 {
-		if i == len(vec) {
-			return fmt.Errorf("vector has more than %d counts", len(vec))
-		}
-		c, n := binary.Uvarint(b)
-		if n <= 0 {
-			return fmt.Errorf("vector count %d is not a valid uvarint", i)
-		}
-		vec[i] = c
-		b = b[n:]
-		i++
-	}
-	clear(vec[i:])
-	return nil
+// appendPairKey appends p x y.
+func appendPairKey(b []byte, p byte, x, y uint32) []byte {
+	b = append(b, p)
+	b = binary.BigEndian.AppendUint32(b, x)
+	return binary.BigEndian.AppendUint32(b, y)
 }
 
 // Watermarks are stored as 8 bytes that sort like the time: Unix

@@ -10,56 +10,57 @@ import (
 	"orbitwatch/delta"
 )
 
-// State is the content of one complete checkpoint.
+// State is the content of one complete checkpoint, but the records: they
+// stay in the store and are read through Source (a counter's Restore, or
+// Derive for single nodes).
 type State struct {
 	Seq       uint64
 	Watermark time.Time
 	Dict      *Dict
 	Graph     *delta.Graph
-	Vectors   *delta.Vectors
 	Blobs     map[string][]byte
 }
 
 // Load returns the last complete checkpoint. A store without checkpoints
-// gives Seq 0, an empty dictionary, graph and vectors, and no blobs; the
-// applier then starts from the beginning of the log. The graph gets every
-// stored multiplicity by repeated Increment; Graph and Vectors have one
-// row per dictionary entry.
+// gives Seq 0, an empty dictionary and graph, and no blobs; the applier
+// then starts from the beginning of the log.
 func (st *Store) Load() (*State, error) {
-	st.mu.RLock()
-	seq, n := st.complete, st.dictLen
-	var wm time.Time
-	if len(st.cps) > 0 {
-		wm = st.cps[len(st.cps)-1].Watermark
+	seq := st.Seq()
+	if seq == 0 {
+		return &State{Dict: NewDict(), Graph: delta.NewGraph(st.settings.Kind), Blobs: map[string][]byte{}}, nil
 	}
-	st.mu.RUnlock()
+	return st.LoadAt(seq)
+}
+
+// LoadAt returns the latest complete checkpoint with Seq ≤ seq: its
+// dictionary, its graph (every stored multiplicity, by repeated
+// Increment; one node per dictionary entry) and its blobs.
+func (st *Store) LoadAt(seq uint64) (*State, error) {
+	cut, err := st.cutAt(seq)
+	if err != nil {
+		return nil, err
+	}
 	s := &State{
-		Seq:       seq,
-		Watermark: wm,
+		Seq:       cut.Seq,
+		Watermark: cut.Watermark,
 		Dict:      NewDict(),
 		Graph:     delta.NewGraph(st.settings.Kind),
-		Vectors:   delta.NewVectors(0, st.settings.NumOrbits),
 		Blobs:     make(map[string][]byte),
 	}
-	if seq == 0 {
-		return s, nil
-	}
-	txn := st.db.NewTransactionAt(seq, false)
+	txn := st.db.NewTransactionAt(cut.Seq, false)
 	defer txn.Discard()
-	steps := []func(*badger.Txn, *State, int) error{loadDict, loadEdges, loadVectors, loadBlobs}
-	for _, step := range steps {
-		if err := step(txn, s, n); err != nil {
-			return nil, fmt.Errorf("storage: load checkpoint %d from %s: %w", seq, st.dir, err)
+	for _, step := range []func(*badger.Txn, *State, int) error{loadDict, loadEdges, loadBlobs} {
+		if err := step(txn, s, cut.Nodes); err != nil {
+			return nil, fmt.Errorf("storage: load checkpoint %d from %s: %w", cut.Seq, st.dir, err)
 		}
 	}
-	s.Dict.written = n
 	return s, nil
 }
 
 // scan calls fn for every key with prefix p visible to txn, stopping at the
 // first error.
-func scan(txn *badger.Txn, p byte, fn func(key, val []byte) error) error {
-	it := txn.NewIterator(badger.IteratorOptions{Prefix: []byte{p}, PrefetchValues: true, PrefetchSize: 256})
+func scan(txn *badger.Txn, p []byte, fn func(key, val []byte) error) error {
+	it := txn.NewIterator(badger.IteratorOptions{Prefix: p, PrefetchValues: true, PrefetchSize: 256})
 	defer it.Close()
 	for it.Rewind(); it.Valid(); it.Next() {
 		item := it.Item()
@@ -74,7 +75,7 @@ func scan(txn *badger.Txn, p byte, fn func(key, val []byte) error) error {
 func loadDict(txn *badger.Txn, s *State, n int) error {
 	s.Dict.names = make([]string, 0, n)
 	s.Dict.ids = make(map[string]uint32, n)
-	err := scan(txn, pDictID, func(key, val []byte) error {
+	err := scan(txn, []byte{pDictID}, func(key, val []byte) error {
 		if len(key) != 5 || binary.BigEndian.Uint32(key[1:]) != uint32(s.Dict.Len()) {
 			return fmt.Errorf("corrupt dictionary: key %x where number %d was due", key, s.Dict.Len())
 		}
@@ -85,23 +86,27 @@ func loadDict(txn *badger.Txn, s *State, n int) error {
 		return nil
 	})
 	if err == nil && s.Dict.Len() != n {
-		err = fmt.Errorf("corrupt dictionary: %d entries stored, meta says %d", s.Dict.Len(), n)
+		err = fmt.Errorf("corrupt dictionary: %d entries stored, the checkpoint says %d", s.Dict.Len(), n)
 	}
 	s.Graph.Grow(n)
-	s.Vectors.Grow(n)
 	return err
 }
 
+// loadEdges reads every pair once: under its smaller node for undirected
+// graphs, as 'e' (out-arcs) for directed ones.
 func loadEdges(txn *badger.Txn, s *State, n int) error {
-	undirected := s.Graph.Kind() == delta.Undirected
-	return scan(txn, pEdge, func(key, val []byte) error {
+	undirected := s.Graph.Kind() != delta.Directed
+	return scan(txn, []byte{pEdge}, func(key, val []byte) error {
 		if len(key) != 9 {
 			return fmt.Errorf("corrupt edge key %x", key)
 		}
 		u, v := binary.BigEndian.Uint32(key[1:]), binary.BigEndian.Uint32(key[5:])
 		m, err := getUvarint(val, "edge")
-		if err != nil || m == 0 || m > 1<<32-1 || int(u) >= n || int(v) >= n || u == v || (undirected && u > v) {
+		if err != nil || m == 0 || m > 1<<32-1 || int(u) >= n || int(v) >= n || u == v {
 			return fmt.Errorf("corrupt edge record %x = %x", key, val)
+		}
+		if undirected && u > v {
+			return nil
 		}
 		for range m {
 			if _, err := s.Graph.Increment(u, v); err != nil {
@@ -112,20 +117,8 @@ func loadEdges(txn *badger.Txn, s *State, n int) error {
 	})
 }
 
-func loadVectors(txn *badger.Txn, s *State, n int) error {
-	return scan(txn, pVector, func(key, val []byte) error {
-		if len(key) != 5 || int(binary.BigEndian.Uint32(key[1:])) >= n {
-			return fmt.Errorf("corrupt vector key %x", key)
-		}
-		if err := decodeVector(val, s.Vectors.Row(binary.BigEndian.Uint32(key[1:]))); err != nil {
-			return fmt.Errorf("node %d: %w", binary.BigEndian.Uint32(key[1:]), err)
-		}
-		return nil
-	})
-}
-
 func loadBlobs(txn *badger.Txn, s *State, _ int) error {
-	return scan(txn, pBlob, func(key, val []byte) error {
+	return scan(txn, []byte{pBlob}, func(key, val []byte) error {
 		s.Blobs[string(key[1:])] = append([]byte{}, val...)
 		return nil
 	})

@@ -14,9 +14,9 @@ import (
 // model is a deterministic fictional payments scenario applied in memory:
 // event i is a pure function of (seed, i) and the current graph, so any
 // process can rebuild the state at any seq by replaying from 1, or continue
-// from a loaded checkpoint. Orbit vectors here are not graphlet counts
-// (package delta computes those); they are arbitrary deterministic counts,
-// enough to test that storage returns exactly what it was given.
+// from a loaded checkpoint. Records here are not a counter's (package delta
+// writes those); they are arbitrary deterministic counts stored as
+// records, enough to test that storage returns exactly what it was given.
 type model struct {
 	seed    uint64
 	accts   uint64 // size of the account pool
@@ -29,6 +29,7 @@ type model struct {
 	edges   [][2]uint32
 	nodes   []uint32
 	changed map[string][]byte // blobs changed since the last checkpoint
+	named   int               // dictionary entries already in a checkpoint
 }
 
 func newModel(kind delta.Kind, orbits int, seed, accts uint64) *model {
@@ -36,11 +37,37 @@ func newModel(kind delta.Kind, orbits int, seed, accts uint64) *model {
 		vec: delta.NewVectors(0, orbits), blobs: map[string][]byte{}, changed: map[string][]byte{}}
 }
 
-// modelFrom continues the scenario from a loaded state.
-func modelFrom(s *State, orbits int, seed, accts uint64) *model {
+// modelFrom continues the scenario from a loaded state, its records read
+// back from st.
+func modelFrom(st *Store, s *State, orbits int, seed, accts uint64) (*model, error) {
 	m := newModel(s.Graph.Kind(), orbits, seed, accts)
-	m.seq, m.dict, m.g, m.vec, m.blobs = s.Seq, s.Dict, s.Graph, s.Vectors, s.Blobs
-	return m
+	m.seq, m.dict, m.g, m.blobs, m.named = s.Seq, s.Dict, s.Graph, s.Blobs, s.Dict.Len()
+	var err error
+	m.vec, err = storedVectors(st, s.Seq, s.Dict.Len(), orbits)
+	return m, err
+}
+
+// storedVectors reads every node's record at seq as counts.
+func storedVectors(st *Store, seq uint64, nodes, orbits int) (*delta.Vectors, error) {
+	vec := delta.NewVectors(nodes, orbits)
+	if seq == 0 {
+		return vec, nil
+	}
+	src, err := st.SourceAt(seq)
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	for x := range uint32(nodes) {
+		b, err := src.Record(x)
+		if err == nil {
+			err = delta.DecodeCounts(b, vec.Row(x))
+		}
+		if err != nil {
+			return nil, fmt.Errorf("record of node %d at %d: %w", x, seq, err)
+		}
+	}
+	return vec, nil
 }
 
 // mix is SplitMix64's finaliser (Steele, Lea & Flood 2014).
@@ -110,8 +137,14 @@ func (m *model) watermark() time.Time {
 
 // checkpoint returns the change since the last checkpoint and forgets it.
 func (m *model) checkpoint() *Checkpoint {
-	cp := &Checkpoint{Seq: m.seq, Watermark: m.watermark(), Dict: m.dict, Graph: m.g,
-		Edges: m.edges, Vectors: m.vec, Nodes: m.nodes, Blobs: m.changed}
+	cp := &Checkpoint{Seq: m.seq, Watermark: m.watermark(), Names: slices.Clone(m.dict.names[m.named:]), Blobs: m.changed}
+	for _, e := range m.edges {
+		cp.Edges = append(cp.Edges, EdgeChange{U: e[0], V: e[1], Mult: m.g.Multiplicity(e[0], e[1])})
+	}
+	for _, x := range m.nodes {
+		cp.Records = append(cp.Records, RecordChange{Node: x, Data: delta.AppendCounts(nil, m.vec.Row(x))})
+	}
+	m.named = m.dict.Len()
 	m.edges, m.nodes, m.changed = nil, nil, map[string][]byte{}
 	return cp
 }
@@ -133,8 +166,9 @@ func edgeList(g *delta.Graph) []edgeMult {
 
 func names(d *Dict) []string { return append([]string(nil), d.names...) }
 
-// checkState fails t unless s is exactly the model's state.
-func checkState(t *testing.T, s *State, m *model) {
+// checkState fails t unless s, with the records in st, is exactly the
+// model's state.
+func checkState(t *testing.T, st *Store, s *State, m *model) {
 	t.Helper()
 	if s.Seq != m.seq || !s.Watermark.Equal(m.watermark()) {
 		t.Fatalf("loaded seq %d watermark %v, want %d %v", s.Seq, s.Watermark, m.seq, m.watermark())
@@ -145,8 +179,12 @@ func checkState(t *testing.T, s *State, m *model) {
 	if s.Graph.NumNodes() != m.dict.Len() || s.Graph.NumEdges() != m.g.NumEdges() || !slices.Equal(edgeList(s.Graph), edgeList(m.g)) {
 		t.Fatalf("graph differs: %d nodes %d edges loaded, %d %d expected", s.Graph.NumNodes(), s.Graph.NumEdges(), m.g.NumNodes(), m.g.NumEdges())
 	}
-	if x, o, a, b, ok := s.Vectors.FirstDiff(m.vec); !ok || s.Vectors.NumNodes() != m.vec.NumNodes() {
-		t.Fatalf("vectors differ at node %d orbit %d: %d loaded, %d expected (rows %d vs %d)", x, o, a, b, s.Vectors.NumNodes(), m.vec.NumNodes())
+	vec, err := storedVectors(st, s.Seq, s.Dict.Len(), m.orbits)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if x, o, a, b, ok := vec.FirstDiff(m.vec); !ok || vec.NumNodes() != m.vec.NumNodes() {
+		t.Fatalf("records differ at node %d orbit %d: %d loaded, %d expected (rows %d vs %d)", x, o, a, b, vec.NumNodes(), m.vec.NumNodes())
 	}
 	if len(s.Blobs) != len(m.blobs) {
 		t.Fatalf("blobs: %d loaded, %d expected", len(s.Blobs), len(m.blobs))

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"time"
 
@@ -42,35 +43,6 @@ func (st *Store) Checkpoints() []CheckpointInfo {
 	defer st.mu.RUnlock()
 	i := sort.Search(len(st.cps), func(i int) bool { return st.cps[i].Seq >= st.floor })
 	return append([]CheckpointInfo(nil), st.cps[i:]...)
-}
-
-// VectorAt returns node's orbit vector as of the latest complete
-// checkpoint with Seq ≤ seq (the cut), with the cut's sequence and
-// watermark. A node known at the cut but never given a vector reads as all
-// zero.
-func (st *Store) VectorAt(node string, seq uint64) (vec []uint64, cutSeq uint64, watermark time.Time, err error) {
-	cut, err := st.cutAt(seq)
-	if err != nil {
-		return nil, 0, time.Time{}, err
-	}
-	txn := st.db.NewTransactionAt(cut.Seq, false)
-	defer txn.Discard()
-	x, err := nodeNumber(txn, node, cut)
-	if err != nil {
-		return nil, 0, time.Time{}, err
-	}
-	vec = make([]uint64, st.settings.NumOrbits)
-	item, err := txn.Get(keyID(pVector, x))
-	if errors.Is(err, badger.ErrKeyNotFound) {
-		return vec, cut.Seq, cut.Watermark, nil
-	}
-	if err == nil {
-		err = item.Value(func(b []byte) error { return decodeVector(b, vec) })
-	}
-	if err != nil {
-		return nil, 0, time.Time{}, fmt.Errorf("storage: vector of %q at %d: %w", node, cut.Seq, err)
-	}
-	return vec, cut.Seq, cut.Watermark, nil
 }
 
 // nodeNumber looks node up in the dictionary as of cut.
@@ -126,148 +98,46 @@ func (st *Store) SeqAtTime(t time.Time) (uint64, bool) {
 	return seq, seq >= floor
 }
 
-// Version is a node's orbit vector at one checkpoint.
-type Version struct {
-	Seq       uint64
-	Watermark time.Time
-	Vector    []uint64
-	// Changed reports that the vector differs from the previous
-	// checkpoint's, or that the node first appears at this checkpoint.
-	Changed bool
-}
-
-// History returns node's vector at every retained complete checkpoint with
-// fromSeq ≤ Seq ≤ toSeq at which the node existed, oldest first; a
-// checkpoint where it did not change repeats the carried-over vector with
-// Changed false. The range is clipped to the retained history. It reads
-// the node's versions with one Badger all-versions iteration.
-func (st *Store) History(node string, fromSeq, toSeq uint64) ([]Version, error) {
+// RecordChanges returns the retained complete checkpoints with
+// fromSeq ≤ Seq ≤ toSeq at which node x's record was written (it changed,
+// or the node's last edge went and it was deleted), oldest first. It reads
+// the record's versions with one Badger all-versions iteration.
+func (st *Store) RecordChanges(x uint32, fromSeq, toSeq uint64) ([]CheckpointInfo, error) {
 	cps := st.Checkpoints()
-	lo := sort.Search(len(cps), func(i int) bool { return cps[i].Seq >= fromSeq })
-	hi := sort.Search(len(cps), func(i int) bool { return cps[i].Seq > toSeq })
-	if lo >= hi {
+	if len(cps) == 0 {
 		return nil, nil
 	}
-	last := cps[len(cps)-1]
-	lookup := st.db.NewTransactionAt(last.Seq, false)
-	x, err := nodeNumber(lookup, node, last)
-	lookup.Discard()
-	if err != nil {
-		return nil, err
+	bySeq := make(map[uint64]CheckpointInfo, len(cps))
+	for _, c := range cps {
+		bySeq[c.Seq] = c
 	}
-	txn := st.db.NewTransactionAt(cps[hi-1].Seq, false)
+	txn := st.db.NewTransactionAt(cps[len(cps)-1].Seq, false)
 	defer txn.Discard()
-	// Versions of the vector, newest first, down to the one in force at the
-	// checkpoint before the range (for Changed).
-	var stop uint64
-	if lo > 0 {
-		stop = cps[lo-1].Seq
-	}
-	type ver struct {
-		seq uint64
-		val []byte // nil: absent
-	}
-	var vers []ver
-	key := keyID(pVector, x)
-	it := txn.NewIterator(badger.IteratorOptions{Prefix: key, AllVersions: true})
+	it := txn.NewIterator(badger.IteratorOptions{Prefix: keyID(pRecord, x), AllVersions: true})
 	defer it.Close()
+	var out []CheckpointInfo
 	for it.Rewind(); it.Valid(); it.Next() {
-		item := it.Item()
-		v := ver{seq: item.Version()}
-		if !item.IsDeletedOrExpired() {
-			if v.val, err = item.ValueCopy(nil); err != nil {
-				return nil, fmt.Errorf("storage: history of %q: %w", node, err)
-			}
-		}
-		vers = append(vers, v)
-		if v.seq <= stop {
+		v := it.Item().Version()
+		if v < fromSeq {
 			break
 		}
-	}
-	// valueAt decodes the version in force at seq into a new slice.
-	valueAt := func(seq uint64) ([]uint64, error) {
-		vec := make([]uint64, st.settings.NumOrbits)
-		i := sort.Search(len(vers), func(i int) bool { return vers[i].seq <= seq })
-		if i < len(vers) && vers[i].val != nil {
-			if err := decodeVector(vers[i].val, vec); err != nil {
-				return nil, fmt.Errorf("storage: history of %q at %d: %w", node, seq, err)
-			}
-		}
-		return vec, nil
-	}
-	var prev []uint64
-	if lo > 0 && cps[lo-1].Nodes > int(x) {
-		if prev, err = valueAt(stop); err != nil {
-			return nil, err
+		if c, ok := bySeq[v]; ok && v <= toSeq {
+			out = append(out, c)
 		}
 	}
-	var out []Version
-	for _, c := range cps[lo:hi] {
-		if c.Nodes <= int(x) {
-			continue
-		}
-		vec, err := valueAt(c.Seq)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, Version{Seq: c.Seq, Watermark: c.Watermark, Vector: vec, Changed: prev == nil || !equalCounts(prev, vec)})
-		prev = vec
-	}
+	slices.Reverse(out)
 	return out, nil
 }
 
-func equalCounts(a, b []uint64) bool {
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
-}
-
-// ForEachAt calls fn for every node known at the latest complete checkpoint
-// with Seq ≤ seq, in dictionary order, with its vector there (all zero if
-// it never had one), and returns that checkpoint's sequence. vec is reused
-// between calls. The first error from fn stops the walk and is returned.
-func (st *Store) ForEachAt(seq uint64, fn func(node string, vec []uint64) error) (uint64, error) {
+// NodeAt returns the number of the node name at the latest complete
+// checkpoint with Seq ≤ seq, or ErrUnknownNode.
+func (st *Store) NodeAt(name string, seq uint64) (uint32, CheckpointInfo, error) {
 	cut, err := st.cutAt(seq)
 	if err != nil {
-		return 0, err
+		return 0, CheckpointInfo{}, err
 	}
 	txn := st.db.NewTransactionAt(cut.Seq, false)
 	defer txn.Discard()
-	names := txn.NewIterator(badger.IteratorOptions{Prefix: []byte{pDictID}, PrefetchValues: true, PrefetchSize: 256})
-	defer names.Close()
-	vecs := txn.NewIterator(badger.IteratorOptions{Prefix: []byte{pVector}, PrefetchValues: true, PrefetchSize: 256})
-	defer vecs.Close()
-	vec := make([]uint64, st.settings.NumOrbits)
-	vecs.Rewind()
-	want := uint32(0)
-	for names.Rewind(); names.Valid() && int(want) < cut.Nodes; names.Next() {
-		k := names.Item().Key()
-		if len(k) != 5 || binary.BigEndian.Uint32(k[1:]) != want {
-			return 0, fmt.Errorf("storage: export at %d: corrupt dictionary key %x where number %d was due", cut.Seq, k, want)
-		}
-		for vecs.Valid() && binary.BigEndian.Uint32(vecs.Item().Key()[1:]) < want {
-			vecs.Next()
-		}
-		clear(vec)
-		if vecs.Valid() && binary.BigEndian.Uint32(vecs.Item().Key()[1:]) == want {
-			if err := vecs.Item().Value(func(b []byte) error { return decodeVector(b, vec) }); err != nil {
-				return 0, fmt.Errorf("storage: export at %d: node %d: %w", cut.Seq, want, err)
-			}
-		}
-		var name []byte
-		if name, err = names.Item().ValueCopy(name); err != nil {
-			return 0, err
-		}
-		if err := fn(string(name), vec); err != nil {
-			return 0, err
-		}
-		want++
-	}
-	if int(want) != cut.Nodes {
-		return 0, fmt.Errorf("storage: export at %d: dictionary has %d entries, checkpoint says %d", cut.Seq, want, cut.Nodes)
-	}
-	return cut.Seq, nil
+	x, err := nodeNumber(txn, name, cut)
+	return x, cut, err
 }

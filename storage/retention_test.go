@@ -11,13 +11,13 @@ import (
 	"orbitwatch/delta"
 )
 
-// versionsAtOrBelow counts, over all vector keys, the versions ≤ seq and
+// versionsAtOrBelow counts, over all record keys, the versions ≤ seq and
 // the keys holding more than one of them.
 func versionsAtOrBelow(t *testing.T, st *Store, seq uint64) (versions, keysWithOlder int) {
 	t.Helper()
 	txn := st.db.NewTransactionAt(math.MaxUint64, false)
 	defer txn.Discard()
-	it := txn.NewIterator(badger.IteratorOptions{Prefix: []byte{pVector}, AllVersions: true})
+	it := txn.NewIterator(badger.IteratorOptions{Prefix: []byte{pRecord}, AllVersions: true})
 	defer it.Close()
 	var last []byte
 	n := 0
@@ -50,7 +50,7 @@ func TestRetention(t *testing.T) {
 		if err := st.Commit(m.checkpoint()); err != nil {
 			t.Fatal(err)
 		}
-		snaps = append(snaps, snapshot{m.seq, m.watermark(), names(m.dict), m.vec.Clone()})
+		snaps = append(snaps, snapshot{m.seq, m.watermark(), names(m.dict), m.vec.Clone(), m.g.Clone()})
 	}
 	floor := snaps[5].seq
 	if err := st.SetDiscardBefore(floor + 1); err != nil {
@@ -84,11 +84,11 @@ func TestRetention(t *testing.T) {
 		t.Fatalf("after compaction %d versions at or below the floor (%d before), %d keys still with older ones", after, before, older)
 	}
 	t.Logf("versions at or below the floor: %d before compaction, %d after", before, after)
-	if _, _, _, err := st.VectorAt(snaps[0].names[0], snaps[4].seq); !errors.Is(err, ErrRetention) {
+	if _, err := st.SourceAt(snaps[4].seq); !errors.Is(err, ErrRetention) {
 		t.Fatalf("read below the floor: %v, want ErrRetention", err)
 	}
-	if _, err := st.ForEachAt(floor-1, func(string, []uint64) error { return nil }); !errors.Is(err, ErrRetention) {
-		t.Fatalf("export below the floor: %v, want ErrRetention", err)
+	if _, err := st.LoadAt(floor - 1); !errors.Is(err, ErrRetention) {
+		t.Fatalf("load below the floor: %v, want ErrRetention", err)
 	}
 	if _, ok := st.SeqAtTime(snaps[4].wm); ok {
 		t.Fatal("SeqAtTime of a watermark below the floor found a checkpoint")
@@ -98,7 +98,7 @@ func TestRetention(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	checkState(t, s, m)
+	checkState(t, st, s, m)
 }
 
 // TestGCLoop: the background value-log GC runs on its interval and Close

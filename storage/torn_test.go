@@ -49,5 +49,5 @@ func TestTornAlerts(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	checkState(t, s, m)
+	checkState(t, st, s, m)
 }
