@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"slices"
+	"strings"
 	"time"
 
 	"github.com/nats-io/nats.go/jetstream"
@@ -77,7 +78,10 @@ type PublishStats struct {
 }
 
 // Publisher publishes events asynchronously with their id as the
-// Nats-Msg-Id, so that the server stores each id once. It is not safe for
+// Nats-Msg-Id, so that the server stores each id within the duplicate
+// window once. It does not keep the order of the events across a lost
+// connection (events the client held are stored after a gap): to store a
+// log in its order or not at all, use OrderedPublisher. It is not safe for
 // concurrent use.
 type Publisher struct {
 	js      jetstream.JetStream
@@ -105,21 +109,12 @@ func NewPublisher(js jetstream.JetStream, subject string, opts PublisherOptions)
 // Publish sends e without waiting for its ack, except that with
 // MaxPending acks outstanding it first waits for the oldest. It returns
 // the server's reject of that oldest event, if any (naming its id). An
-// event without an id, or one the JSON form cannot carry, is an error and
-// is not sent.
+// event without an id, one CheckEvent refuses, or one the JSON form
+// cannot carry, is an error and is not sent.
 func (p *Publisher) Publish(ctx context.Context, e Event) error {
-	if e.ID == "" {
-		return fmt.Errorf("stream: publish: event at line %d has no id", e.Line)
-	}
-	// A new buffer per message: the client keeps it for retries.
-	var data []byte
-	if p.opts.JSON {
-		var err error
-		if data, err = EncodeJSON(nil, e); err != nil {
-			return err
-		}
-	} else {
-		data = EncodeBinary(nil, e)
+	data, err := encodeForPublish(e, p.opts.JSON)
+	if err != nil {
+		return err
 	}
 	popts := []jetstream.PublishOpt{jetstream.WithMsgID(e.ID)}
 	if p.opts.Stream != "" {
@@ -261,3 +256,18 @@ func (c *Consumer) Pending() uint64 { return c.pending }
 
 // Close stops the consumer.
 func (c *Consumer) Close() { c.it.Stop() }
+
+// encodeForPublish checks e and returns its bus message in a new buffer
+// (the client keeps it for retries).
+func encodeForPublish(e Event, asJSON bool) ([]byte, error) {
+	if e.ID == "" {
+		return nil, fmt.Errorf("stream: publish: event at line %d has no id", e.FileLine)
+	}
+	if err := CheckEvent(e); err != nil {
+		return nil, fmt.Errorf("stream: publish: event at line %d: %s", e.FileLine, strings.TrimPrefix(err.Error(), "stream: "))
+	}
+	if asJSON {
+		return EncodeJSON(nil, e)
+	}
+	return EncodeBinary(nil, e), nil
+}

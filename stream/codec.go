@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 	"unicode/utf8"
 )
@@ -15,14 +16,15 @@ const binaryVersion = 0x01
 const (
 	flagRemove = 1 << iota
 	flagTS
-	knownFlags = flagRemove | flagTS
+	flagNeg
+	knownFlags = flagRemove | flagTS | flagNeg
 )
 
 // EncodeJSON appends the JSON bus form of e to dst:
-// {"id":…,"ts":…,"op":…,"src":…,"dst":…}, id omitted when empty, ts
-// (RFC 3339 with nanoseconds, UTC) omitted when !e.HasTS. JSON strings
-// carry only UTF-8, so an id or node id that is not valid UTF-8 is an
-// error; use EncodeBinary for such ids. e.Op must be valid.
+// {"id":…,"ts":…,"op":…,"sign":"-","src":…,"dst":…}, id omitted when
+// empty, ts (RFC 3339 with nanoseconds, UTC) omitted when !e.HasTS, sign
+// only when negative. JSON strings carry only UTF-8, so an id or node id
+// that is not valid UTF-8 is an error. e.Op must be valid.
 func EncodeJSON(dst []byte, e Event) ([]byte, error) {
 	for _, f := range [...]struct{ name, s string }{{"id", e.ID}, {"src", e.Src}, {"dst", e.Dst}} {
 		if !utf8.ValidString(f.s) {
@@ -42,6 +44,9 @@ func EncodeJSON(dst []byte, e Event) ([]byte, error) {
 	}
 	dst = append(dst, `"op":"`...)
 	dst = append(dst, e.Op.String()...)
+	if e.Neg {
+		dst = append(dst, `","sign":"-`...)
+	}
 	dst = append(dst, `","src":`...)
 	dst = appendJSONString(dst, e.Src)
 	dst = append(dst, `,"dst":`...)
@@ -80,6 +85,9 @@ func EncodeBinary(dst []byte, e Event) []byte {
 	if e.HasTS {
 		flags |= flagTS
 	}
+	if e.Neg {
+		flags |= flagNeg
+	}
 	dst = append(dst, binaryVersion, flags)
 	if e.HasTS {
 		dst = binary.AppendVarint(dst, e.TS.Unix())
@@ -95,23 +103,43 @@ func EncodeBinary(dst []byte, e Event) []byte {
 // DecodeMessage decodes a bus message in either form: JSON when the first
 // byte is '{' or JSON white space, binary when it is the version byte 1.
 // Line is left 0 (the consumer sets it); ID is empty when the JSON form
-// has none. The error says what is wrong with the message.
+// has none. A message whose event CheckEvent refuses (a node id too long,
+// not UTF-8, with a NUL byte; an id with control characters) is an
+// error too. The error says what is wrong with the message.
 func DecodeMessage(data []byte) (Event, error) {
 	if len(data) == 0 {
 		return Event{}, errors.New("empty message")
 	}
+	var ev Event
 	switch data[0] {
 	case binaryVersion:
-		return decodeBinary(data)
+		var err error
+		if ev, err = decodeBinary(data); err != nil {
+			return Event{}, err
+		}
+		if err := CheckEvent(ev); err != nil {
+			return Event{}, fmt.Errorf("binary message: %s", strings.TrimPrefix(err.Error(), "stream: "))
+		}
 	case '{', ' ', '\t', '\r', '\n':
-		var ev Event
-		if reason := decodeObject(data, &keyNames, &ev); reason != "" {
+		d := jsonlDecoder{keys: &busKeys}
+		var c [numKeys]cell
+		var f filler
+		reason := d.cells(data, &c)
+		if reason == "" {
+			reason, _ = f.fill(&ev, &c)
+		}
+		if reason != "" {
 			return Event{}, errors.New(reason)
 		}
-		return ev, nil
+	default:
+		return Event{}, fmt.Errorf("unknown message form (first byte 0x%02x)", data[0])
 	}
-	return Event{}, fmt.Errorf("unknown message form (first byte 0x%02x)", data[0])
+	return ev, nil
 }
+
+// busKeys are the JSON bus form's member names: ours, without amount,
+// which the bus does not carry.
+var busKeys = [numKeys]string{"ts", "op", "src", "dst", "id", "sign", "\x00amount"}
 
 func decodeBinary(data []byte) (Event, error) {
 	var ev Event
@@ -125,6 +153,7 @@ func decodeBinary(data []byte) (Event, error) {
 	if flags&flagRemove != 0 {
 		ev.Op = OpRemove
 	}
+	ev.Neg = flags&flagNeg != 0
 	if flags&flagTS != 0 {
 		sec, n := binary.Varint(p)
 		if n <= 0 {

@@ -13,10 +13,11 @@ var codecEvents = []Event{
 	{ID: "f00d:12", Op: OpRemove, Src: "acct 7", Dst: "acct-8", TS: time.Date(2026, 3, 1, 9, 30, 0, 123456789, time.UTC), HasTS: true},
 	{ID: "", Op: OpAdd, Src: "q\"uo\\te", Dst: "tab\tnew\nline\x01", TS: time.Unix(-86401, 5).UTC(), HasTS: true},
 	{ID: "ü-ñ", Op: OpAdd, Src: "日本", Dst: "\u2028x", TS: time.Unix(0, 0).UTC(), HasTS: true},
+	{ID: "d-1", Op: OpAdd, Neg: true, Src: "m", Dst: "n"},
 }
 
 func sameEvent(a, b Event) bool {
-	return a.ID == b.ID && a.Op == b.Op && a.Src == b.Src && a.Dst == b.Dst &&
+	return a.ID == b.ID && a.Op == b.Op && a.Neg == b.Neg && a.Src == b.Src && a.Dst == b.Dst &&
 		a.HasTS == b.HasTS && (!a.HasTS || a.TS.Equal(b.TS)) && a.Line == b.Line
 }
 
@@ -65,14 +66,68 @@ func TestCodecExactBytes(t *testing.T) {
 	}
 }
 
-func TestCodecNonUTF8(t *testing.T) {
+// TestCodecRefusesBadIDs: ids the sources reject are refused on the bus
+// too, in both forms, so that no message can carry what no log could.
+func TestCodecRefusesBadIDs(t *testing.T) {
 	e := Event{ID: "x", Src: "\xff\xfe", Dst: "b"}
 	if _, err := EncodeJSON(nil, e); err == nil || !strings.Contains(err.Error(), "src") {
 		t.Errorf("EncodeJSON of a non-UTF-8 src: %v, want an error naming src", err)
 	}
-	got, err := DecodeMessage(EncodeBinary(nil, e))
-	if err != nil || got.Src != e.Src {
-		t.Errorf("binary lost the bytes of a non-UTF-8 src: %q, %v", got.Src, err)
+	long := strings.Repeat("x", MaxIDBytes+1)
+	for _, tc := range []struct {
+		e      Event
+		reason string
+	}{
+		{e, "binary message: src is not valid UTF-8: byte 0xff at byte 1"},
+		{Event{ID: "x", Src: "a\x00b", Dst: "b"}, "binary message: src contains a NUL byte: at byte 2"},
+		{Event{ID: "x", Src: "a", Dst: long}, "binary message: dst too long: 1025 bytes, the limit is 1024"},
+		{Event{ID: "x\r\ny", Src: "a", Dst: "b"}, "binary message: id contains a control character: byte 0x0d at byte 2"},
+		{Event{ID: long, Src: "a", Dst: "b"}, "binary message: id too long: 1025 bytes, the limit is 1024"},
+	} {
+		if _, err := DecodeMessage(EncodeBinary(nil, tc.e)); err == nil || err.Error() != tc.reason {
+			t.Errorf("DecodeMessage(%.40q) = %v, want %q", tc.e.Src+"|"+tc.e.Dst+"|"+tc.e.ID, err, tc.reason)
+		}
+	}
+	at := Event{ID: "x", Src: "a", Dst: strings.Repeat("y", MaxIDBytes)}
+	if got, err := DecodeMessage(EncodeBinary(nil, at)); err != nil || got.Dst != at.Dst {
+		t.Errorf("a node id of exactly %d bytes: %v", MaxIDBytes, err)
+	}
+	for _, msg := range []string{
+		`{"src":"a","dst":"` + long + `"}`,
+		`{"src":"a\u0000","dst":"b"}`,
+		"{\"src\":\"a\xff\",\"dst\":\"b\"}",
+		`{"src":"a","dst":"b","src":"c"}`,
+	} {
+		if _, err := DecodeMessage([]byte(msg)); err == nil {
+			t.Errorf("JSON message %.60q decoded, want a reject", msg)
+		}
+	}
+}
+
+// TestCodecSign: a negative sign travels in both forms; messages written
+// before there was a sign (flag bit 2 clear, no "sign" key) decode as
+// positive.
+func TestCodecSign(t *testing.T) {
+	e := Event{ID: "d1", Op: OpRemove, Neg: true, Src: "a", Dst: "b"}
+	// Worked by hand: flags remove|neg = 1|4 = 5, no ts.
+	want := []byte{0x01, 0x05, 0x02, 'd', '1', 0x01, 'a', 0x01, 'b'}
+	if got := EncodeBinary(nil, e); !bytes.Equal(got, want) {
+		t.Errorf("binary % x, want % x", got, want)
+	}
+	wantJSON := `{"id":"d1","op":"remove","sign":"-","src":"a","dst":"b"}`
+	if got, err := EncodeJSON(nil, e); err != nil || string(got) != wantJSON {
+		t.Errorf("JSON %s, %v; want %s", got, err, wantJSON)
+	}
+	for _, data := range [][]byte{want, []byte(wantJSON)} {
+		if got, err := DecodeMessage(data); err != nil || !got.Neg || got.Op != OpRemove {
+			t.Errorf("%q decodes to %+v, %v", data, got, err)
+		}
+	}
+	old := []byte{0x01, 0x01, 0x02, 'd', '1', 0x01, 'a', 0x01, 'b'}
+	for _, data := range [][]byte{old, []byte(`{"id":"d1","op":"remove","src":"a","dst":"b"}`)} {
+		if got, err := DecodeMessage(data); err != nil || got.Neg {
+			t.Errorf("old message %q decodes to %+v, %v; want positive", data, got, err)
+		}
 	}
 }
 
@@ -85,7 +140,7 @@ func TestDecodeMessageRejects(t *testing.T) {
 		{[]byte{0x02, 0}, "unknown message form (first byte 0x02)"},
 		{[]byte("add,a,b"), "unknown message form (first byte 0x61)"},
 		{[]byte{0x01}, "binary message: truncated"},
-		{[]byte{0x01, 0x04, 0, 1, 'a', 1, 'b'}, "binary message: unknown flags 0x04"},
+		{[]byte{0x01, 0x08, 0, 1, 'a', 1, 'b'}, "binary message: unknown flags 0x08"},
 		{[]byte{0x01, 0x02}, "binary message: bad ts seconds"},
 		{[]byte{0x01, 0x02, 0x00, 0x80, 0x94, 0xeb, 0xdc, 0x03, 0, 1, 'a', 1, 'b'}, "binary message: bad ts nanoseconds"}, // 1e9 as uvarint
 		{[]byte{0x01, 0x00, 0x05, 'a'}, "binary message: bad id length"},
@@ -94,7 +149,7 @@ func TestDecodeMessageRejects(t *testing.T) {
 		{[]byte{0x01, 0x00, 0x00, 0x01, 'a', 0x00}, "binary message: empty dst"},
 		{[]byte{0x01, 0x00, 0x00, 0x01, 'a', 0x01, 'b', 'z'}, "binary message: 1 bytes after the event"},
 		{[]byte(`{"src":"a"}`), "empty dst"},
-		{[]byte(`{"src":"a","dst":"b","op":"flip"}`), `bad op "flip"`},
+		{[]byte(`{"src":"a","dst":"b","op":"flip"}`), `bad op "flip": want add or remove`},
 		{[]byte(`{"src":"a",`), "invalid JSON: unexpected end of JSON input"},
 	} {
 		_, err := DecodeMessage(tc.data)

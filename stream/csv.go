@@ -1,118 +1,161 @@
 package stream
 
 import (
-	"encoding/csv"
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
+	"slices"
 )
 
-// csvDecoder reads RFC 4180 CSV with a header row. Lines count records:
-// a quoted field spanning several physical lines is one line, blank
-// physical lines are skipped and not counted.
+// csvDecoder reads CSV with a header row, one record per line. Quoting is
+// RFC 4180 within a line: a field may be quoted, a quote inside it
+// doubled; a quoted field cannot hold a line break, so an unbalanced
+// quote rejects its own line and the next line is read afresh.
 type csvDecoder struct {
-	r    *Reader
-	cr   *csv.Reader
-	col  [numKeys]int // field index of each key, -1 when absent
-	need int          // fields a record must have: highest used index + 1
-	line int
-	// base is the content offset where the CSV text starts (after a BOM).
-	base int64
-	// pe receives parse errors; a field, so errors.As does not allocate.
-	pe *csv.ParseError
+	col     [numKeys]int // field index of each key, -1 when absent
+	nfields int          // fields of the header, which every record must have
+	fields  [][]byte
+	scratch []byte
 }
 
-func newCSVDecoder(r *Reader, keys [numKeys]string) (*csvDecoder, error) {
-	d := &csvDecoder{r: r, base: r.hashed}
-	d.cr = csv.NewReader(r.br)
-	d.cr.FieldsPerRecord = -1
-	d.cr.ReuseRecord = true
-	header, err := d.cr.Read()
-	if err == io.EOF {
-		return nil, errors.New("csv: empty input: a header row is required")
+func newCSVDecoder(r *Reader) (*csvDecoder, error) {
+	d := &csvDecoder{}
+	var line []byte
+	for {
+		var size int
+		var err error
+		line, size, err = r.lr.next()
+		if err == io.EOF {
+			return nil, errors.New("csv: empty input: a header row is required")
+		}
+		if err != nil {
+			return nil, fmt.Errorf("csv header: %w", err)
+		}
+		if size > MaxLineBytes {
+			return nil, fmt.Errorf("csv header: line %d is longer than %d bytes", r.lr.lines, MaxLineBytes)
+		}
+		if len(line) > 0 {
+			break
+		}
+		r.blank++
 	}
-	if err != nil {
-		return nil, fmt.Errorf("csv header: %w", err)
+	r.header = 1
+	fields, reason := splitCSV(line, nil, &d.scratch)
+	if reason != "" {
+		return nil, fmt.Errorf("csv header (line %d): %s", r.lr.lines, reason)
 	}
-	d.take()
+	header := make([]string, len(fields))
+	for i, f := range fields {
+		header[i] = string(f)
+	}
+	d.nfields = len(header)
 	for k := range d.col {
 		d.col[k] = -1
 	}
 	for i, h := range header {
-		for k, name := range keys {
-			if h != name {
+		used := false
+		for k, name := range r.keys {
+			if h != name || (k == keyAmount && r.filler.min == nil) {
 				continue
 			}
 			if d.col[k] >= 0 {
 				return nil, fmt.Errorf("csv header: column %q appears twice", h)
 			}
-			d.col[k] = i
-			d.need = max(d.need, i+1)
+			d.col[k], used = i, true
+		}
+		if !used && !slices.Contains(r.unused, h) {
+			r.unused = append(r.unused, h)
 		}
 	}
-	for _, k := range []int{keySrc, keyDst} {
+	need := []int{keySrc, keyDst}
+	if r.filler.min != nil {
+		need = append(need, keyAmount)
+	}
+	for _, k := range need {
 		if d.col[k] < 0 {
-			return nil, fmt.Errorf("csv header: no column %q (for %s)", keys[k], keyNames[k])
+			return nil, &MissingColumnError{Key: keyNames[k], Name: r.keys[k], Found: header}
 		}
 	}
 	return d, nil
 }
 
-// take hands the bytes of the record just read to the Reader and returns
-// them without the line ending.
-func (d *csvDecoder) take() []byte {
-	n := d.base + d.cr.InputOffset() - d.r.hashed
-	b := d.r.advance(int(n))
-	for len(b) > 0 && (b[len(b)-1] == '\n' || b[len(b)-1] == '\r') {
-		b = b[:len(b)-1]
+func (d *csvDecoder) cells(line []byte, c *[numKeys]cell) string {
+	fields, reason := splitCSV(line, d.fields[:0], &d.scratch)
+	d.fields = fields
+	if reason != "" {
+		return reason
 	}
-	return b
+	if len(fields) != d.nfields {
+		return fmt.Sprintf("wrong number of fields: %d, the header has %d", len(fields), d.nfields)
+	}
+	for k, i := range d.col {
+		c[k] = cell{}
+		if i >= 0 && len(fields[i]) > 0 {
+			c[k] = cell{text: fields[i], kind: kindString}
+		}
+	}
+	return ""
 }
 
-func (d *csvDecoder) next(ev *Event) error {
-	rec, err := d.cr.Read()
-	if err == io.EOF {
-		return io.EOF
+// splitCSV appends the fields of one CSV line to out and returns them, or
+// the reason the line is malformed. Unquoted fields and quoted fields
+// without doubled quotes point into line; others into *scratch, which is
+// grown to len(line) first so that the slices handed out stay valid.
+func splitCSV(line []byte, out [][]byte, scratch *[]byte) ([][]byte, string) {
+	if cap(*scratch) < len(line) {
+		*scratch = make([]byte, 0, len(line))
 	}
-	if err != nil && !errors.As(err, &d.pe) {
-		return err
-	}
-	d.line++
-	raw := d.take()
-	if err != nil {
-		return d.reject(raw, fmt.Sprintf("csv: %v (column %d)", d.pe.Err, d.pe.Column))
-	}
-	if len(rec) < d.need {
-		return d.reject(raw, fmt.Sprintf("too few fields (got %d, want %d)", len(rec), d.need))
-	}
-	ev.Line = d.line
-	ev.Src, ev.Dst = rec[d.col[keySrc]], rec[d.col[keyDst]]
-	if ev.Src == "" {
-		return d.reject(raw, "empty src")
-	}
-	if ev.Dst == "" {
-		return d.reject(raw, "empty dst")
-	}
-	if c := d.col[keyOp]; c >= 0 {
-		op, ok := parseOp(rec[c])
-		if !ok {
-			return d.reject(raw, fmt.Sprintf("bad op %q", rec[c]))
+	sc := (*scratch)[:0]
+	for i, field := 0, 1; ; field++ {
+		if i < len(line) && line[i] == '"' {
+			start, j, doubled := i+1, i+1, false
+			for {
+				k := bytes.IndexByte(line[j:], '"')
+				if k < 0 {
+					return out, fmt.Sprintf("unbalanced quote: field %d opens a quote that its line does not close", field)
+				}
+				j += k
+				if j+1 < len(line) && line[j+1] == '"' {
+					doubled, j = true, j+2
+					continue
+				}
+				break
+			}
+			content := line[start:j]
+			if doubled {
+				off := len(sc)
+				for p := 0; p < len(content); p++ {
+					sc = append(sc, content[p])
+					if content[p] == '"' {
+						p++
+					}
+				}
+				content = sc[off:]
+			}
+			out = append(out, content)
+			i = j + 1
+			if i == len(line) {
+				return out, ""
+			}
+			if line[i] != ',' {
+				return out, fmt.Sprintf("text after a closing quote: field %d", field)
+			}
+			i++
+			continue
 		}
-		ev.Op = op
-	}
-	if c := d.col[keyTS]; c >= 0 && rec[c] != "" {
-		t, err := ParseTime(rec[c])
-		if err != nil {
-			return d.reject(raw, fmt.Sprintf("bad ts %q", rec[c]))
+		end := len(line)
+		if k := bytes.IndexByte(line[i:], ','); k >= 0 {
+			end = i + k
 		}
-		ev.TS, ev.HasTS = t, true
+		f := line[i:end]
+		if bytes.IndexByte(f, '"') >= 0 {
+			return out, fmt.Sprintf("bare quote: in unquoted field %d", field)
+		}
+		out = append(out, f)
+		if end == len(line) {
+			return out, ""
+		}
+		i = end + 1
 	}
-	if c := d.col[keyID]; c >= 0 {
-		ev.ID = rec[c]
-	}
-	return nil
-}
-
-func (d *csvDecoder) reject(raw []byte, reason string) error {
-	return &LineError{Line: d.line, Reason: reason, Raw: append([]byte(nil), raw...)}
 }

@@ -1,8 +1,8 @@
 package stream
 
 import (
-	"errors"
 	"fmt"
+	"strings"
 	"time"
 )
 
@@ -31,15 +31,27 @@ func (o Op) String() string {
 // Valid reports whether o is OpAdd or OpRemove.
 func (o Op) Valid() bool { return o == OpAdd || o == OpRemove }
 
-// parseOp reads an op cell: "add", "remove", or empty (= add).
+// parseOp reads an op cell: "add", "remove" in any letter case, or empty
+// (= add).
 func parseOp[T string | []byte](s T) (Op, bool) {
-	switch string(s) {
-	case "", "add":
+	switch {
+	case len(s) == 0 || strings.EqualFold(string(s), "add"):
 		return OpAdd, true
-	case "remove":
+	case strings.EqualFold(string(s), "remove"):
 		return OpRemove, true
 	}
 	return 0, false
+}
+
+// parseSign reads a sign cell: "+" or empty is positive, "-" negative.
+func parseSign[T string | []byte](s T) (neg, ok bool) {
+	switch string(s) {
+	case "", "+":
+		return false, true
+	case "-":
+		return true, true
+	}
+	return false, false
 }
 
 // Event is one edge event as decoded from a source or from the bus.
@@ -51,107 +63,138 @@ type Event struct {
 	TS    time.Time
 	HasTS bool
 	Op    Op
-	// Src and Dst are node ids, byte for byte as given.
+	// Neg is the event's sign: true for a negative tie (a dispute, a
+	// chargeback), false for a positive one (a payment). A remove names
+	// the sign of what it removes.
+	Neg bool
+	// Src and Dst are node ids, byte for byte as given (see CheckNodeID).
 	Src, Dst string
-	// Line is the 1-based data line (record) number within the source, or
-	// the stream sequence on the bus.
+	// Line is the event's position: in a source, its data record number
+	// from 1 (the header and blank lines are not records; a rejected or
+	// filtered record counts), which the commands use as the sequence
+	// number; on the bus, the stream sequence.
 	Line int
+	// FileLine is the line of the source where the record is, counted as
+	// an editor counts them: from 1, the header and blank lines included.
+	// It is 0 for an event from the bus.
+	FileLine int
 }
 
-// msThreshold is where an integer time stops being Unix seconds and starts
-// being Unix milliseconds: 1e11 seconds is the year 5138, 1e11 ms is 1973.
-const msThreshold = 100_000_000_000
+// MaxIDBytes is the longest node id or event id accepted, in bytes. Real
+// account ids are far shorter; the bound keeps every stored key well under
+// the store's limits.
+const MaxIDBytes = 1024
 
-// ParseTime reads an event time: RFC 3339 with an optional fraction
-// ("2026-03-01T09:30:00.25+01:00"), or a decimal Unix time with an optional
-// sign and fraction ("1772353800", "1772353800.25", "1772353800250").
-// A number whose integer part has magnitude ≥ 1e11 is milliseconds, else
-// seconds; fraction digits beyond the nanosecond are cut. Exponents are
-// not accepted. The time must fit int64 nanoseconds since 1970 (years
-// 1678 to 2262). The result is in UTC.
-func ParseTime(s string) (time.Time, error) { return parseTime(s) }
+// CheckNodeID returns nil when s is a node id orbitwatch accepts: 1 to
+// MaxIDBytes bytes of valid UTF-8 without a NUL byte. Two different byte
+// strings must never look alike in JSON or on the page, which bytes that
+// are not UTF-8 would (they all show as U+FFFD).
+func CheckNodeID(s string) error {
+	if r := nodeIDReason("node id", s); r != "" {
+		return fmt.Errorf("stream: %s", r)
+	}
+	return nil
+}
 
-func parseTime[T string | []byte](s T) (time.Time, error) {
+// nodeIDReason returns "" when s is a valid node id, else the reason,
+// starting with key ("src", "dst").
+func nodeIDReason[T string | []byte](key string, s T) string {
+	switch {
+	case len(s) == 0:
+		return "empty " + key
+	case len(s) > MaxIDBytes:
+		return fmt.Sprintf("%s too long: %d bytes, the limit is %d", key, len(s), MaxIDBytes)
+	}
+	if i := indexByte(s, 0); i >= 0 {
+		return fmt.Sprintf("%s contains a NUL byte: at byte %d", key, i+1)
+	}
+	if i := invalidUTF8(s); i >= 0 {
+		return fmt.Sprintf("%s is not valid UTF-8: byte 0x%02x at byte %d", key, s[i], i+1)
+	}
+	return ""
+}
+
+// eventIDReason returns "" when s is a valid event id (empty means none:
+// the reader derives one), else the reason. An event id travels in a
+// message header, so control characters are refused besides what a node
+// id refuses.
+func eventIDReason[T string | []byte](s T) string {
 	if len(s) == 0 {
-		return time.Time{}, errors.New("empty time")
+		return ""
 	}
-	if c := s[0]; c == '-' || c == '+' || (c >= '0' && c <= '9') {
-		if t, ok := parseUnix(s); ok {
-			return t, nil
-		}
-		if c == '-' || c == '+' {
-			return time.Time{}, badTime(s)
-		}
+	if r := nodeIDReason("id", s); r != "" {
+		return r
 	}
-	t, err := time.Parse(time.RFC3339Nano, string(s))
-	if err != nil || !time.Unix(0, t.UnixNano()).Equal(t) {
-		return time.Time{}, badTime(s)
-	}
-	return t.UTC(), nil
-}
-
-func badTime[T string | []byte](s T) error {
-	return fmt.Errorf("bad time %q: want RFC 3339 or Unix seconds or milliseconds, years 1678 to 2262", s)
-}
-
-// parseUnix reads [sign]digits[.digits] exactly, without floating point.
-func parseUnix[T string | []byte](s T) (time.Time, bool) {
-	neg := false
-	if s[0] == '-' || s[0] == '+' {
-		neg = s[0] == '-'
-		s = s[1:]
-	}
-	intPart, frac := s, s[:0]
 	for i := 0; i < len(s); i++ {
-		if s[i] == '.' {
-			intPart, frac = s[:i], s[i+1:]
-			if len(frac) == 0 {
-				return time.Time{}, false
+		if c := s[i]; c < 0x20 || c == 0x7f {
+			return fmt.Sprintf("id contains a control character: byte 0x%02x at byte %d", c, i+1)
+		}
+	}
+	return ""
+}
+
+// CheckEvent returns nil when e is an event the bus may carry: valid op,
+// node ids that pass CheckNodeID, an event id that is empty or passes the
+// same checks and has no control characters.
+func CheckEvent(e Event) error {
+	if !e.Op.Valid() {
+		return fmt.Errorf("stream: invalid op %d", uint8(e.Op))
+	}
+	for _, r := range [...]string{nodeIDReason("src", e.Src), nodeIDReason("dst", e.Dst), eventIDReason(e.ID)} {
+		if r != "" {
+			return fmt.Errorf("stream: %s", r)
+		}
+	}
+	return nil
+}
+
+func indexByte[T string | []byte](s T, c byte) int {
+	for i := 0; i < len(s); i++ {
+		if s[i] == c {
+			return i
+		}
+	}
+	return -1
+}
+
+// invalidUTF8 returns the index of the first byte that does not start a
+// well-formed UTF-8 sequence (The Unicode Standard, table 3-7: no
+// overlong forms, no surrogates, nothing above U+10FFFF), or -1.
+func invalidUTF8[T string | []byte](s T) int {
+	for i := 0; i < len(s); {
+		c := s[i]
+		if c < 0x80 {
+			i++
+			continue
+		}
+		n, lo, hi := 0, byte(0x80), byte(0xbf)
+		switch {
+		case c >= 0xc2 && c <= 0xdf:
+			n = 2
+		case c == 0xe0:
+			n, lo = 3, 0xa0
+		case c >= 0xe1 && c <= 0xec, c == 0xee, c == 0xef:
+			n = 3
+		case c == 0xed:
+			n, hi = 3, 0x9f
+		case c == 0xf0:
+			n, lo = 4, 0x90
+		case c >= 0xf1 && c <= 0xf3:
+			n = 4
+		case c == 0xf4:
+			n, hi = 4, 0x8f
+		default:
+			return i
+		}
+		if i+n > len(s) || s[i+1] < lo || s[i+1] > hi {
+			return i
+		}
+		for k := 2; k < n; k++ {
+			if b := s[i+k]; b < 0x80 || b > 0xbf {
+				return i
 			}
-			break
 		}
+		i += n
 	}
-	// 18 digits cannot overflow int64 (< 1e18 < 2^63).
-	if len(intPart) == 0 || len(intPart) > 18 {
-		return time.Time{}, false
-	}
-	var whole int64
-	for i := 0; i < len(intPart); i++ {
-		c := intPart[i]
-		if c < '0' || c > '9' {
-			return time.Time{}, false
-		}
-		whole = whole*10 + int64(c-'0')
-	}
-	unit := int64(time.Second)
-	if whole >= msThreshold {
-		unit = int64(time.Millisecond)
-	}
-	if whole > (1<<63-1)/unit {
-		return time.Time{}, false
-	}
-	// After the loops scale == unit, so fracNS is in nanoseconds.
-	var fracNS, scale int64 = 0, 1
-	for i := 0; i < len(frac); i++ {
-		c := frac[i]
-		if c < '0' || c > '9' {
-			return time.Time{}, false
-		}
-		if scale < unit {
-			fracNS = fracNS*10 + int64(c-'0')
-			scale *= 10
-		}
-	}
-	for scale < unit {
-		fracNS *= 10
-		scale *= 10
-	}
-	ns := whole*unit + fracNS
-	if ns < whole*unit {
-		return time.Time{}, false
-	}
-	if neg {
-		ns = -ns
-	}
-	return time.Unix(0, ns).UTC(), true
+	return -1
 }

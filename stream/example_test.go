@@ -34,11 +34,11 @@ func ExampleNewReader() {
 			fmt.Println(err)
 			return
 		default:
-			fmt.Println(ev.Line, ev.Op, ev.Src, ev.Dst, ev.TS.Format("15:04:05"))
+			fmt.Println("line", ev.FileLine, ev.Op, ev.Src, ev.Dst, ev.TS.Format("15:04:05"))
 		}
 	}
 	// Output:
-	// 1 add acct-17 acct-42 09:30:00
-	// rejected: line 2: bad op "reverse"
-	// 3 remove acct-17 acct-42 09:32:00
+	// line 2 add acct-17 acct-42 09:30:00
+	// rejected: line 3: bad op "reverse": want add or remove
+	// line 4 remove acct-17 acct-42 09:32:00
 }

@@ -6,16 +6,34 @@ import (
 	"fmt"
 )
 
-// decodeObject fills ev from one JSON object whose member names for ts,
-// op, src, dst and id are keys. It returns "" or the reason the object is
-// rejected. Members not named are ignored; for a repeated member the last
-// one counts. src, dst and id may be strings or numbers (a number is kept
-// as its literal text); op must be a string; ts a string or a number (see
-// ParseTime); null is the same as absent.
+// jsonlDecoder reads one JSON object per line. Member names for ts, op,
+// src, dst, id, sign and amount are keys; members not named are ignored
+// (and listed by Reader.Unused); a name that appears twice in an object
+// rejects the line. src, dst and id may be strings or numbers (a number
+// is kept as its literal text); op and sign must be strings; ts and
+// amount strings or numbers (see ParseTime); null is the same as absent.
+// Only the top-level object is checked for repeated names.
 //
 // A string without escapes keeps its bytes exactly, even if they are not
-// UTF-8; a string with escapes is decoded by encoding/json.
-func decodeObject(b []byte, keys *[numKeys]string, ev *Event) string {
+// UTF-8 (the node id checks then reject it); a string with escapes is
+// decoded by encoding/json.
+type jsonlDecoder struct {
+	// r receives unused keys; nil on the bus.
+	r     *Reader
+	keys  *[numKeys]string
+	names [][]byte
+	// decoded holds member names and values that had escapes.
+	decoded []byte
+}
+
+func (d *jsonlDecoder) keyNames() *[numKeys]string {
+	if d.keys == nil {
+		return &d.r.keys
+	}
+	return d.keys
+}
+
+func (d *jsonlDecoder) cells(b []byte, c *[numKeys]cell) string {
 	if !json.Valid(b) {
 		var raw json.RawMessage
 		err := json.Unmarshal(b, &raw)
@@ -28,123 +46,72 @@ func decodeObject(b []byte, keys *[numKeys]string, ev *Event) string {
 	if b[i] != '{' {
 		return "not a JSON object"
 	}
-	var vals [numKeys][]byte
+	*c = [numKeys]cell{}
+	d.names, d.decoded = d.names[:0], d.decoded[:0]
+	keys := d.keyNames()
 	i = skipSpace(b, i+1)
 	for b[i] != '}' {
 		end := stringEnd(b, i)
-		name := b[i+1 : end-1]
+		name := d.unescape(b[i:end])
+		for _, seen := range d.names {
+			if bytes.Equal(seen, name) {
+				return fmt.Sprintf("duplicate key: %q", name)
+			}
+		}
+		d.names = append(d.names, name)
 		i = skipSpace(b, end)
 		i = skipSpace(b, i+1) // past ':'
 		vend := valueEnd(b, i)
-		if k := matchKey(name, keys); k >= 0 {
-			vals[k] = b[i:vend]
+		if k := matchKey(name, keys); k >= 0 && (k != keyAmount || d.r == nil || d.r.filler.min != nil) {
+			c[k] = d.value(b[i:vend])
+		} else if d.r != nil {
+			d.r.noteUnused(name)
 		}
 		i = skipSpace(b, vend)
 		if b[i] == ',' {
 			i = skipSpace(b, i+1)
 		}
 	}
-	*ev = Event{}
-	var reason string
-	if ev.Src, reason = jsonNode(vals[keySrc], "src"); reason != "" {
-		return reason
-	}
-	if ev.Dst, reason = jsonNode(vals[keyDst], "dst"); reason != "" {
-		return reason
-	}
-	if ev.Src == "" {
-		return "empty src"
-	}
-	if ev.Dst == "" {
-		return "empty dst"
-	}
-	if v := vals[keyID]; v != nil {
-		text, kind := jsonValue(v)
-		if kind == kindOther {
-			return fmt.Sprintf("id is not a string or number: %s", v)
-		}
-		ev.ID = string(text)
-	}
-	if v := vals[keyOp]; v != nil {
-		text, kind := jsonValue(v)
-		if kind == kindNumber || kind == kindOther {
-			return fmt.Sprintf("op is not a string: %s", v)
-		}
-		op, ok := parseOp(text)
-		if !ok {
-			return fmt.Sprintf("bad op %q", text)
-		}
-		ev.Op = op
-	}
-	if v := vals[keyTS]; v != nil {
-		text, kind := jsonValue(v)
-		switch kind {
-		case kindOther:
-			return fmt.Sprintf("ts is not a string or number: %s", v)
-		case kindString, kindNumber:
-			t, err := parseTime(text)
-			if err != nil {
-				return fmt.Sprintf("bad ts %s", v)
-			}
-			ev.TS, ev.HasTS = t, true
-		}
-	}
 	return ""
 }
 
-// jsonNode returns the node id in v, which must be a string, a number or
-// null; the reason is "" when it is.
-func jsonNode(v []byte, key string) (string, string) {
-	text, kind := jsonValue(v)
-	if kind == kindOther {
-		return "", fmt.Sprintf("%s is not a string or number: %s", key, v)
-	}
-	return string(text), ""
-}
-
-// Kinds of a JSON value for jsonValue.
-const (
-	kindNull = iota // absent or null
-	kindString
-	kindNumber
-	kindOther // true, false, object, array
-)
-
-// jsonValue returns the text of a value: a string's content (decoded when
-// it has escapes), a number's literal, nothing for null or absent (nil v).
-func jsonValue(v []byte) ([]byte, int) {
-	if v == nil || string(v) == "null" {
-		return nil, kindNull
-	}
+// value returns the cell of a JSON value: a string's content (decoded when
+// it has escapes), a number's literal, nothing for null.
+func (d *jsonlDecoder) value(v []byte) cell {
 	switch c := v[0]; {
+	case string(v) == "null":
+		return cell{}
 	case c == '"':
-		inner := v[1 : len(v)-1]
-		if bytes.IndexByte(inner, '\\') < 0 {
-			return inner, kindString
-		}
-		var s string
-		if err := json.Unmarshal(v, &s); err != nil {
-			panic("stream: valid JSON string failed to decode: " + err.Error())
-		}
-		return []byte(s), kindString
+		return cell{text: d.unescape(v), kind: kindString}
 	case c == '-' || (c >= '0' && c <= '9'):
-		return v, kindNumber
+		return cell{text: v, kind: kindNumber}
 	}
-	return v, kindOther
+	return cell{text: v, kind: kindOther}
 }
 
-// matchKey returns the index of the key whose name is the raw member name
-// (as between its quotes), or -1.
-func matchKey(raw []byte, keys *[numKeys]string) int {
-	name := raw
-	if bytes.IndexByte(raw, '\\') >= 0 {
-		var s string
-		quoted := append(append([]byte{'"'}, raw...), '"')
-		if err := json.Unmarshal(quoted, &s); err != nil {
-			panic("stream: valid JSON member name failed to decode: " + err.Error())
-		}
-		name = []byte(s)
+// unescape returns the content of the valid JSON string q (with its
+// quotes): a slice of q without escapes, else the decoded text.
+func (d *jsonlDecoder) unescape(q []byte) []byte {
+	inner := q[1 : len(q)-1]
+	if bytes.IndexByte(inner, '\\') < 0 {
+		return inner
 	}
+	var s string
+	if err := json.Unmarshal(q, &s); err != nil {
+		panic("stream: valid JSON string failed to decode: " + err.Error())
+	}
+	// A fresh slice when d.decoded must grow, so that earlier names and
+	// values stay as they were.
+	if cap(d.decoded)-len(d.decoded) < len(s) {
+		d.decoded = make([]byte, 0, max(2*cap(d.decoded), len(s)))
+	}
+	off := len(d.decoded)
+	d.decoded = append(d.decoded, s...)
+	return d.decoded[off:]
+}
+
+// matchKey returns the index of the key named name, or -1.
+func matchKey(name []byte, keys *[numKeys]string) int {
 	for k := range keys {
 		if string(name) == keys[k] {
 			return k

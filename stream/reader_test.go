@@ -82,6 +82,8 @@ func (c scriptCase) build(t *testing.T) ([]byte, Options) {
 			gz = true
 		case "noeol":
 			noeol = true
+		case "min":
+			opts.MinAmount = v
 		default:
 			t.Fatalf("line %d: unknown option %q", c.lineNo, o)
 		}
@@ -110,10 +112,14 @@ func gzipBytes(t testing.TB, b []byte) []byte {
 
 var derivedRE = regexp.MustCompile(`^[0-9a-f]{32}:([0-9]+)$`)
 
-// formatEvent renders an event as the script does.
+// formatEvent renders an event as the script does: file line, "#"
+// record number, op, ids, then what is set.
 func formatEvent(ev Event) string {
 	var b strings.Builder
-	fmt.Fprintf(&b, "%d %s %q %q", ev.Line, ev.Op, ev.Src, ev.Dst)
+	fmt.Fprintf(&b, "%d#%d %s %q %q", ev.FileLine, ev.Line, ev.Op, ev.Src, ev.Dst)
+	if ev.Neg {
+		b.WriteString(" neg")
+	}
 	if ev.HasTS {
 		fmt.Fprintf(&b, " ts=%s", ev.TS.Format(time.RFC3339Nano))
 	}
@@ -125,21 +131,30 @@ func formatEvent(ev Event) string {
 	return b.String()
 }
 
-// drain reads r to the end and renders every result.
+// drain reads r to the end and renders every result, and at the end the
+// reader's line counts and unused columns or keys.
 func drain(r *Reader) []string {
 	var got []string
 	for {
 		ev, err := r.Next()
 		var le *LineError
+		var fe *FilteredError
 		switch {
 		case err == nil:
 			got = append(got, formatEvent(ev))
 			continue
 		case errors.As(err, &le):
-			got = append(got, fmt.Sprintf("%d reject %s: %q", le.Line, le.Reason, le.Raw))
+			got = append(got, fmt.Sprintf("%d#%d reject %s: %q", le.FileLine, le.Line, le.Reason, le.Raw))
+			continue
+		case errors.As(err, &fe):
+			got = append(got, fmt.Sprintf("%d#%d filtered %s", fe.FileLine, fe.Line, fe.Reason))
 			continue
 		case err == io.EOF:
-			got = append(got, "eof")
+			end := fmt.Sprintf("eof lines=%d header=%d blank=%d records=%d", r.Lines(), r.Header(), r.Blank(), r.Records())
+			if u := r.Unused(); len(u) > 0 {
+				end += " unused=" + strings.Join(u, ",")
+			}
+			got = append(got, end)
 		default:
 			got = append(got, "error: "+err.Error())
 		}

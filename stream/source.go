@@ -7,7 +7,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"hash"
 	"io"
 	"os"
 	"strconv"
@@ -20,14 +19,19 @@ type Options struct {
 	// .jsonl, .ndjson, each optionally followed by .gz) and else by the
 	// first byte of the content ('{' is JSON lines, anything else CSV).
 	Format string
-	// Columns maps our keys (ts, op, src, dst, id) to the header names or
-	// JSON keys the source uses for them, e.g. {"src": "payer"}. Keys not
-	// mapped keep their own name.
+	// Columns maps our keys (ts, op, src, dst, id, sign, amount) to the
+	// header names or JSON keys the source uses for them, e.g.
+	// {"src": "payer"}. Keys not mapped keep their own name.
 	Columns map[string]string
+	// MinAmount, when not empty, keeps only events whose amount (the
+	// amount column or key) is at least this decimal number; the others
+	// are filtered (Next returns a *FilteredError). An event without a
+	// readable amount is rejected.
+	MinAmount string
 }
 
 // Keys of an event in a source, in the order of the key* constants.
-var keyNames = [numKeys]string{"ts", "op", "src", "dst", "id"}
+var keyNames = [numKeys]string{"ts", "op", "src", "dst", "id", "sign", "amount"}
 
 const (
 	keyTS = iota
@@ -35,6 +39,8 @@ const (
 	keySrc
 	keyDst
 	keyID
+	keySign
+	keyAmount
 	numKeys
 )
 
@@ -49,7 +55,7 @@ func resolveKeys(cols map[string]string) ([numKeys]string, error) {
 			}
 		}
 		if i < 0 {
-			return names, fmt.Errorf("stream: column mapping: unknown key %q (want ts, op, src, dst or id)", k)
+			return names, fmt.Errorf("stream: column mapping: unknown key %q (want ts, op, src, dst, id, sign or amount)", k)
 		}
 		if v == "" {
 			return names, fmt.Errorf("stream: column mapping: empty name for key %q", k)
@@ -66,35 +72,63 @@ func resolveKeys(cols map[string]string) ([numKeys]string, error) {
 	return names, nil
 }
 
-// decoder reads one record into ev. It returns io.EOF at the end, a
-// *LineError for a bad record, or another error when reading fails.
+// Kinds of a cell: a key's value in one record.
+const (
+	kindNull   = iota // absent, null, or an empty CSV field
+	kindString        // a CSV field, or a JSON string
+	kindNumber        // a JSON number (its literal text)
+	kindOther         // JSON true, false, an object or an array
+)
+
+// cell is one key's value in the current record. text points into the
+// line or a decoder's scratch and is valid until the next line.
+type cell struct {
+	text []byte
+	kind int
+}
+
+// decoder splits one non-blank line into the cells of the keys it reads;
+// it returns "" or the reason the line is rejected.
 type decoder interface {
-	next(ev *Event) error
+	cells(line []byte, c *[numKeys]cell) string
 }
 
 // Reader reads edge events from one source. It is not safe for concurrent
 // use.
 type Reader struct {
 	name   string
+	format string
 	closer io.Closer
 	raw    *countingReader
 	size   int64
 	gz     *gzip.Reader
-	sp     *spool
-	br     *bufio.Reader
+	lr     lineReader
 	dec    decoder
-	// hashed is how many content bytes have gone into h.
-	hashed int64
-	h      hash.Hash
+	keys   [numKeys]string
+	filler filler
+	cells  [numKeys]cell
+
+	record, blank, header int
+	// cur is the raw text of the last record returned, valid until Next.
+	cur []byte
+	// unused lists source columns or keys no key reads, in order of first
+	// appearance, at most maxUnused; unusedMore counts those past it.
+	unused     []string
+	unusedMore bool
+
 	sumBuf [sha256.Size]byte
 	idBuf  []byte
 	sum    [sha256.Size]byte
 	done   bool
 	err    error
-	// ev is the decoders' scratch event; a local would escape through
-	// the decoder interface and cost an allocation per event.
+	// ev is the scratch event; a local would escape through the decoder
+	// interface and cost an allocation per event.
 	ev Event
 }
+
+// maxUnused bounds the list of unused JSON keys, which a hostile log
+// could make endless.
+const maxUnused = 32
 
 // Open opens the source at path, or standard input when path is "-".
 // Gzip content (magic bytes 1f 8b) is decompressed whatever the name.
@@ -131,7 +165,16 @@ func newReader(name, path string, rd io.Reader, closer io.Closer, size int64, op
 	if err != nil {
 		return nil, err
 	}
-	r := &Reader{name: name, closer: closer, size: size, h: sha256.New()}
+	r := &Reader{name: name, closer: closer, size: size, keys: keys}
+	if opts.MinAmount != "" {
+		m, ok := parseDecimal(opts.MinAmount)
+		if !ok {
+			return nil, fmt.Errorf("stream: minimum amount %q is not a decimal number", opts.MinAmount)
+		}
+		r.filler.min, r.filler.minText = &m, opts.MinAmount
+	} else if _, ok := opts.Columns["amount"]; ok {
+		return nil, errors.New("stream: an amount column is read only to filter by a minimum amount, and none is given")
+	}
 	r.raw = &countingReader{r: rd}
 	rawBR := bufio.NewReaderSize(r.raw, 64<<10)
 	content, gz, err := gunzipIfMagic(rawBR)
@@ -139,22 +182,15 @@ func newReader(name, path string, rd io.Reader, closer io.Closer, size int64, op
 		return nil, fmt.Errorf("stream: %s: %w", name, err)
 	}
 	r.gz = gz
-	r.sp = &spool{r: content}
-	r.br = bufio.NewReaderSize(r.sp, 64<<10)
-	format, err := chooseFormat(opts.Format, path, r.br)
-	if err != nil {
+	r.lr = lineReader{br: bufio.NewReaderSize(content, 64<<10), h: sha256.New()}
+	if r.format, err = chooseFormat(opts.Format, path, r.lr.br); err != nil {
 		return nil, fmt.Errorf("stream: %s: %w", name, err)
 	}
-	// A UTF-8 byte order mark is content (it is hashed) but not data.
-	if bom, _ := r.br.Peek(3); string(bom) == "\xef\xbb\xbf" {
-		r.br.Discard(3)
-		r.advance(3)
-	}
-	switch format {
+	switch r.format {
 	case "csv":
-		r.dec, err = newCSVDecoder(r, keys)
+		r.dec, err = newCSVDecoder(r)
 	case "jsonl":
-		r.dec = newJSONLDecoder(r, keys)
+		r.dec = &jsonlDecoder{r: r}
 	}
 	if err != nil {
 		return nil, fmt.Errorf("stream: %s: %w", name, err)
@@ -198,64 +234,130 @@ func chooseFormat(format, path string, br *bufio.Reader) (string, error) {
 }
 
 // Next returns the next event. At the end it returns io.EOF; for a bad
-// record a *LineError, after which the following call goes on with the
-// next record; any other error is final.
+// record a *LineError, and for an event the amount filter drops a
+// *FilteredError, after either of which the following call goes on with
+// the next line; any other error is final and names the last complete
+// line read.
 func (r *Reader) Next() (Event, error) {
 	if r.err != nil {
 		return Event{}, r.err
 	}
-	r.ev = Event{}
-	err := r.dec.next(&r.ev)
-	switch {
-	case err == nil:
+	for {
+		line, size, err := r.lr.next()
+		if err == io.EOF {
+			r.finish()
+			return Event{}, r.err
+		}
+		if err != nil {
+			r.err = fmt.Errorf("stream: %s: reading after line %d (the last complete line): %w", r.name, r.lr.lines, err)
+			return Event{}, r.err
+		}
+		if r.isBlank(line) {
+			r.blank++
+			continue
+		}
+		r.record++
+		r.cur = line
+		r.ev = Event{Line: r.record, FileLine: r.lr.lines}
+		if size > MaxLineBytes {
+			return Event{}, r.reject(fmt.Sprintf("line too long: %d bytes, the limit is %d (raw text cut to its first %d bytes)", size, MaxLineBytes, rawKeep))
+		}
+		if reason := r.dec.cells(line, &r.cells); reason != "" {
+			return Event{}, r.reject(reason)
+		}
+		reason, filtered := r.filler.fill(&r.ev, &r.cells)
+		if reason != "" {
+			return Event{}, r.reject(reason)
+		}
+		if filtered != "" {
+			return Event{}, &FilteredError{Line: r.record, FileLine: r.lr.lines, Reason: filtered}
+		}
 		if r.ev.ID == "" {
-			r.ev.ID = r.derivedID(r.ev.Line)
+			r.ev.ID = r.derivedID(r.record)
 		}
 		return r.ev, nil
-	case err == io.EOF:
-		r.finish()
-		return Event{}, r.err
-	default:
-		var le *LineError
-		if errors.As(err, &le) {
-			return Event{}, err
-		}
-		r.err = fmt.Errorf("stream: %s: %w", r.name, err)
-		return Event{}, r.err
 	}
+}
+
+// isBlank reports whether a line holds no record: empty in CSV, only
+// spaces, tabs and carriage returns in JSON lines.
+func (r *Reader) isBlank(line []byte) bool {
+	if r.format == "csv" {
+		return len(line) == 0
+	}
+	return skipSpace(line, 0) == len(line)
+}
+
+func (r *Reader) reject(reason string) error {
+	return &LineError{Line: r.record, FileLine: r.lr.lines, Reason: reason, Raw: append([]byte(nil), r.cur...)}
 }
 
 // derivedID is the hex of the first 16 bytes of the SHA-256 of the content
-// up to the end of the current record, ":" and the line number.
-func (r *Reader) derivedID(line int) string {
-	s := r.h.Sum(r.sumBuf[:0])
+// up to the end of the current record, ":" and the record number.
+func (r *Reader) derivedID(record int) string {
+	s := r.lr.h.Sum(r.sumBuf[:0])
 	r.idBuf = hex.AppendEncode(r.idBuf[:0], s[:16])
 	r.idBuf = append(r.idBuf, ':')
-	r.idBuf = strconv.AppendInt(r.idBuf, int64(line), 10)
+	r.idBuf = strconv.AppendInt(r.idBuf, int64(record), 10)
 	return string(r.idBuf)
 }
 
-// advance feeds the next n content bytes (already read from the spool by
-// a decoder) to the hash and returns them; they stay valid until the next
-// read from r.br.
-func (r *Reader) advance(n int) []byte {
-	b := r.sp.take(n)
-	r.h.Write(b)
-	r.hashed += int64(n)
-	return b
-}
-
-// finish reads what the decoder left, completes the hash and sets r.err
-// to io.EOF, or to the read error.
+// finish completes the hash and sets r.err to io.EOF.
 func (r *Reader) finish() {
-	if _, err := r.br.WriteTo(io.Discard); err != nil {
-		r.err = fmt.Errorf("stream: %s: %w", r.name, err)
-		return
-	}
-	r.advance(r.sp.held())
-	r.h.Sum(r.sum[:0])
+	r.lr.h.Sum(r.sum[:0])
 	r.done = true
 	r.err = io.EOF
+}
+
+// Raw returns the text of the line of the last event or rejected line
+// Next returned, without its line ending (cut to its first 4096 bytes when
+// it was longer than MaxLineBytes). It is valid until the next call of
+// Next; copy it to keep it.
+func (r *Reader) Raw() []byte { return r.cur }
+
+// Lines is the number of lines read so far, counted as an editor counts
+// them (header and blank lines included; a last line without a line
+// ending counts). After io.EOF it is the source's line count; after a
+// final read error, the number of complete lines before it.
+func (r *Reader) Lines() int { return r.lr.lines }
+
+// Blank is the number of blank lines read so far: they hold no record,
+// use up no record number and are neither events nor rejects.
+func (r *Reader) Blank() int { return r.blank }
+
+// Header is the number of header lines read: 1 for CSV, 0 for JSON lines.
+func (r *Reader) Header() int { return r.header }
+
+// Records is the number of data records read so far: events, rejected
+// and filtered lines. Lines = Header + Blank + Records.
+func (r *Reader) Records() int { return r.record }
+
+// Format is "csv" or "jsonl".
+func (r *Reader) Format() string { return r.format }
+
+// Unused lists the source's columns (CSV, from the header) or keys (JSON
+// lines, from the lines read so far) that no key reads, in order of first
+// appearance; with more than 32 JSON keys the list ends in "…".
+func (r *Reader) Unused() []string {
+	out := append([]string(nil), r.unused...)
+	if r.unusedMore {
+		out = append(out, "…")
+	}
+	return out
+}
+
+// noteUnused adds a JSON member name to the unused keys when new.
+func (r *Reader) noteUnused(name []byte) {
+	for _, u := range r.unused {
+		if u == string(name) {
+			return
+		}
+	}
+	if len(r.unused) == maxUnused {
+		r.unusedMore = true
+		return
+	}
+	r.unused = append(r.unused, string(name))
 }
 
 // Offset is the number of bytes read so far from the underlying source
@@ -337,36 +439,3 @@ func (c *countingReader) Read(p []byte) (int, error) {
 	c.n += int64(n)
 	return n, err
 }
-
-// spool keeps a copy of the content bytes read through it until a decoder
-// says how many of them made up its record (take), so that the record can
-// be hashed and shown raw without a second buffer per decoder.
-type spool struct {
-	r   io.Reader
-	buf []byte
-	// off is the start of the bytes not yet taken.
-	off int
-}
-
-func (s *spool) Read(p []byte) (int, error) {
-	n, err := s.r.Read(p)
-	if len(s.buf)+n > cap(s.buf) && s.off > 0 {
-		s.buf = s.buf[:copy(s.buf, s.buf[s.off:])]
-		s.off = 0
-	}
-	s.buf = append(s.buf, p[:n]...)
-	return n, err
-}
-
-// take returns the next n bytes not yet taken. n must not exceed held.
-func (s *spool) take(n int) []byte {
-	if n > s.held() || n < 0 {
-		panic("stream: spool take beyond the bytes read")
-	}
-	b := s.buf[s.off : s.off+n]
-	s.off += n
-	return b
-}
-
-// held is the number of bytes read but not yet taken.
-func (s *spool) held() int { return len(s.buf) - s.off }

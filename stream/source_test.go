@@ -39,7 +39,7 @@ func readAll(t *testing.T, r *Reader) []Event {
 }
 
 func TestDerivedID(t *testing.T) {
-	const csvText = "src,dst\r\na,b\r\n\r\n\"c\nd\",e\r\nf,g"
+	const csvText = "src,dst\r\na,b\r\n\r\n\"c d\",e\r\nf,g"
 	const jsonText = "{\"src\":\"a\",\"dst\":\"b\"}\n\n{\"src\":\"c\",\"dst\":\"d\"}\n"
 	for _, tc := range []struct {
 		name, content string
@@ -200,17 +200,66 @@ func TestCorruptGzipIsFinal(t *testing.T) {
 
 func TestLongJSONLine(t *testing.T) {
 	long := strings.Repeat("x", 200<<10)
-	text := fmt.Sprintf("{\"src\":\"%s\",\"dst\":\"b\",\"memo\":\"%s\"}\n{\"src\":\"c\",\"dst\":\"d\"}\n", long, long)
+	text := fmt.Sprintf("{\"src\":\"a\",\"dst\":\"b\",\"memo\":\"%s\"}\n{\"src\":\"c\",\"dst\":\"d\"}\n", long)
 	r, err := NewReader("x", strings.NewReader(text), Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	evs := readAll(t, r)
-	if len(evs) != 2 || evs[0].Src != long || evs[1].Src != "c" || evs[1].Line != 2 {
+	if len(evs) != 2 || evs[0].Src != "a" || evs[1].Src != "c" || evs[1].Line != 2 {
 		t.Fatalf("long line: %d events", len(evs))
 	}
 	if want := prefixID(text, len(text)-len("{\"src\":\"c\",\"dst\":\"d\"}\n"), 1); evs[0].ID != want {
 		t.Errorf("id %s, want %s", evs[0].ID, want)
+	}
+}
+
+// TestLineLimit: a line longer than MaxLineBytes is rejected with its
+// first bytes kept, read past without being held, and the reader goes on
+// at the next line with the right numbers and ids; a line of exactly
+// MaxLineBytes is read.
+func TestLineLimit(t *testing.T) {
+	over := "a,b,\"" + strings.Repeat("q", MaxLineBytes+5<<20)
+	exact := "c,d," + strings.Repeat("z", MaxLineBytes-4)
+	for _, tc := range []struct {
+		name, text string
+		gz         bool
+	}{
+		{"plain", "src,dst,memo\n" + over + "\n" + exact + "\r\ne,f,g\n", false},
+		{"gzip", "src,dst,memo\n" + over + "\n" + exact + "\r\ne,f,g\n", true},
+	} {
+		data := []byte(tc.text)
+		if tc.gz {
+			data = gzipBytes(t, data)
+		}
+		r, err := NewReader("x", bytes.NewReader(data), Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, err = r.Next()
+		var le *LineError
+		if !errors.As(err, &le) || le.FileLine != 2 || le.Line != 1 || len(le.Raw) != rawKeep || string(le.Raw[:5]) != "a,b,\"" ||
+			!strings.HasPrefix(le.Reason, fmt.Sprintf("line too long: %d bytes", len(over))) {
+			t.Fatalf("%s: first result %v (raw %d bytes), want the long line rejected", tc.name, err, len(le.Raw))
+		}
+		if c := cap(r.lr.long); c > MaxLineBytes+64<<10 {
+			t.Errorf("%s: a %d byte line was held in a %d byte buffer", tc.name, len(over), c)
+		}
+		ev, err := r.Next()
+		if err != nil || ev.FileLine != 3 || ev.Line != 2 || ev.Src != "c" {
+			t.Fatalf("%s: after the long line: %+v, %v", tc.name, ev.Src, err)
+		}
+		if got := len(r.Raw()); got != MaxLineBytes {
+			t.Errorf("%s: raw of a line of exactly the limit has %d bytes", tc.name, got)
+		}
+		ev, err = r.Next()
+		end := len(tc.text)
+		if err != nil || ev.FileLine != 4 || ev.ID != prefixID(tc.text, end, 3) {
+			t.Fatalf("%s: last line %+v, %v", tc.name, ev.Line, err)
+		}
+		if _, err := r.Next(); err != io.EOF || r.Lines() != 4 {
+			t.Fatalf("%s: %v after %d lines, want EOF after 4", tc.name, err, r.Lines())
+		}
 	}
 }
 
@@ -240,10 +289,10 @@ func TestStdin(t *testing.T) {
 		t.Fatalf("child: %v\n%s", err, out)
 	}
 	want := strings.Join([]string{
-		`1 add "alpha" "beta" id=derived`,
-		`2 reject bad op "drop": "beta,gamma,drop"`,
-		`3 remove "gamma" "alpha" id=derived`,
-		"eof",
+		`2#1 add "alpha" "beta" id=derived`,
+		`3#2 reject bad op "drop": want add or remove: "beta,gamma,drop"`,
+		`4#3 remove "gamma" "alpha" id=derived`,
+		"eof lines=4 header=1 blank=0 records=3",
 		fmt.Sprintf("sum %x", sha256.Sum256([]byte(text))),
 	}, "\n") + "\n"
 	if string(out) != want {
@@ -308,8 +357,29 @@ func TestParseTime(t *testing.T) {
 		{"1e9", time.Time{}},
 		{"-", time.Time{}},
 		{"", time.Time{}},
-		{"2026-03-01", time.Time{}},
 		{"3000-01-01T00:00:00Z", time.Time{}},
+		{"2026-03-01", time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)},
+		{"2026-03-01 09:17:00", time.Date(2026, 3, 1, 9, 17, 0, 0, time.UTC)},
+		{"2026-03-01 09:17:00+02:00", time.Date(2026, 3, 1, 7, 17, 0, 0, time.UTC)},
+		{"2026-03-01t09:17:00.000000001z", time.Date(2026, 3, 1, 9, 17, 0, 1, time.UTC)},
+		{"2026-03-01 23:30-0100", time.Date(2026, 3, 2, 0, 30, 0, 0, time.UTC)},
+		{"2026-12-31 23:59:59.9999999999", time.Date(2026, 12, 31, 23, 59, 59, 999999999, time.UTC)},
+		{"1677-09-21", time.Time{}}, // int64 ns begin 1677-09-21T00:12:43Z
+		{"1677-09-22", time.Date(1677, 9, 22, 0, 0, 0, 0, time.UTC)},
+		{"2262-04-12", time.Time{}}, // and end 2262-04-11T23:47:16Z
+		{"2262-04-11", time.Date(2262, 4, 11, 0, 0, 0, 0, time.UTC)},
+		{"2026-04-31", time.Time{}},
+		{"2026-13-01", time.Time{}},
+		{"2026-00-10", time.Time{}},
+		{"2026-03-01 09:60", time.Time{}},
+		{"2026-03-01 09:17:60", time.Time{}},
+		{"2026-03-01 09:17:00.", time.Time{}},
+		{"2026-03-01 09:17:00+24:00", time.Time{}},
+		{"2026-03-01 09:17:00+02:0", time.Time{}},
+		{"2026-03-01 09:17:00 +02:00", time.Time{}},
+		{"2026-03-01T", time.Time{}},
+		{"2026-03-01x09:17", time.Time{}},
+		{"26-03-01", time.Time{}},
 	} {
 		got, err := ParseTime(tc.in)
 		if tc.want.IsZero() {
@@ -369,8 +439,8 @@ func TestLiveStream(t *testing.T) {
 }
 
 // TestLargeLogBoundedBuffer reads a log far larger than the read buffers
-// and checks the events, the last derived id and that the spool, which
-// holds bytes until their record is hashed, stays small.
+// and checks the events, the last derived id and that short lines are
+// read in place, without a line buffer of their own.
 func TestLargeLogBoundedBuffer(t *testing.T) {
 	n := 60_000
 	if testing.Short() {
@@ -388,7 +458,7 @@ func TestLargeLogBoundedBuffer(t *testing.T) {
 	if want := prefixID(string(data), len(data), n); evs[n-1].ID != want {
 		t.Errorf("last id %s, want %s", evs[n-1].ID, want)
 	}
-	if c := cap(r.sp.buf); c > 512<<10 {
-		t.Errorf("spool grew to %d bytes for a %d byte log", c, len(data))
+	if c := cap(r.lr.long); c > 0 {
+		t.Errorf("a line buffer of %d bytes was made for lines that fit the read buffer", c)
 	}
 }
