@@ -3,11 +3,13 @@ package directed
 import (
 	"math/rand/v2"
 	"runtime"
+	"sync"
 	"testing"
 	"time"
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/internal/cpuclock"
+	"orbitwatch/delta/undirected"
 )
 
 // Sizes of the 2–3 benchmark: BA(100k, m=5) with random directions and
@@ -131,4 +133,49 @@ func BenchmarkTriads(b *testing.B) {
 	b.ReportMetric(float64(tHub.Nanoseconds())/events, "churn-into-merchant-ns/event")
 	b.ReportMetric(float64(tMerch)/float64(tPlain), "churn-merchant/plain")
 	b.ReportMetric(allocs, "max-allocs/event")
+}
+
+// recountGraphs returns the graphs of the recount benchmark, built once:
+// BA(100k, m=5) with random directions and 5 % reciprocal pairs, the same
+// with a merchant paid by every node, and the directed payments scenario
+// of bench/gen at 600k events.
+var recountGraphs = sync.OnceValue(func() []namedGraph {
+	ba := baArcs(triadNodes, triadM, 1, triadRecip)
+	merch, _ := withMerchant(ba, triadNodes, triadNodes, 2)
+	return []namedGraph{
+		{"ba100k", graphOf(ba)},
+		{"ba100k+merchant", graphOf(merch)},
+		{"payments600k", graphOf(paymentsArcs(600_000, 1))},
+	}
+})
+
+type namedGraph struct {
+	name string
+	g    *delta.Graph
+}
+
+// BenchmarkRecount4 times the directed 2–4 recount against the undirected
+// 2–4 recount (delta/undirected) of the same log, each arc an undirected
+// edge, in one run per graph, wall time on all cores. directed/undirected
+// is the ratio the issue sets at ≤ 10.
+func BenchmarkRecount4(b *testing.B) {
+	for _, ng := range recountGraphs() {
+		b.Run(ng.name, func(b *testing.B) {
+			u := underlying(ng.g)
+			dir, und := NewRecounter(4), undirected.NewRecounter(4)
+			var td, tu time.Duration
+			for b.Loop() {
+				t0 := time.Now()
+				dir.Recount(ng.g)
+				t1 := time.Now()
+				und.Recount(u)
+				td += t1.Sub(t0)
+				tu += time.Since(t1)
+			}
+			b.ReportMetric(float64(ng.g.NumEdges()), "arcs")
+			b.ReportMetric(td.Seconds()/float64(b.N), "directed-s")
+			b.ReportMetric(tu.Seconds()/float64(b.N), "undirected-s")
+			b.ReportMetric(float64(td)/float64(tu), "directed/undirected")
+		})
+	}
 }

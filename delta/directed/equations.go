@@ -113,6 +113,11 @@ type equations struct {
 	diag     []int64
 	// col[o′] lists the rows o ≠ o′ with A[o][o′] ≠ 0.
 	col [][]entry
+	// cycles maps wedge pairs to 4-cycle slots; credited lists the
+	// orbits whose pattern counts the recount credits in the output row
+	// (diamonds at a degree-2 node, K4s). Both only for k = 4.
+	cycles   *cycleTables
+	credited []int
 }
 
 type entry struct {
@@ -263,6 +268,10 @@ func buildEquations(k int) *equations {
 				panic(fmt.Sprintf("directed: A[%d][%d] breaks the triangular order", en.row, o))
 			}
 		}
+	}
+	if k == 4 {
+		eq.cycles = buildCycleTables(eq)
+		eq.credited = append(append([]int(nil), eq.byFamily[fDiamondDeg2]...), eq.byFamily[fClique]...)
 	}
 	eq.order = make([]int, n)
 	for i := range eq.order {

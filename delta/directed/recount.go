@@ -42,6 +42,7 @@ type tri9 [9]uint32
 
 // state is what the passes of one recount share.
 type state struct {
+	k   int
 	s   *snapshot
 	eq  *equations
 	vec *delta.Vectors
@@ -53,11 +54,26 @@ type state struct {
 	edge []tri9
 	// w[x][a][b] = Σ_{y : type(x,y) = a} d_b(y).
 	w [][3][3]int64
+	// cyc holds each worker's 4-cycle counts (cycles.go).
+	cyc []*cycleScratch
+	// hasTri[x]: x is in a triangle; credited[x] ≠ 0: x's output row
+	// holds credits. Both let solveNode skip work and untouched memory.
+	hasTri   []bool
+	credited []uint32
 }
 
 // Recount returns every node's orbit vector. g must be Directed with no
 // node joined to more than 2^20 others.
 func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
+	st := r.newState(g)
+	for _, pass := range r.passes(st) {
+		pass.run()
+	}
+	return st.vec
+}
+
+// newState snapshots g and allocates what the passes fill.
+func (r *recounter) newState(g *delta.Graph) *state {
 	if g.Kind() != delta.Directed {
 		panic("directed: recount of a graph of kind " + g.Kind().String())
 	}
@@ -66,15 +82,40 @@ func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
 	if n > 0 && s.off[n]-s.off[n-1] > maxRecountDegree {
 		panic(fmt.Sprintf("directed: degree %d above 2^20, counts could overflow int64", s.off[n]-s.off[n-1]))
 	}
-	st := &state{s: s, eq: r.eq, vec: delta.NewVectors(n, r.eq.cat.NumOrbits()), tri: make([][3][3][3]int64, n), w: make([][3][3]int64, n)}
+	st := &state{s: s, k: r.k, eq: r.eq, vec: delta.NewVectors(n, r.eq.cat.NumOrbits()), tri: make([][3][3][3]int64, n), w: make([][3][3]int64, n),
+		hasTri: make([]bool, n), credited: make([]uint32, n)}
 	if r.k == 4 {
 		st.edge = make([]tri9, len(s.adj))
 	}
-	st.triangles()
+	return st
+}
+
+// pass is one named step of a recount; the benchmark times them.
+type pass struct {
+	name string
+	run  func()
+}
+
+// passes returns the recount's steps in order: triangles (and their
+// mirror copies), neighbour degree sums, for 4 nodes the 4-cycles and
+// the diamonds and K4s, and the per-node solve.
+func (r *recounter) passes(st *state) []pass {
+	p := []pass{{"triangles", st.triangles}}
 	if r.k == 4 {
-		st.mirror()
+		p = append(p, pass{"mirror", st.mirror})
 	}
-	forEachNode(n, func(_ int, x uint32) {
+	p = append(p, pass{"degree sums", st.degreeSums})
+	if r.k == 4 {
+		p = append(p, pass{"4-cycles", st.cycles}, pass{"diamonds and K4s", st.diamondsAndCliques})
+	}
+	return append(p, pass{"solve", st.solveAll})
+}
+
+// degreeSums fills w and hasTri.
+func (st *state) degreeSums() {
+	s := st.s
+	forEachNode(s.numNodes(), func(_ int, x uint32) {
+		st.hasTri[x] = st.tri[x] != [3][3][3]int64{}
 		w := &st.w[x]
 		for i := s.off[x]; i < s.off[x+1]; i++ {
 			d := &s.deg[s.adj[i]]
@@ -84,20 +125,20 @@ func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
 			}
 		}
 	})
-	if r.k == 4 {
-		st.cycles()
-		st.diamondsAndCliques()
-	}
+}
+
+// solveAll solves every node. A node whose counts do not solve is a bug
+// in the passes: solveAll panics.
+func (st *state) solveAll() {
 	scratch := make([]*solveScratch, workers())
-	forEachNode(n, func(wk int, x uint32) {
+	forEachNode(st.s.numNodes(), func(wk int, x uint32) {
 		if scratch[wk] == nil {
-			scratch[wk] = &solveScratch{n: make([]int64, r.eq.cat.NumOrbits())}
+			scratch[wk] = &solveScratch{n: make([]int64, st.eq.cat.NumOrbits())}
 		}
-		if err := st.solveNode(scratch[wk], x, r.k); err != nil {
+		if err := st.solveNode(scratch[wk], x); err != nil {
 			panic(err)
 		}
 	})
-	return st.vec
 }
 
 // triangles counts every triangle x < y < z once, from x: the ordered
@@ -152,92 +193,9 @@ func (st *state) mirror() {
 // row, read back by solveNode).
 func (st *state) credit(x uint32, o int, v uint64) {
 	atomic.AddUint64(&st.vec.Row(st.s.orig[x])[o], v)
-}
-
-// cycles counts the non-induced 4-cycles x–y–z–w–x once each, from their
-// highest node x: the wedges x–y–z with y, z below x are counted per z by
-// wedge type β = (type(x,y), type(y,z)), and every pair of wedges to one z
-// is a cycle. The pattern of a cycle at a node n reads
-// (type(n,n1), type(n1,m), type(n,n2), type(n2,m)) with m opposite n;
-// each labelled tuple is credited to its orbit's slot when that is the
-// canonical form (equations.slot). x and z get one tuple per ordered pair
-// of distinct wedges; a middle y gets, per other wedge through w, the
-// tuples (y, x, w, z) and (y, z, w, x). The work is Σ_x Σ_{y∈N(x), y<x}
-// |N(y) ∩ [0,x)| (Chiba & Nishizeki 1985) plus the credits.
-func (st *state) cycles() {
-	s, eq := st.s, st.eq
-	n := s.numNodes()
-	type scratch struct {
-		cn   [][9]uint32
-		seen []uint32
+	if atomic.LoadUint32(&st.credited[x]) == 0 {
+		atomic.StoreUint32(&st.credited[x], 1)
 	}
-	scr := make([]*scratch, workers())
-	forEachNode(n, func(wk int, x uint32) {
-		if scr[wk] == nil {
-			scr[wk] = &scratch{cn: make([][9]uint32, n)}
-		}
-		sc := scr[wk]
-		cn, seen := sc.cn, sc.seen[:0]
-		s.forEachWedgeBelow(x, func(_, z uint32, a, b uint8) {
-			c := &cn[z]
-			if *c == ([9]uint32{}) {
-				seen = append(seen, z)
-			}
-			c[(a-1)*3+b-1]++
-		})
-		for _, z := range seen {
-			c := &cn[z]
-			for b1 := range 9 {
-				if c[b1] == 0 {
-					continue
-				}
-				a1, z1 := uint8(b1/3+1), uint8(b1%3+1)
-				for b2 := range 9 {
-					if c[b2] == 0 {
-						continue
-					}
-					k := uint64(c[b1]) * uint64(c[b2])
-					if b1 == b2 {
-						k -= uint64(c[b1])
-					}
-					if k == 0 {
-						continue
-					}
-					a2, z2 := uint8(b2/3+1), uint8(b2%3+1)
-					if o := eq.slotOf(fCycle, a1, z1, a2, z2); o >= 0 {
-						st.credit(x, o, k)
-					}
-					if o := eq.slotOf(fCycle, rev(z1), rev(a1), rev(z2), rev(a2)); o >= 0 {
-						st.credit(z, o, k)
-					}
-				}
-			}
-		}
-		s.forEachWedgeBelow(x, func(y, z uint32, a, b uint8) {
-			c := &cn[z]
-			mine := (a-1)*3 + b - 1
-			for b2 := range 9 {
-				k := uint64(c[b2])
-				if uint8(b2) == mine {
-					k--
-				}
-				if k == 0 {
-					continue
-				}
-				a2, z2 := uint8(b2/3+1), uint8(b2%3+1)
-				if o := eq.slotOf(fCycle, rev(a), a2, b, rev(z2)); o >= 0 {
-					st.credit(y, o, k)
-				}
-				if o := eq.slotOf(fCycle, b, rev(z2), rev(a), a2); o >= 0 {
-					st.credit(y, o, k)
-				}
-			}
-		})
-		for _, z := range seen {
-			cn[z] = [9]uint32{}
-		}
-		sc.seen = seen
-	})
 }
 
 // diamondsAndCliques visits every triangle once more, now that every
@@ -361,26 +319,36 @@ type solveScratch struct {
 //	v[a][b][c][e]    = Σ_{type(x,y)=a} tri(x,y)[b][c]·d_e(y)
 //	dd3[a][bc][ef]   = Σ_{type(x,y)=a} tri(x,y)[bc]·tri(x,y)[ef]
 type sums struct {
-	q    [3][3][3]int64
-	leaf [3][3][3]int64
-	pend [3][3][3][3]int64
-	v    [3][3][3][3]int64
-	dd3  [3][9][9]int64
+	// anyPend: some neighbour is in a triangle (pend is not all zero).
+	anyPend bool
+	q       [3][3][3]int64
+	leaf    [3][3][3]int64
+	pend    [3][3][3][3]int64
+	v       [3][3][3][3]int64
+	dd3     [3][9][9]int64
 }
 
 // solveNode computes rank x's pattern counts (the 2–3 node ones by
 // smallPatterns, triangles from tri[x], the 4-node ones by the formulas of
 // fourPatterns, the slots credited by the enumerations), solves them and
 // stores x's orbit counts.
-func (st *state) solveNode(sc *solveScratch, x uint32, k int) error {
+func (st *state) solveNode(sc *solveScratch, x uint32) error {
 	s := st.s
 	row := st.vec.Row(s.orig[x])
 	n := sc.n
-	for o := range n {
-		n[o] = int64(row[o])
-		if n[o] < 0 {
-			return fmt.Errorf("directed: node %d slot %d credited past 2^63", s.orig[x], o)
+	clear(n)
+	// Only the diamond (degree-2) and K4 slots were credited in the row,
+	// and only in rows marked.
+	if atomic.LoadUint32(&st.credited[x]) != 0 {
+		for _, o := range st.eq.credited {
+			n[o] = int64(row[o])
+			if n[o] < 0 {
+				return fmt.Errorf("directed: node %d slot %d credited past 2^63", s.orig[x], o)
+			}
 		}
+	}
+	if st.cyc != nil {
+		st.addCycles(n, x)
 	}
 	d := &s.deg[x]
 	st.eq.smallPatterns(n, d, &st.w[x])
@@ -389,7 +357,7 @@ func (st *state) solveNode(sc *solveScratch, x uint32, k int) error {
 		p := &st.eq.patterns[o].params
 		n[o] += tri[p[0]-1][p[1]-1][p[2]-1]
 	}
-	if k == 4 {
+	if st.k == 4 {
 		st.neighbourSums(x, &sc.sum)
 		st.fourPatterns(n, x, &sc.sum)
 	}
@@ -411,13 +379,20 @@ func (st *state) neighbourSums(x uint32, sm *sums) {
 		a := s.typ[i] - 1
 		dy := &s.deg[y]
 		wy := &st.w[y]
-		ty := &st.tri[y]
 		for b := range 3 {
 			for c := range 3 {
 				sm.q[a][b][c] += wy[b][c]
 				sm.leaf[a][b][c] += dy[b] * dy[c]
-				for e := range 3 {
-					sm.pend[a][b][c][e] += ty[b][c][e]
+			}
+		}
+		if st.hasTri[y] {
+			sm.anyPend = true
+			ty := &st.tri[y]
+			for b := range 3 {
+				for c := range 3 {
+					for e := range 3 {
+						sm.pend[a][b][c][e] += ty[b][c][e]
+					}
 				}
 			}
 		}
@@ -469,8 +444,13 @@ func (st *state) fourPatterns(n []int64, x uint32, sm *sums) {
 		return 0
 	}
 	for f := fStarCentre; f <= fDiamondDeg3; f++ {
-		if f == fCycle {
+		switch {
+		case f == fCycle:
 			continue
+		case f == fTailEnd && !sm.anyPend:
+			continue // no neighbour in a triangle
+		case f >= fTailDeg3 && !st.hasTri[x]:
+			continue // x in no triangle
 		}
 		for _, o := range eq.byFamily[f] {
 			p := &eq.patterns[o].params
