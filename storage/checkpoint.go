@@ -29,10 +29,19 @@ type Checkpoint struct {
 	// Records are the nodes whose record changed, with the new record; an
 	// empty record deletes it (an all-zero record).
 	Records []RecordChange
-	// Blobs are opaque applier records (input progress, pending expiries).
-	// A blob keeps its last written value until rewritten; a nil value
-	// deletes it.
+	// Blobs are opaque applier records (input progress). A blob keeps its
+	// last written value until rewritten; a nil value deletes it.
 	Blobs map[string][]byte
+	// Keyed are opaque applier records kept one key each (pending window
+	// expiries), so that a change costs its own size, not the whole set's;
+	// a nil value deletes the key.
+	Keyed []KeyedChange
+}
+
+// KeyedChange is one keyed applier record's new value (nil deletes it).
+type KeyedChange struct {
+	Key   string
+	Value []byte
 }
 
 // EdgeChange is a pair's new multiplicity.
@@ -254,6 +263,12 @@ func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info 
 	for _, r := range cp.Records {
 		key = binary.BigEndian.AppendUint32(append(key[:0], pRecord), r.Node)
 		if err := w.put(key, r.Data, len(r.Data) == 0); err != nil {
+			return 0, err
+		}
+	}
+	for _, k := range cp.Keyed {
+		key = append(append(key[:0], pKeyed), k.Key...)
+		if err := w.put(key, k.Value, k.Value == nil); err != nil {
 			return 0, err
 		}
 	}

@@ -23,6 +23,7 @@ import (
 //	'i' y(4) x(4)          Directed only: the arc x→y indexed under y
 //	'r' id(4)              the node's record, as the counter wrote it
 //	'b' name               applier blob
+//	'k' key                keyed applier record
 //	'a', 'o'               alert records and their node index (alerts.go)
 //
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
@@ -44,6 +45,7 @@ const (
 	pInArc      = 'i'
 	pRecord     = 'r'
 	pBlob       = 'b'
+	pKeyed      = 'k'
 )
 
 // checkpointPrefixes are the prefixes written at a checkpoint's version
@@ -52,7 +54,7 @@ const (
 // the Commit of its cut. A crash can leave them above the last complete
 // checkpoint, so repair covers them. The meta record alone is written in
 // a final single transaction and is never torn.
-var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pAlert, pAlertNode, pCheckpoint, pWatermark}
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pKeyed, pAlert, pAlertNode, pCheckpoint, pWatermark}
 
 func keyID(p byte, x uint32) []byte {
 	k := make([]byte, 5)

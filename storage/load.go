@@ -19,6 +19,8 @@ type State struct {
 	Dict      *Dict
 	Graph     *delta.Graph
 	Blobs     map[string][]byte
+	// Keyed are the keyed applier records in key order.
+	Keyed []KeyedChange
 }
 
 // Load returns the last complete checkpoint. A store without checkpoints
@@ -49,7 +51,7 @@ func (st *Store) LoadAt(seq uint64) (*State, error) {
 	}
 	txn := st.db.NewTransactionAt(cut.Seq, false)
 	defer txn.Discard()
-	for _, step := range []func(*badger.Txn, *State, int) error{loadDict, loadEdges, loadBlobs} {
+	for _, step := range []func(*badger.Txn, *State, int) error{loadDict, loadEdges, loadBlobs, loadKeyed} {
 		if err := step(txn, s, cut.Nodes); err != nil {
 			return nil, fmt.Errorf("storage: load checkpoint %d from %s: %w", cut.Seq, st.dir, err)
 		}
@@ -113,6 +115,13 @@ func loadEdges(txn *badger.Txn, s *State, n int) error {
 				return fmt.Errorf("edge %d-%d: %w", u, v, err)
 			}
 		}
+		return nil
+	})
+}
+
+func loadKeyed(txn *badger.Txn, s *State, _ int) error {
+	return scan(txn, []byte{pKeyed}, func(key, val []byte) error {
+		s.Keyed = append(s.Keyed, KeyedChange{Key: string(key[1:]), Value: append([]byte{}, val...)})
 		return nil
 	})
 }

@@ -30,11 +30,13 @@ type model struct {
 	nodes   []uint32
 	changed map[string][]byte // blobs changed since the last checkpoint
 	named   int               // dictionary entries already in a checkpoint
+	keyed   map[string][]byte // keyed records
+	keyCh   []KeyedChange     // keyed changes since the last checkpoint
 }
 
 func newModel(kind delta.Kind, orbits int, seed, accts uint64) *model {
 	return &model{seed: seed, accts: accts, orbits: orbits, dict: NewDict(), g: delta.NewGraph(kind),
-		vec: delta.NewVectors(0, orbits), blobs: map[string][]byte{}, changed: map[string][]byte{}}
+		vec: delta.NewVectors(0, orbits), blobs: map[string][]byte{}, changed: map[string][]byte{}, keyed: map[string][]byte{}}
 }
 
 // modelFrom continues the scenario from a loaded state, its records read
@@ -42,6 +44,9 @@ func newModel(kind delta.Kind, orbits int, seed, accts uint64) *model {
 func modelFrom(st *Store, s *State, orbits int, seed, accts uint64) (*model, error) {
 	m := newModel(s.Graph.Kind(), orbits, seed, accts)
 	m.seq, m.dict, m.g, m.blobs, m.named = s.Seq, s.Dict, s.Graph, s.Blobs, s.Dict.Len()
+	for _, k := range s.Keyed {
+		m.keyed[k.Key] = k.Value
+	}
 	var err error
 	m.vec, err = storedVectors(st, s.Seq, s.Dict.Len(), orbits)
 	return m, err
@@ -117,6 +122,18 @@ func (m *model) step() {
 	if m.seq%389 == 200 {
 		m.setBlob("scratch", nil)
 	}
+	// Keyed records: one per pending "expiry" of every fifth event,
+	// deleted 50 events later.
+	if m.seq%5 == 0 {
+		k := fmt.Sprintf("e%08d", m.seq)
+		m.keyed[k] = []byte(acct(a))
+		m.keyCh = append(m.keyCh, KeyedChange{Key: k, Value: m.keyed[k]})
+	}
+	if m.seq%5 == 0 && m.seq > 50 {
+		k := fmt.Sprintf("e%08d", m.seq-50)
+		delete(m.keyed, k)
+		m.keyCh = append(m.keyCh, KeyedChange{Key: k})
+	}
 }
 
 func (m *model) setBlob(name string, b []byte) {
@@ -144,6 +161,7 @@ func (m *model) checkpoint() *Checkpoint {
 	for _, x := range m.nodes {
 		cp.Records = append(cp.Records, RecordChange{Node: x, Data: delta.AppendCounts(nil, m.vec.Row(x))})
 	}
+	cp.Keyed, m.keyCh = m.keyCh, nil
 	m.named = m.dict.Len()
 	m.edges, m.nodes, m.changed = nil, nil, map[string][]byte{}
 	return cp
@@ -185,6 +203,14 @@ func checkState(t *testing.T, st *Store, s *State, m *model) {
 	}
 	if x, o, a, b, ok := vec.FirstDiff(m.vec); !ok || vec.NumNodes() != m.vec.NumNodes() {
 		t.Fatalf("records differ at node %d orbit %d: %d loaded, %d expected (rows %d vs %d)", x, o, a, b, vec.NumNodes(), m.vec.NumNodes())
+	}
+	if len(s.Keyed) != len(m.keyed) {
+		t.Fatalf("keyed records: %d loaded, %d expected", len(s.Keyed), len(m.keyed))
+	}
+	for i, k := range s.Keyed {
+		if !bytes.Equal(m.keyed[k.Key], k.Value) || (i > 0 && s.Keyed[i-1].Key >= k.Key) {
+			t.Fatalf("keyed record %q = %q, want %q, in key order", k.Key, k.Value, m.keyed[k.Key])
+		}
 	}
 	if len(s.Blobs) != len(m.blobs) {
 		t.Fatalf("blobs: %d loaded, %d expected", len(s.Blobs), len(m.blobs))

@@ -240,9 +240,9 @@ func TestCommitRejects(t *testing.T) {
 		{"watermark out of range", func(cp *Checkpoint) { cp.Watermark = time.Date(3000, 1, 1, 0, 0, 0, 0, time.UTC) }},
 	}
 	for _, c := range cases {
-		edges, nodes, changed, named := slices.Clone(m.edges), slices.Clone(m.nodes), maps.Clone(m.changed), m.named
+		edges, nodes, changed, named, keyCh := slices.Clone(m.edges), slices.Clone(m.nodes), maps.Clone(m.changed), m.named, slices.Clone(m.keyCh)
 		cp := *m.checkpoint()
-		m.edges, m.nodes, m.changed, m.named = edges, nodes, changed, named
+		m.edges, m.nodes, m.changed, m.named, m.keyCh = edges, nodes, changed, named, keyCh
 		c.edit(&cp)
 		if err := st.Commit(&cp); err == nil {
 			t.Fatalf("%s: commit succeeded", c.name)
