@@ -179,7 +179,9 @@ func (lp *LogPublisher) End(ctx context.Context) error {
 	}
 	err := lp.pub.Flush(ctx)
 	lp.add()
-	if a := lp.pub.Acked(); a.ID != "" {
+	// Without a connection the record would wait for its timeout; the
+	// next publish finds the events in the stream instead.
+	if a := lp.pub.Acked(); a.ID != "" && lp.js.Conn().IsConnected() {
 		rctx, cancel := context.WithTimeout(ctx, 5*time.Second)
 		defer cancel()
 		err = errors.Join(err, lp.record(rctx, a))

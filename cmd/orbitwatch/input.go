@@ -24,28 +24,33 @@ type listFlag []string
 func (l *listFlag) String() string     { return strings.Join(*l, ",") }
 func (l *listFlag) Set(s string) error { *l = append(*l, s); return nil }
 
+// columnKeys are the event keys a log's columns can be mapped to.
+var columnKeys = []string{"ts", "op", "src", "dst", "id", "sign", "amount"}
+
 // inputFlags are the flags every command that reads edge logs shares.
 type inputFlags struct {
-	inputs  listFlag
-	format  string
-	columns map[string]*string
-	rejects string
-	strict  bool
+	inputs    listFlag
+	format    string
+	columns   map[string]*string
+	minAmount string
+	rejects   string
+	strict    bool
 }
 
 func (f *inputFlags) register(fs *flag.FlagSet) {
 	fs.Var(&f.inputs, "input", "edge log: a CSV or JSON-lines file, .gz allowed, - for stdin (repeat for several, applied in order)")
 	fs.StringVar(&f.format, "format", "", "input format: csv or jsonl (default: by file name, else by content)")
 	f.columns = map[string]*string{}
-	for _, k := range []string{"ts", "op", "src", "dst", "id"} {
+	for _, k := range columnKeys {
 		f.columns[k] = fs.String(k+"-column", "", "name of the input column or key that holds "+k+" (default "+k+")")
 	}
-	fs.StringVar(&f.rejects, "rejects", "", "write each rejected line with its line number and reason to this CSV file")
+	fs.StringVar(&f.minAmount, "min-amount", "", "keep only events whose amount (see --amount-column) is at least this decimal number; the others are counted as filtered")
+	fs.StringVar(&f.rejects, "rejects", "", "write each rejected line with its line number, reason and text to this CSV file")
 	fs.BoolVar(&f.strict, "strict", false, "stop at the first bad line with exit code 2")
 }
 
 func (f *inputFlags) options() stream.Options {
-	o := stream.Options{Format: f.format, Columns: map[string]string{}}
+	o := stream.Options{Format: f.format, Columns: map[string]string{}, MinAmount: f.minAmount}
 	for k, v := range f.columns {
 		if *v != "" {
 			o.Columns[k] = *v
@@ -54,18 +59,74 @@ func (f *inputFlags) options() stream.Options {
 	return o
 }
 
+// open opens one input; a missing column names the flag that maps one.
+func (f *inputFlags) open(path string) (*stream.Reader, error) {
+	r, err := stream.Open(path, f.options())
+	var mc *stream.MissingColumnError
+	if errors.As(err, &mc) {
+		return nil, fmt.Errorf("%s: no column %q for %s (columns found: %s); map one with --%s-column",
+			path, mc.Name, mc.Key, strings.Join(mc.Found, ", "), mc.Key)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return r, nil
+}
+
+// lineCounts sorts every line read into exactly one heading.
+type lineCounts struct {
+	read, header, blank                  uint64
+	applied, rejected, filtered, resumed uint64
+	rejectReasons, filterReasons         map[string]uint64
+	unusedColumns, unusedKeys            []string
+}
+
+func (c *lineCounts) reject(reason string) {
+	if c.rejectReasons == nil {
+		c.rejectReasons = map[string]uint64{}
+	}
+	c.rejected++
+	c.rejectReasons[reasonClass(reason)]++
+}
+
+func (c *lineCounts) filter(reason string) {
+	if c.filterReasons == nil {
+		c.filterReasons = map[string]uint64{}
+	}
+	c.filtered++
+	c.filterReasons[reasonClass(reason)]++
+}
+
+// noteUnused adds a reader's unused columns or keys, each once.
+func (c *lineCounts) noteUnused(r *stream.Reader) {
+	list := &c.unusedColumns
+	if r.Format() == "jsonl" {
+		list = &c.unusedKeys
+	}
+	for _, u := range r.Unused() {
+		found := false
+		for _, v := range *list {
+			found = found || v == u
+		}
+		if !found {
+			*list = append(*list, u)
+		}
+	}
+}
+
 // ingest feeds edge logs through an applier in order. An event's sequence
-// number is its data line number across the inputs in the order given; a
-// rejected line uses up its number too.
+// number is its data record number across the inputs in the order given
+// (header and blank lines are not records); a rejected or filtered record
+// uses up its number too.
 type ingest struct {
 	flags    *inputFlags
 	applier  *shard.Applier
-	afterSeq func(seq uint64) error // called after every data line applied or rejected
+	afterSeq func(seq uint64) error // called after every record applied, rejected or filtered
 
-	// For resuming (backfill): lines at or below resume are read past
+	// For resuming (backfill): records at or below resume are read past
 	// without being applied; skip says a whole input is known to be done
-	// and how many lines it has; fileDone hears of every input read to its
-	// end; stop is polled between lines.
+	// and how many records it has; fileDone hears of every input read to
+	// its end; stop is polled between lines.
 	resume   uint64
 	skip     func(i int) (lines uint64, done bool)
 	fileDone func(i int, lines uint64)
@@ -74,7 +135,7 @@ type ingest struct {
 	// appendRejects keeps an existing rejects file and adds to it.
 	appendRejects bool
 
-	read      uint64
+	counts    lineCounts
 	rejectOut *csv.Writer
 	seq       uint64
 }
@@ -121,14 +182,21 @@ func (in *ingest) run() error {
 	return nil
 }
 
-// file applies one input and returns its number of data lines.
+// file applies one input and returns its number of data records.
 func (in *ingest) file(path string) (uint64, error) {
-	r, err := stream.Open(path, in.flags.options())
+	r, err := in.flags.open(path)
 	if err != nil {
-		return 0, fmt.Errorf("%s: %w", path, err)
+		return 0, err
 	}
 	defer r.Close()
 	base := in.seq
+	before := in.counts
+	// Lines read are counted however the file ends.
+	defer func() {
+		in.counts.read += uint64(r.Lines())
+		in.counts.header += uint64(r.Header())
+		in.counts.blank += uint64(r.Blank())
+	}()
 	var offset int64
 	for n := 0; ; n++ {
 		if in.progress != nil && n%4096 == 0 {
@@ -146,36 +214,54 @@ func (in *ingest) file(path string) (uint64, error) {
 			if in.progress != nil {
 				in.progress.Add(0, r.Offset()-offset)
 			}
+			in.counts.noteUnused(r)
+			c := in.counts
+			if records := c.applied + c.rejected + c.filtered + c.resumed - (before.applied + before.rejected + before.filtered + before.resumed); records != uint64(r.Records()) {
+				panic(fmt.Sprintf("orbitwatch: %s: %d records read, %d counted", path, r.Records(), records))
+			}
 			return in.seq - base, nil
 		}
 		var le *stream.LineError
+		var fe *stream.FilteredError
 		switch {
 		case errors.As(err, &le):
 			in.seq = base + uint64(le.Line)
 			if in.seq <= in.resume {
+				in.counts.resumed++
 				continue
 			}
-			in.read++
+			in.counts.reject(le.Reason)
 			in.applier.RejectLine(in.seq, reasonClass(le.Reason))
-			if err := in.reject(path, le.Line, le.Reason, string(le.Raw)); err != nil {
+			if err := in.reject(path, le.FileLine, le.Reason, le.Raw); err != nil {
 				return 0, err
 			}
+		case errors.As(err, &fe):
+			in.seq = base + uint64(fe.Line)
+			if in.seq <= in.resume {
+				in.counts.resumed++
+				continue
+			}
+			in.counts.filter(fe.Reason)
+			in.applier.Pass(in.seq)
 		case err != nil:
 			return 0, fmt.Errorf("%s: %w", path, err)
 		default:
 			in.seq = base + uint64(ev.Line)
 			if in.seq <= in.resume {
+				in.counts.resumed++
 				continue
 			}
-			in.read++
 			err := in.applier.Apply(in.seq, ev)
 			var rj *shard.Reject
 			if errors.As(err, &rj) {
-				if err := in.reject(path, ev.Line, rj.Reason.Error(), ""); err != nil {
+				in.counts.reject(rj.Reason.Error())
+				if err := in.reject(path, ev.FileLine, rj.Reason.Error(), r.Raw()); err != nil {
 					return 0, err
 				}
 			} else if err != nil {
-				return 0, fmt.Errorf("%s line %d: %w", path, ev.Line, err)
+				return 0, fmt.Errorf("%s line %d: %w", path, ev.FileLine, err)
+			} else {
+				in.counts.applied++
 			}
 		}
 		if in.progress != nil {
@@ -189,18 +275,23 @@ func (in *ingest) file(path string) (uint64, error) {
 	}
 }
 
-func (in *ingest) reject(path string, line int, reason, raw string) error {
-	if in.rejectOut != nil {
-		in.rejectOut.Write([]string{path, strconv.Itoa(line), reason, raw})
+// reject writes a rejected line to --rejects and stops under --strict.
+func (in *ingest) reject(path string, line int, reason string, raw []byte) error {
+	return writeReject(in.rejectOut, in.flags.strict, path, line, reason, raw)
+}
+
+func writeReject(out *csv.Writer, strict bool, path string, line int, reason string, raw []byte) error {
+	if out != nil {
+		out.Write([]string{path, strconv.Itoa(line), reason, string(raw)})
 	}
-	if in.flags.strict {
+	if strict {
 		return fmt.Errorf("%w: %s line %d: %s", errStrict, path, line, reason)
 	}
 	return nil
 }
 
-// reasonClass groups decode reasons for the summary: the text before any
-// quoted detail.
+// reasonClass groups reasons for the summary: the text before any quoted
+// detail or colon.
 func reasonClass(r string) string {
 	if i := strings.IndexAny(r, "\":"); i > 0 {
 		return strings.TrimSpace(r[:i])
@@ -208,27 +299,39 @@ func reasonClass(r string) string {
 	return r
 }
 
-// summary prints lines read, applied and rejected by reason on stderr.
+// summary prints on stderr every line read under one heading (applied,
+// rejected by reason, filtered by reason, header, blank, already applied
+// before this run: they add up to the lines read), and the columns or
+// keys the logs have that nothing reads.
 func (in *ingest) summary(name string) {
-	st := in.applier.Stats()
-	reasons := map[string]uint64{}
-	var rejected uint64
-	for r, n := range st.Rejected {
-		reasons[r] += n
-		rejected += n
+	c := &in.counts
+	fmt.Fprintf(os.Stderr, "orbitwatch %s: %d lines read, %d applied, %d rejected, %d filtered, %d header, %d blank",
+		name, c.read, c.applied, c.rejected, c.filtered, c.header, c.blank)
+	if c.resumed > 0 {
+		fmt.Fprintf(os.Stderr, ", %d read past (applied before this run)", c.resumed)
 	}
-	fmt.Fprintf(os.Stderr, "orbitwatch %s: %d lines read, %d applied, %d rejected", name, in.read, st.Applied, rejected)
-	if st.Expired > 0 {
-		fmt.Fprintf(os.Stderr, ", %d expired by the window", st.Expired)
+	if ex := in.applier.Stats().Expired; ex > 0 {
+		fmt.Fprintf(os.Stderr, "; %d expired by the window", ex)
 	}
 	fmt.Fprintln(os.Stderr)
+	printReasons("rejected", c.rejectReasons)
+	printReasons("filtered", c.filterReasons)
+	if len(c.unusedColumns) > 0 {
+		fmt.Fprintf(os.Stderr, "  columns not used: %s\n", strings.Join(c.unusedColumns, ", "))
+	}
+	if len(c.unusedKeys) > 0 {
+		fmt.Fprintf(os.Stderr, "  keys not used: %s\n", strings.Join(c.unusedKeys, ", "))
+	}
+}
+
+func printReasons(heading string, reasons map[string]uint64) {
 	keys := make([]string, 0, len(reasons))
 	for r := range reasons {
 		keys = append(keys, r)
 	}
 	sort.Strings(keys)
 	for _, r := range keys {
-		fmt.Fprintf(os.Stderr, "  rejected %8d  %s\n", reasons[r], r)
+		fmt.Fprintf(os.Stderr, "  %s %8d  %s\n", heading, reasons[r], r)
 	}
 }
 

@@ -9,8 +9,9 @@ import (
 	"io"
 	"os"
 	"os/signal"
-	"strconv"
+	"strings"
 	"syscall"
+	"time"
 
 	"github.com/nats-io/nats.go/jetstream"
 
@@ -20,7 +21,7 @@ import (
 )
 
 func init() {
-	commands["publish"] = command{"publish edge logs to the event stream, idempotently (event ids)", runPublish}
+	commands["publish"] = command{"publish edge logs to the event stream, in order and once (event ids and a publish manifest)", runPublish}
 }
 
 func runPublish(args []string) int {
@@ -31,8 +32,9 @@ func runPublish(args []string) int {
 	nf.register(fs)
 	subject := fs.String("subject", shard.DefaultSubject, "subject of the event log")
 	name := fs.String("stream", shard.DefaultStream, "JetStream stream of the event log (created when absent)")
-	replicas := fs.Int("replicas", 1, "replicas of the stream when it is created here: 1, or 3 in a cluster")
+	replicas := fs.Int("replicas", 1, "replicas of the stream and of the manifest bucket when they are created here: 1, or 3 in a cluster")
 	asJSON := fs.Bool("json", false, "publish the JSON form instead of the compact binary one")
+	manifest := fs.String("manifest", stream.DefaultManifestBucket, "key-value bucket recording how far each log is published, so that a log published again is stored once at any time; empty: rely on event ids within the stream's duplicate window")
 	if err := fs.Parse(args); err != nil {
 		return 2
 	}
@@ -59,7 +61,17 @@ func runPublish(args []string) int {
 	} else if err != nil {
 		return fail("publish", fmt.Errorf("stream %s: %w", *name, err))
 	}
-	p := &publisher{flags: &inf, pub: stream.NewPublisher(js, *subject, stream.PublisherOptions{JSON: *asJSON, Stream: *name})}
+	var man *stream.Manifest
+	if *manifest != "" {
+		if man, err = stream.OpenManifest(ctx, js, *manifest, *replicas); err != nil {
+			return fail("publish", err)
+		}
+	}
+	lp, err := stream.NewLogPublisher(ctx, js, *name, *subject, man, stream.OrderedOptions{JSON: *asJSON})
+	if err != nil {
+		return fail("publish", err)
+	}
+	p := &publisher{flags: &inf, lp: lp}
 	var total int64
 	for _, path := range inf.inputs {
 		total += sizeOf(path)
@@ -67,9 +79,31 @@ func runPublish(args []string) int {
 	p.progress = progress.New(os.Stderr, total, "publish")
 	runErr := p.run(ctx)
 	p.progress.Done()
-	st := p.pub.Stats()
-	fmt.Fprintf(os.Stderr, "orbitwatch publish: %d events read, %d stored, %d duplicates (already in the stream), %d bad lines; stream %s at seq %d\n",
-		p.events, st.Stored, st.Duplicates, p.bad, *name, st.LastSeq)
+	st := lp.Stats()
+	last := st.LastSeq
+	if nc.IsConnected() {
+		ictx, icancel := context.WithTimeout(context.Background(), 5*time.Second)
+		if s, err := js.Stream(ictx, *name); err == nil {
+			last = s.CachedInfo().State.LastSeq
+		}
+		icancel()
+	}
+	fmt.Fprintf(os.Stderr, "orbitwatch publish: %d events read, %d stored, %d duplicates (already in the stream), %d bad lines, %d filtered, %d lines read; stream %s at seq %d\n",
+		p.events, st.Stored, st.Duplicates, p.counts.rejected, p.counts.filtered, p.counts.read, *name, last)
+	printReasons("rejected", p.counts.rejectReasons)
+	printReasons("filtered", p.counts.filterReasons)
+	if len(p.counts.unusedColumns) > 0 {
+		fmt.Fprintf(os.Stderr, "  columns not used: %s\n", strings.Join(p.counts.unusedColumns, ", "))
+	}
+	if len(p.counts.unusedKeys) > 0 {
+		fmt.Fprintf(os.Stderr, "  keys not used: %s\n", strings.Join(p.counts.unusedKeys, ", "))
+	}
+	var stop *stream.PublishStopError
+	if errors.As(runErr, &stop) {
+		fmt.Fprintf(os.Stderr, "orbitwatch publish: %s: %v\norbitwatch publish: every event before line %d is stored in order; run the same command again to go on from there\n",
+			p.path, stop, stop.FileLine)
+		return 1
+	}
 	if runErr != nil {
 		return exitCode("publish", runErr)
 	}
@@ -79,11 +113,13 @@ func runPublish(args []string) int {
 // publisher reads edge logs and publishes their events in order.
 type publisher struct {
 	flags     *inputFlags
-	pub       *stream.Publisher
+	lp        *stream.LogPublisher
 	progress  *progress.Reporter
 	rejectOut *csv.Writer
+	counts    lineCounts
 	events    int
-	bad       int
+	// path is the input being published.
+	path string
 }
 
 func (p *publisher) run(ctx context.Context) error {
@@ -98,13 +134,14 @@ func (p *publisher) run(ctx context.Context) error {
 		defer p.rejectOut.Flush()
 	}
 	for _, path := range p.flags.inputs {
-		if err := p.file(ctx, path); err != nil {
-			// What was sent is acknowledged (or refused) before stopping.
-			return errors.Join(err, p.pub.Flush(context.Background()))
+		p.path = path
+		p.lp.Begin(path)
+		err := p.file(ctx, path)
+		// What was sent is acknowledged (or refused) and recorded before
+		// going on or stopping.
+		if err := errors.Join(err, p.lp.End(context.WithoutCancel(ctx))); err != nil {
+			return err
 		}
-	}
-	if err := p.pub.Flush(ctx); err != nil {
-		return err
 	}
 	if p.rejectOut != nil {
 		p.rejectOut.Flush()
@@ -114,11 +151,15 @@ func (p *publisher) run(ctx context.Context) error {
 }
 
 func (p *publisher) file(ctx context.Context, path string) error {
-	r, err := stream.Open(path, p.flags.options())
+	r, err := p.flags.open(path)
 	if err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return err
 	}
 	defer r.Close()
+	defer func() {
+		p.counts.read += uint64(r.Lines())
+		p.counts.noteUnused(r)
+	}()
 	var offset int64
 	for n := 0; ; n++ {
 		if n%4096 == 0 {
@@ -135,20 +176,20 @@ func (p *publisher) file(ctx context.Context, path string) error {
 			return nil
 		}
 		var le *stream.LineError
+		var fe *stream.FilteredError
 		switch {
 		case errors.As(err, &le):
-			p.bad++
-			if p.rejectOut != nil {
-				p.rejectOut.Write([]string{path, strconv.Itoa(le.Line), le.Reason, string(le.Raw)})
+			p.counts.reject(le.Reason)
+			if err := writeReject(p.rejectOut, p.flags.strict, path, le.FileLine, le.Reason, le.Raw); err != nil {
+				return err
 			}
-			if p.flags.strict {
-				return fmt.Errorf("%w: %s line %d: %s", errStrict, path, le.Line, le.Reason)
-			}
+		case errors.As(err, &fe):
+			p.counts.filter(fe.Reason)
 		case err != nil:
 			return fmt.Errorf("%s: %w", path, err)
 		default:
-			if err := p.pub.Publish(ctx, ev); err != nil {
-				return fmt.Errorf("%s line %d: %w", path, ev.Line, err)
+			if err := p.lp.Event(ctx, ev); err != nil {
+				return err
 			}
 			p.events++
 			p.progress.Add(1, 0)
