@@ -1,6 +1,9 @@
 package five
 
-import "math"
+import (
+	"math"
+	"math/bits"
+)
 
 // checked does int64 arithmetic that remembers an overflow instead of
 // wrapping: a count too large for its type must surface as an error,
@@ -34,17 +37,25 @@ func (c *checked) mul(a, b int64) int64 {
 	return p
 }
 
-// choose returns C(n, k) for k ≤ 4 and n ≥ 0 (0 when n < k), computed
-// so that intermediate products overflow only when the result does or
-// nearly does.
+// choose returns C(n, k) for k ≤ 4 and n ≥ 0 (0 when n < k). Each step
+// r·(n−i)/(i+1) is exact (r = C(n, i) then) and is done in 128 bits, so
+// only a result past 2^63−1 overflows.
 func (c *checked) choose(n int64, k int) int64 {
 	if n < int64(k) {
 		return 0
 	}
-	r := int64(1)
-	for i := range int64(k) {
-		// r·(n−i) is divisible by i+1 after the previous steps.
-		r = c.mul(r, n-i) / (i + 1)
+	r := uint64(1)
+	for i := range uint64(k) {
+		hi, lo := bits.Mul64(r, uint64(n)-i)
+		if hi >= i+1 {
+			c.overflow = true
+			return 0
+		}
+		r, _ = bits.Div64(hi, lo, i+1)
 	}
-	return r
+	if r > math.MaxInt64 {
+		c.overflow = true
+		return 0
+	}
+	return int64(r)
 }

@@ -28,14 +28,15 @@ type worker struct {
 	reached []uint32
 	as, bs  []uint32
 
-	cnt     []uint32 // codegree of x with each node, for the tree pass
-	touched []uint32
+	// squares[x] counts the 4-cycles (not necessarily induced) through x
+	// found by this worker.
+	squares []int64
 }
 
 func newWorker(c *csr, eq *equations) *worker {
 	n := c.n
 	return &worker{c: c, eq: eq, acc: make([]uint64, n*num5), mask: make([]uint8, n), stamp: make([]uint32, n),
-		nbrOf: make([]uint32, n), hstamp: make([]uint32, n), head: make([]int32, n), cnt: make([]uint32, n)}
+		nbrOf: make([]uint32, n), hstamp: make([]uint32, n), head: make([]int32, n), squares: make([]int64, n)}
 }
 
 // Code bits: a triangle on positions 0, 1, 2; a 4-cycle 0–1–2–3–0; and
@@ -196,8 +197,10 @@ func (w *worker) extendTriangle(a, b, x uint32) {
 // cycleCores lists the induced 4-cycles and 5-cycles whose highest-ranked
 // node is v, each once, and counts the 5-node sets they make: a 4-cycle
 // with each node adjacent to it, a 5-cycle alone. Both start from the
-// wedges v–a–c with a and c ranked below v and c not adjacent to v
-// (which an induced cycle through v needs).
+// wedges v–a–y with a and y ranked below v, y not adjacent to v (which
+// an induced cycle through v needs). The same wedges, with y adjacent to
+// v or not, give every node's non-induced 4-cycles (squares), which the
+// tree formulas read.
 func (w *worker) cycleCores(v uint32) {
 	c := w.c
 	mark := v + 1
@@ -211,7 +214,7 @@ func (w *worker) cycleCores(v uint32) {
 			continue
 		}
 		for _, y := range c.nb(a) {
-			if c.rank[y] >= rv || w.nbrOf[y] == mark {
+			if c.rank[y] >= rv {
 				continue
 			}
 			if w.hstamp[y] != mark {
@@ -226,6 +229,18 @@ func (w *worker) cycleCores(v uint32) {
 	}
 	for _, y := range w.reached {
 		w.as = w.wedges(y, w.as[:0])
+		// Every 4-cycle v–a–y–b, induced or not, for the tree formulas.
+		if k := int64(len(w.as)); k > 1 {
+			pairs := k * (k - 1) / 2
+			w.squares[v] += pairs
+			w.squares[y] += pairs
+			for _, a := range w.as {
+				w.squares[a] += k - 1
+			}
+		}
+		if w.nbrOf[y] == mark {
+			continue // a chord v–y: no induced cycle through v and y
+		}
 		// 4-cycles v–a–y–b: induced when a and b are not adjacent.
 		for i, a := range w.as {
 			for _, b := range w.as[i+1:] {
@@ -236,7 +251,7 @@ func (w *worker) cycleCores(v uint32) {
 		}
 		// 5-cycles v–a–y–z–b with y < z: induced when a≁b, a≁z, b≁y.
 		for _, z := range c.nb(y) {
-			if z < y || w.hstamp[z] != mark {
+			if z < y || w.hstamp[z] != mark || w.nbrOf[z] == mark {
 				continue
 			}
 			w.bs = w.wedges(z, w.bs[:0])

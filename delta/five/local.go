@@ -14,7 +14,9 @@ type local struct {
 	t2  []int64 // Σ_{y∈N(x)} tri(y)
 	sq  []int64 // Σ_{y∈N(x)} q(y)
 	ss2 []int64 // Σ_{y∈N(x)} s2(y)
-	ck  checked
+	// squares[x] counts the 4-cycles through x, induced or not.
+	squares []int64
+	ck      checked
 }
 
 func newLocal(c *csr) *local {

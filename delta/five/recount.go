@@ -100,8 +100,12 @@ func (r *Recounter) count(g *delta.Graph, eq *equations) (*delta.Vectors, error)
 			row[o] = s / eq.mult[o]
 		}
 	}
+	loc.squares = make([]int64, n)
 	for _, w := range ws {
-		w.acc = nil
+		for x, k := range w.squares {
+			loc.squares[x] = loc.ck.add(loc.squares[x], k)
+		}
+		w.acc, w.squares = nil, nil
 	}
 	loc.sums()
 	if loc.ck.overflow {

@@ -15,7 +15,8 @@ import "fmt"
 //
 // With d = d(x), N = N(x), t_y = common neighbours of x and y, t(·)
 // triangles at a node, c_y = common neighbours of x and y for every
-// y ≠ x, S1, Q, C3, S2, T2, SQ, SS2 as in local:
+// y ≠ x (so Σ_y C(c_y, 2) is the number of 4-cycles through x), S1, Q,
+// C3, S2, T2, SQ, SS2 as in local:
 //
 //	star centre  C(d,4)
 //	star leaf    Σ_{y∈N} C(d(y)−1,3)
@@ -34,26 +35,11 @@ import "fmt"
 func (w *worker) trees(l *local, x uint32, row []uint64) error {
 	c := w.c
 	var ck checked
-	// Codegrees of x with every node two steps away.
-	w.touched = w.touched[:0]
-	for _, b := range c.nb(x) {
-		for _, y := range c.nb(b) {
-			if y == x {
-				continue
-			}
-			if w.cnt[y] == 0 {
-				w.touched = append(w.touched, y)
-			}
-			w.cnt[y]++
-		}
-	}
-	var sq, c4 int64
-	for _, y := range w.touched {
-		k := int64(w.cnt[y])
-		sq = ck.add(sq, ck.mul(k, k))
-		c4 = ck.add(c4, k*(k-1)/2)
-		w.cnt[y] = 0
-	}
+	// Σ_{y≠x} c_y² = Σ_{y≠x} c_y + 2 Σ_{y≠x} C(c_y, 2) = S1 + 2·(4-cycles
+	// through x), and a 4-cycle through x is one pair of common
+	// neighbours of x and the node opposite.
+	c4 := l.squares[x]
+	sq := ck.add(l.s1[x], ck.mul(2, c4))
 	d := int64(c.deg(x))
 	t := l.tri[x]
 	s1 := l.s1[x]
