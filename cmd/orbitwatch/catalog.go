@@ -29,6 +29,7 @@ type orbitJSON struct {
 	ID        int    `json:"id"`
 	Positions []int  `json:"positions"`
 	Name      string `json:"name"`
+	Short     string `json:"short"`
 	// Numbering is "published" (Source names the publication and says
 	// whether the id was checked or recalled) or "project".
 	Numbering string `json:"numbering"`
@@ -60,7 +61,7 @@ func runCatalog(args []string) int {
 			}
 			for _, o := range cat.Orbits {
 				if o.Graphlet == g.ID {
-					gj.Orbits = append(gj.Orbits, orbitJSON{ID: o.ID, Positions: o.Positions, Name: o.Name, Numbering: o.Numbering, Source: o.Source})
+					gj.Orbits = append(gj.Orbits, orbitJSON{ID: o.ID, Positions: o.Positions, Name: o.Name, Short: o.Short, Numbering: o.Numbering, Source: o.Source})
 				}
 			}
 			out.Graphlets = append(out.Graphlets, gj)
