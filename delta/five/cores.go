@@ -1,10 +1,6 @@
 package five
 
-import (
-	"math"
-
-	"orbitwatch/delta/catalog"
-)
+import "orbitwatch/delta/catalog"
 
 // worker is one goroutine's scratch space and core counts. acc[x·58 + o−15]
 // counts how often the core listing reached node x in 5-node orbit o.
@@ -13,10 +9,8 @@ type worker struct {
 	eq  *equations
 	acc []uint64
 
-	mask  []uint8  // attachment of a node to the current core's positions
-	stamp []uint32 // neighbour marks of one node, valid while == cur
-	cur   uint32
-	list  []uint32
+	mask []uint8 // attachment of a node to the current core's positions
+	list []uint32
 
 	// Wedges v–a–c of the current v, grouped by c: a linked list per c
 	// from head[c] (valid while hstamp[c] == v+1) through wnext.
@@ -35,7 +29,7 @@ type worker struct {
 
 func newWorker(c *csr, eq *equations) *worker {
 	n := c.n
-	return &worker{c: c, eq: eq, acc: make([]uint64, n*num5), mask: make([]uint8, n), stamp: make([]uint32, n),
+	return &worker{c: c, eq: eq, acc: make([]uint64, n*num5), mask: make([]uint8, n),
 		nbrOf: make([]uint32, n), hstamp: make([]uint32, n), head: make([]int32, n), squares: make([]int64, n)}
 }
 
@@ -76,21 +70,11 @@ func (w *worker) credit(t *[5]uint32, code uint32) {
 	}
 }
 
-func (w *worker) tick() uint32 {
-	if w.cur == math.MaxUint32 {
-		clear(w.stamp)
-		w.cur = 0
-	}
-	w.cur++
-	return w.cur
-}
-
 // triangleCores lists the triangles whose lowest-ranked node is v (edges
 // oriented up the degree order, so each triangle once) and counts the
 // connected 5-node sets that extend each by two nodes.
 func (w *worker) triangleCores(v uint32) {
 	c := w.c
-	// nbrOf, not stamp: extendTriangle ticks the stamps.
 	mark := v + 1
 	for _, u := range c.up(v) {
 		w.nbrOf[u] = mark
