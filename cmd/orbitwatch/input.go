@@ -314,6 +314,12 @@ func (in *ingest) summary(name string) {
 		fmt.Fprintf(os.Stderr, "; %d expired by the window", ex)
 	}
 	fmt.Fprintln(os.Stderr)
+	c.printDetails()
+}
+
+// printDetails prints the rejects and filtered events by reason and the
+// columns or keys nothing reads, on stderr.
+func (c *lineCounts) printDetails() {
 	printReasons("rejected", c.rejectReasons)
 	printReasons("filtered", c.filterReasons)
 	if len(c.unusedColumns) > 0 {

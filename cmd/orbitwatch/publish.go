@@ -9,7 +9,6 @@ import (
 	"io"
 	"os"
 	"os/signal"
-	"strings"
 	"syscall"
 	"time"
 
@@ -90,14 +89,7 @@ func runPublish(args []string) int {
 	}
 	fmt.Fprintf(os.Stderr, "orbitwatch publish: %d events read, %d stored, %d duplicates (already in the stream), %d bad lines, %d filtered, %d lines read; stream %s at seq %d\n",
 		p.events, st.Stored, st.Duplicates, p.counts.rejected, p.counts.filtered, p.counts.read, *name, last)
-	printReasons("rejected", p.counts.rejectReasons)
-	printReasons("filtered", p.counts.filterReasons)
-	if len(p.counts.unusedColumns) > 0 {
-		fmt.Fprintf(os.Stderr, "  columns not used: %s\n", strings.Join(p.counts.unusedColumns, ", "))
-	}
-	if len(p.counts.unusedKeys) > 0 {
-		fmt.Fprintf(os.Stderr, "  keys not used: %s\n", strings.Join(p.counts.unusedKeys, ", "))
-	}
+	p.counts.printDetails()
 	var stop *stream.PublishStopError
 	if errors.As(runErr, &stop) {
 		fmt.Fprintf(os.Stderr, "orbitwatch publish: %s: %v\norbitwatch publish: every event before line %d is stored in order; run the same command again to go on from there\n",

@@ -72,12 +72,7 @@ func TestPublishFailsWhenTheServerRefuses(t *testing.T) {
 	log := filepath.Join(dir, "log.csv")
 	writeLog(t, log, 300, 62)
 	srv := startEmbedded(t)
-	js := jsConnect(t, srv.URL())
-	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
-	defer cancel()
-	if _, err := js.CreateStream(ctx, jetstream.StreamConfig{Name: "SMALL", Subjects: []string{"small.events"}, MaxMsgs: 100, Discard: jetstream.DiscardNew}); err != nil {
-		t.Fatal(err)
-	}
+	createStream(t, srv.URL(), jetstream.StreamConfig{Name: "SMALL", Subjects: []string{"small.events"}, MaxMsgs: 100, Discard: jetstream.DiscardNew})
 	out, code := run(t, "publish", "--nats", srv.URL(), "--stream", "SMALL", "--subject", "small.events", "--input", log)
 	if code != 1 || !strings.Contains(out, "100 stored") || !strings.Contains(strings.ToLower(out), "maximum messages") {
 		t.Fatalf("publish into a full stream: exit %d, want 1 with 100 stored and the server's reason\n%s", code, out)
@@ -226,12 +221,7 @@ func TestPublishOnceBeyondDuplicateWindow(t *testing.T) {
 	log := filepath.Join(dir, "log.csv")
 	writeLog(t, log, 3000, 64)
 	srv := startEmbedded(t)
-	js := jsConnect(t, srv.URL())
-	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
-	defer cancel()
-	if _, err := js.CreateStream(ctx, jetstream.StreamConfig{Name: "SHORT", Subjects: []string{"short.events"}, Duplicates: time.Second}); err != nil {
-		t.Fatal(err)
-	}
+	createStream(t, srv.URL(), jetstream.StreamConfig{Name: "SHORT", Subjects: []string{"short.events"}, Duplicates: time.Second})
 	args := []string{"--nats", srv.URL(), "--stream", "SHORT", "--subject", "short.events"}
 	stored, _, _ := publishCmd(t, append(args, "--input", log)...)
 	want := logIDs(t, log)
@@ -298,4 +288,14 @@ func TestPublishRefusesBadIDs(t *testing.T) {
 		}
 	}
 	sameOrder(t, "good events", streamIDs(t, srv.URL(), shard.DefaultStream), logIDs(t, log))
+}
+
+// createStream makes a stream of the given configuration on the server.
+func createStream(t *testing.T, url string, cfg jetstream.StreamConfig) {
+	t.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	if _, err := jsConnect(t, url).CreateStream(ctx, cfg); err != nil {
+		t.Fatal(err)
+	}
 }
