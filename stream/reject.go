@@ -8,10 +8,10 @@ import (
 
 // RejectWriter writes rejected lines as CSV with the header
 // "source,line,reason,raw": the source name (the path given to Open, or
-// "stdin"), the data line number, the reason, and the line as read. The
-// source column is always there, so one file of rejects can gather several
-// sources and every file of rejects has the same columns. Call Flush at
-// the end.
+// "stdin"), the line number as an editor shows it (LineError.FileLine),
+// the reason, and the line as read. The source column is always there, so
+// one file of rejects can gather several sources and every file of
+// rejects has the same columns. Call Flush at the end.
 type RejectWriter struct {
 	w      *csv.Writer
 	header bool
@@ -31,7 +31,7 @@ func (rw *RejectWriter) Write(source string, e *LineError) error {
 	if err := rw.writeHeader(); err != nil {
 		return err
 	}
-	rw.rec = [4]string{source, strconv.Itoa(e.Line), e.Reason, string(e.Raw)}
+	rw.rec = [4]string{source, strconv.Itoa(e.FileLine), e.Reason, string(e.Raw)}
 	rw.n++
 	return rw.w.Write(rw.rec[:])
 }

@@ -307,8 +307,8 @@ func TestRejectWriter(t *testing.T) {
 		src string
 		e   LineError
 	}{
-		{"a.csv", LineError{Line: 3, Reason: `bad op "x"`, Raw: []byte(`,x,a,b`)}},
-		{"stdin", LineError{Line: 9, Reason: "empty src", Raw: []byte("\"q\nr\",,b")}},
+		{"a.csv", LineError{Line: 2, FileLine: 3, Reason: `bad op "x"`, Raw: []byte(`,x,a,b`)}},
+		{"stdin", LineError{Line: 7, FileLine: 9, Reason: "empty src", Raw: []byte("\"q\nr\",,b")}},
 	}
 	for _, r := range rejects {
 		if err := rw.Write(r.src, &r.e); err != nil {
