@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"orbitwatch/delta"
+	"orbitwatch/delta/generic"
 	"orbitwatch/delta/internal/cpuclock"
 	"orbitwatch/delta/undirected"
 )
@@ -178,4 +179,95 @@ func BenchmarkRecount4(b *testing.B) {
 			b.ReportMetric(float64(td)/float64(tu), "directed/undirected")
 		})
 	}
+}
+
+// recordSource serves precomputed vectors as eager records (and the
+// graph's adjacency), so an eager counter can be restored to a graph's
+// state without replaying it.
+type recordSource struct {
+	delta.Source
+	vec *delta.Vectors
+	buf []byte
+}
+
+func (s *recordSource) Record(x uint32) ([]byte, error) {
+	if int(x) >= s.vec.NumNodes() {
+		return nil, nil
+	}
+	s.buf = delta.AppendCounts(s.buf[:0], s.vec.Row(x))
+	return s.buf, nil
+}
+
+// degreeBuckets are the endpoint degree classes the incremental figures
+// are reported by: the larger endpoint's number of neighbours.
+var degreeBuckets = []struct {
+	name string
+	max  int
+}{{"le16", 16}, {"le128", 128}, {"le1k", 1024}, {"gt1k", 1 << 30}}
+
+func bucketOf(d int) int {
+	for i, b := range degreeBuckets {
+		if d <= b.max {
+			return i
+		}
+	}
+	return len(degreeBuckets) - 1
+}
+
+// incrementalSample draws up to per arcs of g for each degree bucket of
+// the larger endpoint, uniformly within the bucket.
+func incrementalSample(g *delta.Graph, per int, seed uint64) [][][2]uint32 {
+	var all [][2]uint32
+	g.ForEachEdge(func(u, v uint32, _ uint32) { all = append(all, [2]uint32{u, v}) })
+	rng := rand.New(rand.NewPCG(seed, 21))
+	rng.Shuffle(len(all), func(i, j int) { all[i], all[j] = all[j], all[i] })
+	out := make([][][2]uint32, len(degreeBuckets))
+	for _, a := range all {
+		b := bucketOf(max(g.Degree(a[0]), g.Degree(a[1])))
+		if len(out[b]) < per {
+			out[b] = append(out[b], a)
+		}
+	}
+	return out
+}
+
+// BenchmarkIncremental4 measures directed 2–4 counting per event, thread
+// CPU time, on the directed payments scenario of bench/gen (600k events:
+// about 500k arcs, merchants with thousands of payers, payroll hubs), by
+// the degree of the larger endpoint: each sampled arc is deleted and
+// re-inserted (two events, graph updates included). The eager generic
+// engine (delta.NewEager(generic.NewEngine)) starts from the recount's
+// vectors through Restore.
+func BenchmarkIncremental4(b *testing.B) {
+	g := recountGraphs()[2].g
+	sample := incrementalSample(g, 48, 5)
+	cat := generic.NewEngine(mustCatalog(b, 4))
+	eager := delta.NewEager(cat)
+	if err := eager.Restore(g, &recordSource{Source: delta.NewMemSource(g, eager), vec: NewRecounter(4).Recount(g)}); err != nil {
+		b.Fatal(err)
+	}
+	per := make([]time.Duration, len(degreeBuckets))
+	for b.Loop() {
+		for i, arcs := range sample {
+			clock := cpuclock.Start()
+			for _, a := range arcs {
+				if err := eager.Delete(g, a[0], a[1]); err != nil {
+					b.Fatal(err)
+				}
+				g.Unlink(a[0], a[1])
+				if err := eager.Insert(g, a[0], a[1], false); err != nil {
+					b.Fatal(err)
+				}
+				g.Link(a[0], a[1])
+			}
+			per[i] += clock.Stop()
+		}
+	}
+	for i, bk := range degreeBuckets {
+		if n := len(sample[i]); n > 0 {
+			b.ReportMetric(float64(per[i].Microseconds())/float64(2*n*b.N), "eager-"+bk.name+"-µs/event")
+			b.ReportMetric(float64(n), "arcs-"+bk.name)
+		}
+	}
+	eager.Changed(func(uint32) {})
 }

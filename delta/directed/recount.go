@@ -305,33 +305,13 @@ func (st *state) clique(v [4]uint32, t [6]uint8) {
 
 // solveScratch is one worker's buffer for solveNode.
 type solveScratch struct {
-	n   []int64
-	sum sums
+	n []int64
+	l local
 }
 
-// sums are the sums over a node x's neighbours y that its 4-node patterns
-// need (indices t−1; tri(x,y)[b][c] counts r with type(x,r) = b,
-// type(y,r) = c):
-//
-//	q[a][b][c]       = Σ_{type(x,y)=a} w[y][b][c]
-//	leaf[a][b][c]    = Σ_{type(x,y)=a} d_b(y)·d_c(y)
-//	pend[a][b][c][e] = Σ_{type(x,y)=a} tri[y][b][c][e]
-//	v[a][b][c][e]    = Σ_{type(x,y)=a} tri(x,y)[b][c]·d_e(y)
-//	dd3[a][bc][ef]   = Σ_{type(x,y)=a} tri(x,y)[bc]·tri(x,y)[ef]
-type sums struct {
-	// anyPend: some neighbour is in a triangle (pend is not all zero).
-	anyPend bool
-	q       [3][3][3]int64
-	leaf    [3][3][3]int64
-	pend    [3][3][3][3]int64
-	v       [3][3][3][3]int64
-	dd3     [3][9][9]int64
-}
-
-// solveNode computes rank x's pattern counts (the 2–3 node ones by
-// smallPatterns, triangles from tri[x], the 4-node ones by the formulas of
-// fourPatterns, the slots credited by the enumerations), solves them and
-// stores x's orbit counts.
+// solveNode computes rank x's pattern counts (eq.localPatterns from x's local
+// sums, plus the slots the enumerations credited), solves them and stores
+// x's orbit counts.
 func (st *state) solveNode(sc *solveScratch, x uint32) error {
 	s := st.s
 	row := st.vec.Row(s.orig[x])
@@ -350,17 +330,19 @@ func (st *state) solveNode(sc *solveScratch, x uint32) error {
 	if st.cyc != nil {
 		st.addCycles(n, x)
 	}
-	d := &s.deg[x]
-	st.eq.smallPatterns(n, d, &st.w[x])
-	tri := &st.tri[x]
-	for _, o := range st.eq.byFamily[fTriangle] {
-		p := &st.eq.patterns[o].params
-		n[o] += tri[p[0]-1][p[1]-1][p[2]-1]
-	}
+	l := &sc.l
+	l.reset(&s.deg[x], &st.w[x], &st.tri[x])
 	if st.k == 4 {
-		st.neighbourSums(x, &sc.sum)
-		st.fourPatterns(n, x, &sc.sum)
+		for i := s.off[x]; i < s.off[x+1]; i++ {
+			y := s.adj[i]
+			var ty *[3][3][3]int64
+			if st.hasTri[y] {
+				ty = &st.tri[y]
+			}
+			l.addNeighbour(s.typ[i], &s.deg[y], &st.w[y], ty, &st.edge[i])
+		}
 	}
+	st.eq.localPatterns(n, l, st.k == 4)
 	if err := st.eq.solve(n, s.orig[x]); err != nil {
 		return err
 	}
@@ -368,117 +350,4 @@ func (st *state) solveNode(sc *solveScratch, x uint32) error {
 		row[o] = uint64(v)
 	}
 	return nil
-}
-
-// neighbourSums fills the sums of rank x.
-func (st *state) neighbourSums(x uint32, sm *sums) {
-	s := st.s
-	*sm = sums{}
-	for i := s.off[x]; i < s.off[x+1]; i++ {
-		y := s.adj[i]
-		a := s.typ[i] - 1
-		dy := &s.deg[y]
-		wy := &st.w[y]
-		for b := range 3 {
-			for c := range 3 {
-				sm.q[a][b][c] += wy[b][c]
-				sm.leaf[a][b][c] += dy[b] * dy[c]
-			}
-		}
-		if st.hasTri[y] {
-			sm.anyPend = true
-			ty := &st.tri[y]
-			for b := range 3 {
-				for c := range 3 {
-					for e := range 3 {
-						sm.pend[a][b][c][e] += ty[b][c][e]
-					}
-				}
-			}
-		}
-		t := &st.edge[i]
-		if *t == (tri9{}) {
-			continue
-		}
-		for bc, k := range t {
-			if k == 0 {
-				continue
-			}
-			kk := int64(k)
-			for e := range 3 {
-				sm.v[a][bc/3][bc%3][e] += kk * dy[e]
-			}
-			for ef, k2 := range t {
-				sm.dd3[a][bc][ef] += kk * int64(k2)
-			}
-		}
-	}
-}
-
-// fourPatterns adds to n the pattern counts of the 4-node orbits that sums
-// over x's neighbours give (params in family edge order, ā the type seen
-// from the other side, [·] 1 when true):
-//
-//	star centre (a,b,c):  d_a·(d_b − [b=a])·(d_c − [c=a] − [c=b])
-//	star leaf (a,b,c):    leaf[a][b][c] − e₂·w[a][b] − e₁·w[a][c] + e₁e₂·d_a,
-//	                      e₁ = [b=ā], e₂ = [c=ā] + [c=b]
-//	4-path end (a,b,c):   q[a][b][c] − [b=ā]·d_a·d_c − [c=b̄]·(w[a][b] − [b=ā]·d_a) − tri[a][b][c̄]
-//	4-path middle (a,b,c): (d_a − [a=b])·(w[b][c] − [c=b̄]·d_b) − tri[b][c][a]
-//	tail end (a,b,c,e):   pend[a][b][c][e] − [b=ā]·tri[a][e][c] − [e=ā]·tri[a][b][c̄]
-//	tail degree 3 (a,b,c,e): tri[b][c][e]·(d_a − [a=b] − [a=e])
-//	tail degree 2 (a,b,c,e): v[a][b][c][e] − ([e=ā] + [e=c])·tri[a][c][b]
-//	diamond degree 3 (a,b,c,e,f): dd3[a][bc][ef] − [(b,c)=(e,f)]·tri[a][c][b]
-//
-// Each subtracted term counts the tuples of the sum whose nodes are not
-// distinct (a node met twice, or x met again). 4-cycles, diamonds at a
-// degree-2 node and K4s are in n already, credited by the enumerations.
-func (st *state) fourPatterns(n []int64, x uint32, sm *sums) {
-	eq := st.eq
-	d := &st.s.deg[x]
-	w := &st.w[x]
-	tri := &st.tri[x]
-	is := func(ok bool) int64 {
-		if ok {
-			return 1
-		}
-		return 0
-	}
-	for f := fStarCentre; f <= fDiamondDeg3; f++ {
-		switch {
-		case f == fCycle:
-			continue
-		case f == fTailEnd && !sm.anyPend:
-			continue // no neighbour in a triangle
-		case f >= fTailDeg3 && !st.hasTri[x]:
-			continue // x in no triangle
-		}
-		for _, o := range eq.byFamily[f] {
-			p := &eq.patterns[o].params
-			a, b, c, e := p[0], p[1], p[2], p[3]
-			ar := rev(a)
-			A, B, C, E := a-1, b-1, c-1, e-1
-			var v int64
-			switch f {
-			case fStarCentre:
-				v = d[A] * (d[B] - is(b == a)) * (d[C] - is(c == a) - is(c == b))
-			case fStarLeaf:
-				e1, e2 := is(b == ar), is(c == ar)+is(c == b)
-				v = sm.leaf[A][B][C] - e2*w[A][B] - e1*w[A][C] + e1*e2*d[A]
-			case fPathEnd4:
-				v = sm.q[A][B][C] - is(b == ar)*d[A]*d[C] - is(c == rev(b))*(w[A][B]-is(b == ar)*d[A]) - tri[A][B][rev(c)-1]
-			case fPathMid4:
-				v = (d[A]-is(a == b))*(w[B][C]-is(c == rev(b))*d[B]) - tri[B][C][A]
-			case fTailEnd:
-				v = sm.pend[A][B][C][E] - is(b == ar)*tri[A][E][C] - is(e == ar)*tri[A][B][rev(c)-1]
-			case fTailDeg3:
-				v = tri[B][C][E] * (d[A] - is(a == b) - is(a == e))
-			case fTailDeg2:
-				v = sm.v[A][B][C][E] - (is(e == ar)+is(e == c))*tri[A][C][B]
-			case fDiamondDeg3:
-				F := p[4] - 1
-				v = sm.dd3[A][B*3+C][E*3+F] - is(b == e && c == p[4])*tri[A][C][B]
-			}
-			n[o] += v
-		}
-	}
 }
