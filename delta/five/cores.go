@@ -279,11 +279,24 @@ func (w *worker) extendSquare(p0, p1, p2, p3 uint32) {
 			w.mask[y] |= 1 << i
 		}
 	}
-	t := [5]uint32{p0, p1, p2, p3}
+	// The extension node is credited one by one, the cycle's nodes once
+	// per attachment class.
+	var size [16]uint64
 	for _, y := range l {
-		t[4] = y
-		w.credit(&t, c4Code|attachC[w.mask[y]])
+		m := w.mask[y]
+		_, orbs := w.eq.cat.Lookup(5, c4Code|attachC[m])
+		w.acc[int(y)*num5+int(orbs[4])-first5]++
+		size[m]++
 		w.mask[y] = 0
+	}
+	for m, k := range size {
+		if k == 0 {
+			continue
+		}
+		_, orbs := w.eq.cat.Lookup(5, c4Code|attachC[m])
+		for p, x := range core {
+			w.acc[int(x)*num5+int(orbs[p])-first5] += k
+		}
 	}
 	w.list = l
 }

@@ -35,3 +35,23 @@ func TestRandomGraphs(t *testing.T) {
 		}
 	}
 }
+
+// TestEmptyAndEdgeless: no nodes, and nodes without edges, give all-zero
+// vectors of the right shape.
+func TestEmptyAndEdgeless(t *testing.T) {
+	for _, n := range []int{0, 1, 7} {
+		g := delta.NewGraph(delta.Undirected)
+		g.Grow(n)
+		v, err := NewRecounter(Options{}).Count(g)
+		if err != nil || v.NumNodes() != n || v.NumOrbits() != numOrbits {
+			t.Fatalf("%d nodes: %v, %d nodes × %d orbits", n, err, v.NumNodes(), v.NumOrbits())
+		}
+		for x := range uint32(n) {
+			for o, c := range v.Row(x) {
+				if c != 0 {
+					t.Fatalf("%d edgeless nodes: node %d orbit %d = %d", n, x, o, c)
+				}
+			}
+		}
+	}
+}
