@@ -1,6 +1,7 @@
 package directed
 
 import (
+	"fmt"
 	"testing"
 
 	"orbitwatch/delta"
@@ -50,4 +51,20 @@ func TestTriadsWithRecount(t *testing.T) {
 		New:     func() delta.Counter { return NewTriads() },
 		Recount: NewRecounter(3),
 	})
+}
+
+// TestQuadsConformance runs the shared suite on the factored 2–4 Counter
+// with this package's recount, at two heavy thresholds: 4 makes most
+// nodes of the suite's small streams heavy (codegree rows, heavy sums,
+// nodes turning heavy and light again), 1<<20 none.
+func TestQuadsConformance(t *testing.T) {
+	for _, theta := range []int{4, 1 << 20} {
+		t.Run(fmt.Sprintf("theta-%d", theta), func(t *testing.T) {
+			conformance.Run(t, conformance.Subject{
+				Name:    fmt.Sprintf("directed quads (heavy from degree %d)", theta),
+				New:     func() delta.Counter { return NewQuads(theta) },
+				Recount: NewRecounter(4),
+			})
+		})
+	}
 }

@@ -145,3 +145,75 @@ func (eq *equations) localPatterns(n []int64, l *local, four bool) {
 		}
 	}
 }
+
+// diamondForms calls add(o, k) for the diamond patterns at a degree-2 node
+// n of the triangle n, p, q with type(n,p) = np, type(n,q) = nq,
+// type(p,q) = pq: t counts the other common neighbours w of p and q by
+// (type(p,w), type(q,w)), n itself included. For the order (p, q) the
+// tuples (n, p, q, w) with type(p,w) = e, type(q,w) = f number t[e][f],
+// less one when n is such a w; likewise for (q, p). Only canonical forms
+// are added (equations.slot), so each tuple is counted once.
+func (eq *equations) diamondForms(np, nq, pq uint8, t *tri9, add func(o int, k int64)) {
+	pn, qn := rev(np), rev(nq)
+	for e := uint8(1); e <= 3; e++ {
+		for f := uint8(1); f <= 3; f++ {
+			k := int64(t[(e-1)*3+f-1])
+			if e == pn && f == qn {
+				k--
+			}
+			if k > 0 {
+				if o := eq.slotOf(fDiamondDeg2, np, nq, pq, e, f); o >= 0 {
+					add(o, k)
+				}
+			}
+			k = int64(t[(f-1)*3+e-1])
+			if e == qn && f == pn {
+				k--
+			}
+			if k > 0 {
+				if o := eq.slotOf(fDiamondDeg2, nq, np, rev(pq), e, f); o >= 0 {
+					add(o, k)
+				}
+			}
+		}
+	}
+}
+
+// cliquePerms lists the orderings of positions 1, 2, 3.
+var cliquePerms = [6][3]int{{1, 2, 3}, {1, 3, 2}, {2, 1, 3}, {2, 3, 1}, {3, 1, 2}, {3, 2, 1}}
+
+// cliqueTypes spreads the pair types of a K4 on positions 0–3, given for
+// (0,1), (0,2), (0,3), (1,2), (1,3), (2,3) from the first position, into
+// a matrix typ[i][j] = type(i, j).
+func cliqueTypes(t [6]uint8) [4][4]uint8 {
+	var typ [4][4]uint8
+	for i, e := range families[fClique].edges {
+		typ[e[0]][e[1]] = t[i]
+		typ[e[1]][e[0]] = rev(t[i])
+	}
+	return typ
+}
+
+// cliqueForms calls add(o) once for each ordering of the other three
+// positions of a K4 (pair types typ) whose tuple from root is its orbit's
+// canonical form.
+func (eq *equations) cliqueForms(typ *[4][4]uint8, root int, add func(o int)) {
+	var others [3]int
+	j := 0
+	for q := range 4 {
+		if q != root {
+			others[j] = q
+			j++
+		}
+	}
+	for _, perm := range cliquePerms {
+		pos := [4]int{root, others[perm[0]-1], others[perm[1]-1], others[perm[2]-1]}
+		var params [6]uint8
+		for i, e := range families[fClique].edges {
+			params[i] = typ[pos[e[0]]][pos[e[1]]]
+		}
+		if o := eq.slotOf(fClique, params[:]...); o >= 0 {
+			add(o)
+		}
+	}
+}

@@ -236,70 +236,19 @@ func (st *state) diamondsAndCliques() {
 	})
 }
 
-// diamondAt credits the diamonds at apex n of the triangle n, p, q with
-// type(n,p) = np, type(n,q) = nq, type(p,q) = pq, and t the typed
-// triangle count of (p, q) from p's side, for both orders of p and q.
+// diamondAt credits the diamonds at apex n of the triangle n, p, q
+// (equations.diamondForms).
 func (st *state) diamondAt(n uint32, np, nq, pq uint8, t *tri9) {
-	eq := st.eq
-	pn, qn := rev(np), rev(nq)
-	for e := uint8(1); e <= 3; e++ {
-		for f := uint8(1); f <= 3; f++ {
-			// (p, q): w with type(p,w) = e, type(q,w) = f.
-			k := uint64(t[(e-1)*3+f-1])
-			if e == pn && f == qn {
-				k--
-			}
-			if k > 0 {
-				if o := eq.slotOf(fDiamondDeg2, np, nq, pq, e, f); o >= 0 {
-					st.credit(n, o, k)
-				}
-			}
-			// (q, p): w with type(q,w) = e, type(p,w) = f.
-			k = uint64(t[(f-1)*3+e-1])
-			if e == qn && f == pn {
-				k--
-			}
-			if k > 0 {
-				if o := eq.slotOf(fDiamondDeg2, nq, np, rev(pq), e, f); o >= 0 {
-					st.credit(n, o, k)
-				}
-			}
-		}
-	}
+	st.eq.diamondForms(np, nq, pq, t, func(o int, k int64) { st.credit(n, o, uint64(k)) })
 }
 
-// cliquePerms lists the orderings of positions 1, 2, 3.
-var cliquePerms = [6][3]int{{1, 2, 3}, {1, 3, 2}, {2, 1, 3}, {2, 3, 1}, {3, 1, 2}, {3, 2, 1}}
-
-// clique credits the K4 on nodes v (v[0] < v[1] < v[2] < v[3] need not
-// hold) with pair types t of (0,1), (0,2), (0,3), (1,2), (1,3), (2,3) seen
-// from the first node of each pair.
+// clique credits the K4 on nodes v with pair types t of (0,1), (0,2),
+// (0,3), (1,2), (1,3), (2,3) seen from the first node of each pair, at
+// each of its nodes.
 func (st *state) clique(v [4]uint32, t [6]uint8) {
-	var typ [4][4]uint8
-	pairs := [6][2]int{{0, 1}, {0, 2}, {0, 3}, {1, 2}, {1, 3}, {2, 3}}
-	for i, pr := range pairs {
-		typ[pr[0]][pr[1]] = t[i]
-		typ[pr[1]][pr[0]] = rev(t[i])
-	}
+	typ := cliqueTypes(t)
 	for root := range 4 {
-		others := [3]int{}
-		j := 0
-		for q := range 4 {
-			if q != root {
-				others[j] = q
-				j++
-			}
-		}
-		for _, perm := range cliquePerms {
-			pos := [4]int{root, others[perm[0]-1], others[perm[1]-1], others[perm[2]-1]}
-			var params [6]uint8
-			for i, e := range families[fClique].edges {
-				params[i] = typ[pos[e[0]]][pos[e[1]]]
-			}
-			if o := st.eq.slotOf(fClique, params[:]...); o >= 0 {
-				st.credit(v[root], o, 1)
-			}
-		}
+		st.eq.cliqueForms(&typ, root, func(o int) { st.credit(v[root], o, 1) })
 	}
 }
 
