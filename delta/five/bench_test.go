@@ -58,3 +58,32 @@ func BenchmarkCounterEvent(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkCounterCut is one cut of five.Counter on BA(20k, m=5): 1,000
+// churn events, then Changed (the recount and the diff of the vectors).
+func BenchmarkCounterCut(b *testing.B) {
+	g := baGraph(b, 20000)
+	churn := gen.Churn(bench.SimpleEdges(g), 5000, 0, 0, 2)
+	c := five.NewCounter(five.Options{})
+	g.ForEachEdge(func(u, v uint32, _ uint32) { c.Insert(g, u, v, false) })
+	c.Changed(func(uint32) {})
+	i := 0
+	for b.Loop() {
+		for range 1000 {
+			e := churn[i%len(churn)]
+			i++
+			var err error
+			if e.Op == gen.Add {
+				if err = c.Insert(g, e.U, e.V, false); err == nil {
+					_, err = g.Increment(e.U, e.V)
+				}
+			} else if err = c.Delete(g, e.U, e.V); err == nil {
+				_, err = g.Decrement(e.U, e.V)
+			}
+			if err != nil {
+				b.Fatal(err)
+			}
+		}
+		c.Changed(func(uint32) {})
+	}
+}

@@ -15,17 +15,19 @@ import (
 // Changed, a Vector, an AppendRecord), not per event: Insert and Delete
 // only apply the edge to the counter's own copy of the graph.
 //
-// Why not per-event updates (see the package benchmarks, BA(20k, m=5)):
-// a 5-node orbit changes up to three hops from the edge, which through a
-// hub is most of the graph, so the eager engine
-// (delta.NewEager(generic.NewEngine(cat))) writes tens of thousands of
-// counters per event and runs at tens of events per second, while one
-// recount costs a few seconds. Recounting at each cut therefore wins for
-// every cut of more than a few hundred events and reaches the issue's
-// 2,000 events/s for cuts of about 2,000 × (recount seconds) events. A
-// factored record (non-induced pattern counts kept per node, vectors
-// derived on read as delta/factored does for four nodes) needs 3-hop
-// sums on read and is not built yet.
+// Why not per-event updates (bench/cmd/fivebench, BA(20k, m=5), 100k
+// edges): a 5-node orbit changes up to three hops from the edge, which
+// through a hub is most of the graph, so the eager engine
+// (delta.NewEager(generic.NewEngine(cat))) spends about 27 ms per event
+// (≈37 events/s), while one recount takes about 0.6 s and an event
+// between cuts about 1.2 µs. Recounting at each cut is ahead for every
+// cut of more than a few dozen events and reaches 2,000 events/s for
+// cuts of about 1,000 events on that graph (in general about 2,000 ×
+// the recount's seconds). Changed still names every node whose vector
+// moved, which through hubs is most nodes. A factored record
+// (non-induced pattern counts kept per node, vectors derived on read as
+// delta/factored does for four nodes) needs 3-hop sums on read and is
+// not built.
 //
 // Reads serialise on a mutex when they trigger the recount; concurrent
 // reads of fresh vectors do not wait on one another beyond it.
