@@ -231,43 +231,105 @@ func incrementalSample(g *delta.Graph, per int, seed uint64) [][][2]uint32 {
 	return out
 }
 
+// churnBucket deletes and re-inserts every arc of arcs through c and g
+// and returns the thread CPU time.
+func churnBucket(b *testing.B, c delta.Counter, g *delta.Graph, arcs [][2]uint32) time.Duration {
+	clock := cpuclock.Start()
+	for _, a := range arcs {
+		if err := c.Delete(g, a[0], a[1]); err != nil {
+			b.Fatal(err)
+		}
+		g.Unlink(a[0], a[1])
+		if err := c.Insert(g, a[0], a[1], false); err != nil {
+			b.Fatal(err)
+		}
+		g.Link(a[0], a[1])
+	}
+	return clock.Stop()
+}
+
+// readSample draws up to per nodes of g for each degree bucket.
+func readSample(g *delta.Graph, per int, seed uint64) [][]uint32 {
+	rng := rand.New(rand.NewPCG(seed, 22))
+	out := make([][]uint32, len(degreeBuckets))
+	for _, x := range rng.Perm(g.NumNodes()) {
+		d := g.Degree(uint32(x))
+		if d == 0 {
+			continue
+		}
+		if b := bucketOf(d); len(out[b]) < per {
+			out[b] = append(out[b], uint32(x))
+		}
+	}
+	return out
+}
+
 // BenchmarkIncremental4 measures directed 2–4 counting per event, thread
 // CPU time, on the directed payments scenario of bench/gen (600k events:
 // about 500k arcs, merchants with thousands of payers, payroll hubs), by
 // the degree of the larger endpoint: each sampled arc is deleted and
-// re-inserted (two events, graph updates included). The eager generic
-// engine (delta.NewEager(generic.NewEngine)) starts from the recount's
-// vectors through Restore.
+// re-inserted (two events, graph updates included), through Quads and
+// through the eager generic engine (delta.NewEager(generic.NewEngine)),
+// which starts from the recount's vectors through Restore. Quads' reads
+// (Vector) are timed by the degree of the node read; the eager engine's
+// read is a copy of its stored vector.
 func BenchmarkIncremental4(b *testing.B) {
 	g := recountGraphs()[2].g
 	sample := incrementalSample(g, 48, 5)
-	cat := generic.NewEngine(mustCatalog(b, 4))
-	eager := delta.NewEager(cat)
+	nodes := readSample(g, 48, 6)
+	eager := delta.NewEager(generic.NewEngine(mustCatalog(b, 4)))
 	if err := eager.Restore(g, &recordSource{Source: delta.NewMemSource(g, eager), vec: NewRecounter(4).Recount(g)}); err != nil {
 		b.Fatal(err)
 	}
-	per := make([]time.Duration, len(degreeBuckets))
+	quads := NewQuads(0)
+	loaded := delta.NewGraph(delta.Directed)
+	var arcs [][2]uint32
+	g.ForEachEdge(func(u, v uint32, _ uint32) { arcs = append(arcs, [2]uint32{u, v}) })
+	clock := cpuclock.Start()
+	if err := insertAll(quads, loaded, arcs); err != nil {
+		b.Fatal(err)
+	}
+	backfill := clock.Stop()
+	quads.Changed(func(uint32) {})
+	perEager := make([]time.Duration, len(degreeBuckets))
+	perQuads := make([]time.Duration, len(degreeBuckets))
+	perRead := make([]time.Duration, len(degreeBuckets))
+	var buf []uint64
+	// Quads' events and reads are repeated so that the thread clock,
+	// which ticks in milliseconds on some kernels, sees them.
+	const reps = 50
 	for b.Loop() {
-		for i, arcs := range sample {
-			clock := cpuclock.Start()
-			for _, a := range arcs {
-				if err := eager.Delete(g, a[0], a[1]); err != nil {
-					b.Fatal(err)
-				}
-				g.Unlink(a[0], a[1])
-				if err := eager.Insert(g, a[0], a[1], false); err != nil {
-					b.Fatal(err)
-				}
-				g.Link(a[0], a[1])
+		for i, bucket := range sample {
+			perEager[i] += churnBucket(b, eager, g, bucket)
+			for range reps {
+				perQuads[i] += churnBucket(b, quads, loaded, bucket)
 			}
-			per[i] += clock.Stop()
+		}
+		for i, xs := range nodes {
+			clock := cpuclock.Start()
+			for range reps / 10 {
+				for _, x := range xs {
+					var err error
+					if buf, err = quads.Vector(x, buf); err != nil {
+						b.Fatal(err)
+					}
+				}
+			}
+			perRead[i] += clock.Stop()
 		}
 	}
+	us := func(d time.Duration, n int) float64 { return float64(d.Nanoseconds()) / 1e3 / float64(n*b.N) }
+	b.ReportMetric(us(backfill, 1)*float64(b.N)/float64(len(arcs)), "quads-backfill-µs/event")
 	for i, bk := range degreeBuckets {
 		if n := len(sample[i]); n > 0 {
-			b.ReportMetric(float64(per[i].Microseconds())/float64(2*n*b.N), "eager-"+bk.name+"-µs/event")
-			b.ReportMetric(float64(n), "arcs-"+bk.name)
+			b.ReportMetric(us(perEager[i], 2*n), "eager-"+bk.name+"-µs/event")
+			b.ReportMetric(us(perQuads[i], 2*n*reps), "quads-"+bk.name+"-µs/event")
+			b.ReportMetric(float64(perEager[i])/float64(perQuads[i])*reps, "eager/quads-"+bk.name)
+		}
+		if n := len(nodes[i]); n > 0 {
+			b.ReportMetric(us(perRead[i], n*(reps/10)), "quads-read-"+bk.name+"-µs")
 		}
 	}
 	eager.Changed(func(uint32) {})
+	quads.Changed(func(uint32) {})
 }
