@@ -13,10 +13,10 @@ import "fmt"
 // ErrOverflow, or an orbit that solves to a negative count (a broken
 // equation: never clamped).
 //
-// With d = d(x), N = N(x), t_y = common neighbours of x and y, t(·)
-// triangles at a node, c_y = common neighbours of x and y for every
-// y ≠ x (so Σ_y C(c_y, 2) is the number of 4-cycles through x), S1, Q,
-// C3, S2, T2, SQ, SS2 as in local:
+// With d = d(x), N = N(x), t(·) triangles at a node, c_y the common
+// neighbours of x and y for any y ≠ x (t_y = c_y for y ∈ N, the
+// triangles on the edge xy; Σ_y C(c_y, 2) is the number of 4-cycles
+// through x), and S1, Q, C3, S2, T2, SQ, SS2 as in local:
 //
 //	star centre  C(d,4)
 //	star leaf    Σ_{y∈N} C(d(y)−1,3)
@@ -28,10 +28,10 @@ import "fmt"
 //	path next    (d−1)(S2 − d(d−1)) + Σ_{y∈N} t_y (3−d−d(y)) − Σ_y c_y² + S1
 //	path end     SS2 − d·S1 − Σ_{y∈N}(d(y)−1)² − 2(d−2)t(x) − Σ_y c_y² + S1 − 2·T2 + 2t(x)
 //
-// each from choosing the copy's nodes outward from x and subtracting the
-// choices that repeat a node (the derivations are in the tests' brute
-// force check: every formula is held to enumeration on every connected
-// graph up to 7 nodes).
+// Each chooses the copy's nodes outward from x and subtracts the choices
+// that repeat a node (a neighbour chosen twice, a walk closing on a
+// triangle or a 4-cycle). TestEveryConnectedGraph holds every formula to
+// enumeration on every connected graph up to 7 nodes.
 func (w *worker) trees(l *local, x uint32, row []uint64) error {
 	c := w.c
 	var ck checked
