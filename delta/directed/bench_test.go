@@ -236,14 +236,7 @@ func incrementalSample(g *delta.Graph, per int, seed uint64) [][][2]uint32 {
 func churnBucket(b *testing.B, c delta.Counter, g *delta.Graph, arcs [][2]uint32) time.Duration {
 	clock := cpuclock.Start()
 	for _, a := range arcs {
-		if err := c.Delete(g, a[0], a[1]); err != nil {
-			b.Fatal(err)
-		}
-		g.Unlink(a[0], a[1])
-		if err := c.Insert(g, a[0], a[1], false); err != nil {
-			b.Fatal(err)
-		}
-		g.Link(a[0], a[1])
+		replayArc(b, c, g, a)
 	}
 	return clock.Stop()
 }

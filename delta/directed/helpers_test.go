@@ -2,6 +2,7 @@ package directed
 
 import (
 	"math/rand/v2"
+	"testing"
 
 	"orbitwatch/bench/gen"
 	"orbitwatch/delta"
@@ -104,4 +105,27 @@ func insertAll(c delta.Counter, g *delta.Graph, arcs [][2]uint32) error {
 		g.Link(a[0], a[1])
 	}
 	return nil
+}
+
+// churnAllocs returns the allocations per delete and re-insert of the
+// arcs of sample through c and g, runs times in turn.
+func churnAllocs(t *testing.T, c delta.Counter, g *delta.Graph, sample [][2]uint32, runs int) float64 {
+	i := 0
+	return testing.AllocsPerRun(runs, func() {
+		replayArc(t, c, g, sample[i%len(sample)])
+		i++
+	})
+}
+
+// replayArc deletes the arc a and inserts it again, counter before graph
+// as the applier does: two events.
+func replayArc(tb testing.TB, c delta.Counter, g *delta.Graph, a [2]uint32) {
+	if err := c.Delete(g, a[0], a[1]); err != nil {
+		tb.Fatal(err)
+	}
+	g.Unlink(a[0], a[1])
+	if err := c.Insert(g, a[0], a[1], false); err != nil {
+		tb.Fatal(err)
+	}
+	g.Link(a[0], a[1])
 }

@@ -158,19 +158,7 @@ func TestQuadsAllocateNothing(t *testing.T) {
 		}
 	}
 	for _, sample := range [][][2]uint32{light, toHub} {
-		i := 0
-		allocs := testing.AllocsPerRun(1000, func() {
-			a := sample[i%len(sample)]
-			i++
-			if q.Delete(g, a[0], a[1]) != nil {
-				t.Fatal("delete")
-			}
-			g.Unlink(a[0], a[1])
-			if q.Insert(g, a[0], a[1], false) != nil {
-				t.Fatal("insert")
-			}
-			g.Link(a[0], a[1])
-		})
+		allocs := churnAllocs(t, q, g, sample, 1000)
 		if allocs != 0 {
 			t.Errorf("%.2f allocations per delete and insert (graph updates included)", allocs)
 		}

@@ -136,20 +136,7 @@ func TestTriadsAllocateNothing(t *testing.T) {
 	if err := insertAll(c, g, arcs); err != nil {
 		t.Fatal(err)
 	}
-	i := 0
-	allocs := testing.AllocsPerRun(4000, func() {
-		a := arcs[i%len(arcs)]
-		i++
-		if c.Delete(g, a[0], a[1]) != nil {
-			t.Fatal("delete")
-		}
-		g.Unlink(a[0], a[1])
-		if c.Insert(g, a[0], a[1], false) != nil {
-			t.Fatal("insert")
-		}
-		g.Link(a[0], a[1])
-	})
-	if allocs != 0 {
+	if allocs := churnAllocs(t, c, g, arcs, 4000); allocs != 0 {
 		t.Fatalf("%.2f allocations per delete and insert", allocs)
 	}
 }
