@@ -75,6 +75,9 @@ type PublishStats struct {
 	Duplicates int
 	// LastSeq is the highest stream sequence acknowledged.
 	LastSeq uint64
+	// Interleaved counts the times an OrderedPublisher found another
+	// writer's message between its events and went on after it.
+	Interleaved int
 }
 
 // Publisher publishes events asynchronously with their id as the

@@ -17,7 +17,9 @@ import (
 // then past those the stream holds after the entry's sequence (an entry
 // lags behind a publish that stopped), and publishes from the first
 // event not stored. It records the entry before its first publish and as
-// acknowledgements come.
+// acknowledgements come. Other writers' messages may fall between a
+// log's events (OrderedPublisher goes on after them); the stream then
+// holds the log's events in its order with those between.
 type LogPublisher struct {
 	js      jetstream.JetStream
 	s       jetstream.Stream
@@ -90,12 +92,11 @@ func (lp *LogPublisher) Event(ctx context.Context, ev Event) error {
 		return lp.differs(ev)
 	}
 	if lp.probing {
-		id, ok, err := StoredID(ctx, lp.s, lp.entry.Seq+1)
+		found, err := lp.probe(ctx, ev.ID)
 		if err != nil {
 			return err
 		}
-		if ok && id == ev.ID {
-			lp.entry.Seq++
+		if found {
 			lp.entry.Line, lp.entry.LastID = ev.Line, ev.ID
 			lp.verified = true
 			lp.skipped++
@@ -135,6 +136,27 @@ func (lp *LogPublisher) lookUp(ctx context.Context, firstID string) error {
 	return nil
 }
 
+// maxInterleaved bounds how many other writers' messages probe reads past
+// between two events of a log.
+const maxInterleaved = 256
+
+// probe looks for the message of event id just after the entry's
+// sequence, past at most maxInterleaved messages of other writers, and
+// moves the entry's sequence to it when found.
+func (lp *LogPublisher) probe(ctx context.Context, id string) (bool, error) {
+	for k := uint64(1); k <= maxInterleaved; k++ {
+		got, ok, err := StoredID(ctx, lp.s, lp.entry.Seq+k)
+		if err != nil || !ok {
+			return false, err
+		}
+		if got == id {
+			lp.entry.Seq += k
+			return true, nil
+		}
+	}
+	return false, nil
+}
+
 func (lp *LogPublisher) differs(ev Event) error {
 	return fmt.Errorf("stream: %s begins like the log %s published to stream %s up to its record %d, but differs by line %d: "+
 		"it is another log whose first event has the same id; publish it without the manifest to rely on event ids alone",
@@ -155,7 +177,7 @@ func (lp *LogPublisher) start(ctx context.Context) error {
 		}
 	}
 	lp.putLine = lp.entry.Line
-	lp.pub = NewOrderedPublisher(lp.js, lp.subject, info.State.LastSeq, lp.opts)
+	lp.pub = NewOrderedPublisher(lp.js, lp.name, lp.subject, info.State.LastSeq, lp.opts)
 	lp.publishing = true
 	return nil
 }
@@ -196,6 +218,7 @@ func (lp *LogPublisher) add() {
 	lp.stats.Stored += st.Stored
 	lp.stats.Duplicates += st.Duplicates
 	lp.stats.LastSeq = max(lp.stats.LastSeq, st.LastSeq)
+	lp.stats.Interleaved += st.Interleaved
 }
 
 // Stats returns the counts so far: Duplicates counts both the events the
@@ -208,6 +231,7 @@ func (lp *LogPublisher) Stats() PublishStats {
 		st.Stored += cur.Stored
 		st.Duplicates += cur.Duplicates
 		st.LastSeq = max(st.LastSeq, cur.LastSeq)
+		st.Interleaved += cur.Interleaved
 	}
 	st.Duplicates += lp.skipped
 	return st

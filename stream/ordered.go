@@ -22,22 +22,25 @@ import (
 //
 // Publishes are pipelined: each one's expected sequence assumes that the
 // events in flight are stored, or, after a duplicate, that they are
-// duplicates too. When the server answers otherwise, the events in flight
-// after it are refused (their expectations cannot hold) and, once none is
-// in flight, sent again in order with the right ones; the window of
-// events in flight then starts at one and doubles with every prediction
-// that holds, so a log whose events alternate between new and stored
-// costs one round trip per event, not one window.
+// duplicates too. When the server answers otherwise, or another writer's
+// message (a worker's control message, another log) comes between, the
+// events in flight after it are refused, which the server guarantees
+// leaves them unstored; once none is in flight they are sent again, in
+// order, with expectations that hold (after another writer, from the
+// stream's new last sequence). The window of events in flight then starts
+// at one and doubles with every prediction that holds, so a log whose
+// events alternate between new and stored costs one round trip per event,
+// not one window. Other writers' messages may so fall between this log's
+// events, never an event of this log out of its order.
 //
 // A publish is never retried in any other case and nothing is held for a
-// reconnect: on a lost connection, a refusal or a missing acknowledgement
-// the publisher stops, and Flush and Publish return a *PublishStopError
-// naming the first event not acknowledged. Another publisher writing to
-// the same stream meanwhile also stops it (the log's order could not be
-// kept). Acked tells how far the log is stored. It is not safe for
-// concurrent use.
+// reconnect: on a lost connection, any other refusal or a missing
+// acknowledgement the publisher stops, and Flush and Publish return a
+// *PublishStopError naming the first event not acknowledged. Acked tells
+// how far the log is stored. It is not safe for concurrent use.
 type OrderedPublisher struct {
 	js      jetstream.JetStream
+	stream  string
 	subject string
 	opts    OrderedOptions
 
@@ -55,8 +58,11 @@ type OrderedPublisher struct {
 	nextID  string
 	dupMode bool
 	// resyncing: a prediction failed, so the events in flight after it are
-	// refused; they are sent again once none is in flight.
-	resyncing bool
+	// refused; they are sent again once none is in flight. interleaved:
+	// another writer's message came between, so the stream's last
+	// sequence must be asked for first.
+	resyncing   bool
+	interleaved bool
 	// chain is the stream's last sequence after the events acknowledged
 	// in order, and chainID the id of the message there when known.
 	chain   uint64
@@ -131,9 +137,9 @@ const (
 	failed
 )
 
-// NewOrderedPublisher returns a publisher to subject, whose stream's last
-// sequence is now lastSeq (from the stream's info).
-func NewOrderedPublisher(js jetstream.JetStream, subject string, lastSeq uint64, opts OrderedOptions) *OrderedPublisher {
+// NewOrderedPublisher returns a publisher to subject of the stream name,
+// whose last sequence is now lastSeq (from the stream's info).
+func NewOrderedPublisher(js jetstream.JetStream, name, subject string, lastSeq uint64, opts OrderedOptions) *OrderedPublisher {
 	if opts.MaxPending <= 0 {
 		opts.MaxPending = 1024
 	}
@@ -142,7 +148,7 @@ func NewOrderedPublisher(js jetstream.JetStream, subject string, lastSeq uint64,
 	}
 	t := time.NewTimer(time.Hour)
 	t.Stop()
-	return &OrderedPublisher{js: js, subject: subject, opts: opts, window: opts.MaxPending, next: lastSeq, chain: lastSeq,
+	return &OrderedPublisher{js: js, stream: name, subject: subject, opts: opts, window: opts.MaxPending, next: lastSeq, chain: lastSeq,
 		acked: AckPoint{Seq: lastSeq}, timer: t}
 }
 
@@ -210,6 +216,12 @@ func (p *OrderedPublisher) pump() {
 // none in flight, ends a resync; then it sends what it can.
 func (p *OrderedPublisher) step(ctx context.Context) error {
 	if p.inFlight == 0 {
+		if p.interleaved && p.fault == nil {
+			p.interleaved = false
+			if err := p.rebase(ctx); err != nil {
+				return err
+			}
+		}
 		if p.resyncing && p.fault == nil {
 			p.resyncing, p.next, p.nextID = false, p.chain, p.chainID
 		}
@@ -315,16 +327,36 @@ func (p *OrderedPublisher) onErr(f *inflight, err error) {
 	refused := errors.As(err, &apiErr) && (apiErr.ErrorCode == jetstream.JSErrCodeStreamWrongLastSequence ||
 		apiErr.ErrorCode == jetstream.JSErrCodeStreamWrongLastSequenceConstant || apiErr.ErrorCode == errCodeWrongLastMsgID)
 	switch {
-	case refused && p.resyncing:
+	case refused && p.fault == nil:
+		if !p.resyncing {
+			// No prediction failed: another writer's message came between.
+			p.resyncing, p.interleaved, p.window = true, true, 1
+		}
 		f.state = unsent
 		p.sendFrom = min(p.sendFrom, slices.Index(p.queue, f))
-	case refused:
-		f.state = failed
-		p.fail(fmt.Errorf("the stream's last message was not the one expected (sequence %d): another publisher wrote to the stream meanwhile, so this log's order could not be kept", f.expect))
 	default:
 		f.state = failed
 		p.fail(err)
 	}
+}
+
+// rebase takes the stream's last sequence after another writer's message
+// as the point the next event must follow; the message there is not this
+// publisher's, so only its sequence is expected.
+func (p *OrderedPublisher) rebase(ctx context.Context) error {
+	ictx, cancel := context.WithTimeout(ctx, p.opts.AckTimeout)
+	defer cancel()
+	s, err := p.js.Stream(ictx, p.stream)
+	if err != nil {
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		p.fail(fmt.Errorf("stream %s after another writer's message: %w", p.stream, err))
+		return nil
+	}
+	p.chain, p.chainID = s.CachedInfo().State.LastSeq, ""
+	p.stats.Interleaved++
+	return nil
 }
 
 // fail records the first fault; the events in flight get until the

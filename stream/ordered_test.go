@@ -81,7 +81,7 @@ func publishOrdered(t *testing.T, ctx context.Context, js jetstream.JetStream, n
 	if err != nil {
 		t.Fatal(err)
 	}
-	p := NewOrderedPublisher(js, subject, s.CachedInfo().State.LastSeq, OrderedOptions{MaxPending: maxPending})
+	p := NewOrderedPublisher(js, name, subject, s.CachedInfo().State.LastSeq, OrderedOptions{MaxPending: maxPending})
 	for _, e := range evs {
 		if err := p.Publish(ctx, e); err != nil {
 			t.Fatal(err)
@@ -136,50 +136,67 @@ func TestOrderedPublisherDuplicates(t *testing.T) {
 	step("one in flight", evs[1990:2100], 1, 100, 10)
 }
 
-// TestOrderedPublisherAnotherWriter: a message stored by someone else
-// between two publishes stops the publisher, naming the first event not
-// stored; nothing of it is stored after the other message.
+// TestOrderedPublisherAnotherWriter: messages stored by another writer
+// (a worker's control message, another log) between two events, before
+// the first and while events are in flight, fall between the log's
+// events; the log's events are stored in order, each once, without a
+// stop.
 func TestOrderedPublisherAnotherWriter(t *testing.T) {
 	ctx := testContext(t)
 	_, js := startBus(t, t.TempDir())
 	if _, err := EnsureStream(ctx, js, "EDGES", "edges.in", 1); err != nil {
 		t.Fatal(err)
 	}
-	evs := payments(20)
+	other := func(id string) {
+		e := payments(30)[25]
+		e.ID = id
+		if _, err := js.Publish(ctx, "edges.in", EncodeBinary(nil, e), jetstream.WithMsgID(id)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	evs := payments(5000)
 	for i := range evs {
 		evs[i].FileLine = i + 2
 	}
-	p := NewOrderedPublisher(js, "edges.in", 0, OrderedOptions{})
-	for _, e := range evs[:10] {
+	p := NewOrderedPublisher(js, "EDGES", "edges.in", 0, OrderedOptions{MaxPending: 64})
+	other("before")
+	want := []string{"before"}
+	for i, e := range evs {
 		if err := p.Publish(ctx, e); err != nil {
 			t.Fatal(err)
+		}
+		if i == 10 {
+			if err := p.Flush(ctx); err != nil {
+				t.Fatal(err)
+			}
+			want = append(want, idsOf(evs[:11])...)
+			other("between")
+			want = append(want, "between")
+		}
+		if i%1000 == 999 {
+			// While up to 64 events are in flight.
+			other(fmt.Sprintf("in flight %d", i))
 		}
 	}
 	if err := p.Flush(ctx); err != nil {
 		t.Fatal(err)
 	}
-	other := payments(30)[25]
-	other.ID = "other"
-	if _, err := js.Publish(ctx, "edges.in", EncodeBinary(nil, other), jetstream.WithMsgID("other")); err != nil {
-		t.Fatal(err)
+	if a := p.Acked(); a.ID != evs[len(evs)-1].ID {
+		t.Errorf("ack point %+v, want the last event", a)
 	}
-	var err error
-	for _, e := range evs[10:] {
-		if err = p.Publish(ctx, e); err != nil {
-			break
+	got := storedIDs(t, ctx, js, "EDGES")
+	var ours []string
+	for _, id := range got {
+		if strings.HasPrefix(id, "pay-") {
+			ours = append(ours, id)
 		}
 	}
-	err = errors.Join(err, p.Flush(ctx))
-	var stop *PublishStopError
-	if !errors.As(err, &stop) || stop.ID != evs[10].ID || stop.FileLine != 12 || !strings.Contains(err.Error(), "another publisher") {
-		t.Fatalf("publish after another writer: %v, want a stop at line 12 naming another publisher", err)
+	sameIDs(t, "the log's events among the others'", ours, idsOf(evs))
+	if len(got) != len(evs)+7 || got[0] != "before" || got[12] != "between" {
+		t.Fatalf("%d messages, first %q, 13th %q", len(got), got[0], got[12])
 	}
-	if a := p.Acked(); a.ID != evs[9].ID || a.Seq != 10 {
-		t.Errorf("ack point %+v, want event 10 at seq 10", a)
-	}
-	sameIDs(t, "after the stop", storedIDs(t, ctx, js, "EDGES"), append(idsOf(evs[:10]), "other"))
-	if err := p.Publish(ctx, evs[19]); !errors.As(err, &stop) {
-		t.Errorf("Publish after a stop: %v, want the stop again", err)
+	if st := p.Stats(); st.Stored != len(evs) || st.Interleaved < 2 {
+		t.Errorf("stats %+v, want %d stored and at least 2 interleavings", st, len(evs))
 	}
 }
 
@@ -197,7 +214,7 @@ func TestOrderedPublisherServerStops(t *testing.T) {
 	}
 	evs := payments(60000)
 	t0 := time.Now()
-	p := NewOrderedPublisher(js, "edges.in", 0, OrderedOptions{AckTimeout: 5 * time.Second})
+	p := NewOrderedPublisher(js, "EDGES", "edges.in", 0, OrderedOptions{AckTimeout: 5 * time.Second})
 	var err error
 	for i, e := range evs {
 		if i == 20000 {
@@ -286,8 +303,9 @@ func readIDs(t *testing.T, text string) []string {
 // second, a log published again after it stores nothing; a log grown by
 // appending stores only its new part; an entry that lags behind what a
 // stopped publish stored is caught up from the stream; a different log
-// with the same first event is refused; without the manifest the same
-// republish stores the log twice (what the manifest prevents).
+// with the same first event is refused; a log among another writer's
+// messages is found past them; without the manifest the same republish
+// stores the log twice (what the manifest prevents).
 func TestManifestBeyondTheDuplicateWindow(t *testing.T) {
 	ctx := testContext(t)
 	_, js := startBus(t, t.TempDir())
@@ -344,6 +362,51 @@ func TestManifestBeyondTheDuplicateWindow(t *testing.T) {
 	}
 	sameIDs(t, "changed log refused", storedIDs(t, ctx, js, "EDGES"), want)
 
+	// A log published while another writer stores messages among its
+	// events, its entry then set back to before its first event: the
+	// republish reads past the other messages and stores nothing.
+	third := logText(10000, 2000)
+	stop := make(chan struct{})
+	done := make(chan int)
+	go func() {
+		n := 0
+		for {
+			select {
+			case <-stop:
+				done <- n
+				return
+			case <-time.After(time.Millisecond):
+			}
+			e := Event{ID: fmt.Sprintf("control-%d", n), Src: "x", Dst: "y"}
+			if _, err := js.Publish(ctx, "edges.in", EncodeBinary(nil, e), jetstream.WithMsgID(e.ID)); err == nil {
+				n++
+			}
+		}
+	}()
+	st, err := publishLog(t, ctx, js, man, "third.csv", third)
+	close(stop)
+	others := <-done
+	if err != nil || st.Stored != 2000 || others == 0 || st.Interleaved == 0 {
+		t.Fatalf("log with another writer: %+v, %v (%d other messages)", st, err, others)
+	}
+	thirdIDs := readIDs(t, third)
+	e, _, _ = man.Get(ctx, "EDGES", thirdIDs[0])
+	e.Line, e.LastID, e.Seq = 0, "", uint64(len(want))
+	if err := man.Put(ctx, e); err != nil {
+		t.Fatal(err)
+	}
+	window()
+	if st, err := publishLog(t, ctx, js, man, "third.csv", third); err != nil || st.Stored != 0 || st.Duplicates != 2000 {
+		t.Fatalf("republish past other writers' messages: %+v, %v; want nothing stored", st, err)
+	}
+	var ours []string
+	for _, id := range storedIDs(t, ctx, js, "EDGES") {
+		if !strings.HasPrefix(id, "control-") {
+			ours = append(ours, id)
+		}
+	}
+	sameIDs(t, "logs among other writers' messages", ours, append(append([]string(nil), want...), thirdIDs...))
+
 	window()
 	if st, err := publishLog(t, ctx, js, nil, "again.csv", log); err != nil || st.Stored != 3000 {
 		t.Fatalf("without a manifest after the window: %+v, %v; want the log stored again", st, err)
@@ -370,7 +433,7 @@ func BenchmarkOrderedVsUnordered(b *testing.B) {
 	}
 	plain := time.Since(start)
 	start = time.Now()
-	op := NewOrderedPublisher(js, "ordered.in", 0, OrderedOptions{})
+	op := NewOrderedPublisher(js, "ORDERED", "ordered.in", 0, OrderedOptions{})
 	for _, e := range evs {
 		if err := op.Publish(ctx, e); err != nil {
 			b.Fatal(err)
