@@ -1,6 +1,7 @@
 package directed
 
 import (
+	"fmt"
 	"math/rand/v2"
 	"runtime"
 	"sync"
@@ -27,19 +28,22 @@ const (
 
 type triadFixture struct {
 	g        *delta.Graph
-	c        *Triads
+	c        delta.Counter
 	sample   [][2]uint32 // arcs drawn uniformly
 	toHub    [][2]uint32 // arcs into the merchant, when there is one
+	hub      uint32
 	backfill time.Duration
 	arcs     int
 }
 
-var triadFixtures = map[bool]*triadFixture{}
+var triadFixtures = map[string]*triadFixture{}
 
-// loadTriads builds (once) the counter of the plain or merchant graph by
-// inserting every arc, timing the backfill on the thread CPU clock.
-func loadTriads(b *testing.B, merchant bool) *triadFixture {
-	if f := triadFixtures[merchant]; f != nil {
+// loadMerchant builds (once per counter kind) the counter of the plain or
+// merchant graph by inserting every arc, timing the backfill on the
+// thread CPU clock.
+func loadMerchant(b *testing.B, kind string, merchant bool, fresh func() delta.Counter) *triadFixture {
+	key := fmt.Sprint(kind, merchant)
+	if f := triadFixtures[key]; f != nil {
 		return f
 	}
 	arcs := baArcs(triadNodes, triadM, 1, triadRecip)
@@ -47,7 +51,7 @@ func loadTriads(b *testing.B, merchant bool) *triadFixture {
 	if merchant {
 		arcs, hub = withMerchant(arcs, triadNodes, int(triadShare*float64(len(arcs))), 2)
 	}
-	f := &triadFixture{g: delta.NewGraph(delta.Directed), c: NewTriads(), arcs: len(arcs)}
+	f := &triadFixture{g: delta.NewGraph(delta.Directed), c: fresh(), arcs: len(arcs), hub: hub}
 	clock := cpuclock.Start()
 	if err := insertAll(f.c, f.g, arcs); err != nil {
 		b.Fatal(err)
@@ -63,8 +67,12 @@ func loadTriads(b *testing.B, merchant bool) *triadFixture {
 			f.toHub = append(f.toHub, a)
 		}
 	}
-	triadFixtures[merchant] = f
+	triadFixtures[key] = f
 	return f
+}
+
+func loadTriads(b *testing.B, merchant bool) *triadFixture {
+	return loadMerchant(b, "triads", merchant, func() delta.Counter { return NewTriads() })
 }
 
 // churnTriads deletes and re-inserts n arcs of sample from offset off, as
@@ -108,7 +116,38 @@ func churnTriads(b *testing.B, f *triadFixture, sample [][2]uint32, off, n int, 
 // allocates when a payer's last arc comes and goes; the counter alone
 // allocates nothing, TestTriadsAllocateNothing).
 func BenchmarkTriads(b *testing.B) {
-	plain, merch := loadTriads(b, false), loadTriads(b, true)
+	benchMerchant(b, loadTriads(b, false), loadTriads(b, true))
+}
+
+// BenchmarkQuadsMerchant is BenchmarkTriads for the 2–4 Counter, with the
+// reads (Vector) of the merchant and of nodes by degree on the merchant
+// graph beside.
+func BenchmarkQuadsMerchant(b *testing.B) {
+	fresh := func() delta.Counter { return NewQuads(0) }
+	plain, merch := loadMerchant(b, "quads", false, fresh), loadMerchant(b, "quads", true, fresh)
+	benchMerchant(b, plain, merch)
+	var buf []uint64
+	var err error
+	clock := cpuclock.Start()
+	if buf, err = merch.c.Vector(merch.hub, buf); err != nil {
+		b.Fatal(err)
+	}
+	b.ReportMetric(float64(clock.Stop().Microseconds()), "read-merchant-µs")
+	for i, xs := range readSample(merch.g, 32, 7) {
+		if len(xs) == 0 {
+			continue
+		}
+		clock := cpuclock.Start()
+		for _, x := range xs {
+			if buf, err = merch.c.Vector(x, buf); err != nil {
+				b.Fatal(err)
+			}
+		}
+		b.ReportMetric(float64(clock.Stop().Microseconds())/float64(len(xs)), "read-"+degreeBuckets[i].name+"-µs")
+	}
+}
+
+func benchMerchant(b *testing.B, plain, merch *triadFixture) {
 	var tPlain, tMerch, tHub time.Duration
 	var allocs float64
 	off := 0

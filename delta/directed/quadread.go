@@ -18,6 +18,9 @@ type view interface {
 	neighbours(x uint32, dst []typed) ([]typed, error)
 	linked(x, y uint32) (uint8, error)
 	node(x uint32) (*quadNode, error)
+	// deg returns x's typed degrees, as node(x).deg but without keeping
+	// the record (a read meets its neighbours' neighbours once each).
+	deg(x uint32) ([3]int64, error)
 }
 
 // wedge is a path x–y–z through a light middle y, by z and the type
@@ -49,11 +52,69 @@ type readScratch4 struct {
 	commons  []common
 	commonAt [][2]int
 	wedges   []wedge
-	nodes    map[uint32]*quadNode
-	arena    []quadNode
+	zs       []uint32   // the z of the wedges, once each, ascending
+	groups   [][9]int64 // wedge counts to zs[i] by type
+	hlist    []typed
+	// heavyAt[i]: nx[i] is heavy. pos[z] is 1 + z's position in nx for
+	// a large nx (denseIndex), all zero between reads.
+	heavyAt []bool
+	pos     []int32
+	dense   bool
+	nodes   map[uint32]*quadNode
+	arena   []quadNode
 	// it, out and in load bitmaps in the in-memory view.
 	it      roaring.ManyIntIterator
 	out, in []uint32
+}
+
+// denseIndex is the neighbour count from which a read indexes x's
+// neighbours in an array by node id instead of searching them.
+const denseIndex = 256
+
+// index prepares at for x's neighbours nx.
+func (s *readScratch4) index() {
+	s.dense = len(s.nx) >= denseIndex
+	if !s.dense {
+		return
+	}
+	for i, y := range s.nx {
+		if int(y.node) >= len(s.pos) {
+			s.pos = slices.Grow(s.pos, int(y.node)+1-len(s.pos))[:int(y.node)+1]
+		}
+		s.pos[y.node] = int32(i + 1)
+	}
+}
+
+// unindex clears what index set.
+func (s *readScratch4) unindex() {
+	if s.dense {
+		for _, y := range s.nx {
+			s.pos[y.node] = 0
+		}
+	}
+}
+
+// at returns z's position among x's neighbours, or −1.
+func (s *readScratch4) at(z uint32) int {
+	if s.dense {
+		if int(z) < len(s.pos) {
+			return int(s.pos[z]) - 1
+		}
+		return -1
+	}
+	i, ok := slices.BinarySearchFunc(s.nx, z, func(a typed, z uint32) int { return cmpNode(a.node, z) })
+	if !ok {
+		return -1
+	}
+	return i
+}
+
+// typeAt returns type(x, z) (0: not joined).
+func (s *readScratch4) typeAt(z uint32) uint8 {
+	if i := s.at(z); i >= 0 {
+		return s.nx[i].t
+	}
+	return 0
 }
 
 // readPool hands out read scratch, so concurrent reads do not share it.
@@ -116,6 +177,13 @@ func (m memView) linked(x, y uint32) (uint8, error) {
 	return t, nil
 }
 
+func (m memView) deg(x uint32) ([3]int64, error) {
+	if int(x) >= len(m.q.t.recs) {
+		return [3]int64{}, nil
+	}
+	return m.q.t.recs[x].deg, nil
+}
+
 func (m memView) node(x uint32) (*quadNode, error) {
 	n, ok := m.s.cache(x)
 	if ok {
@@ -158,6 +226,14 @@ func (v *srcView) neighbours(x uint32, dst []typed) ([]typed, error) {
 func (v *srcView) linked(x, y uint32) (uint8, error) {
 	l, err := v.src.Linked(x, y)
 	return uint8(l & (delta.LinkOut | delta.LinkIn)), err
+}
+
+func (v *srcView) deg(x uint32) ([3]int64, error) {
+	n, err := v.node(x)
+	if err != nil {
+		return [3]int64{}, err
+	}
+	return n.deg, nil
 }
 
 func (v *srcView) node(x uint32) (*quadNode, error) {
@@ -247,8 +323,11 @@ func (q *Quads) derive(v view, s *readScratch4, x uint32, dst []uint64) ([]uint6
 		return nil, err
 	}
 	N := s.nx
+	s.index()
+	defer s.unindex()
 	var w [3][3]int64
 	s.heavyN = s.heavyN[:0]
+	s.heavyAt = s.heavyAt[:0]
 	for i, y := range N {
 		ny, err := v.node(y.node)
 		if err != nil {
@@ -260,6 +339,7 @@ func (q *Quads) derive(v view, s *readScratch4, x uint32, dst []uint64) ([]uint6
 		if ny.heavy {
 			s.heavyN = append(s.heavyN, i)
 		}
+		s.heavyAt = append(s.heavyAt, ny.heavy)
 	}
 	tri := q.orderedTri(nx)
 	l := &s.l
@@ -277,18 +357,18 @@ func (q *Quads) derive(v view, s *readScratch4, x uint32, dst []uint64) ([]uint6
 				return nil, err
 			}
 			for _, z := range s.lists[listFrom:] {
-				nz, err := v.node(z.node)
+				dz, err := v.deg(z.node)
 				if err != nil {
 					return nil, err
 				}
 				for b := range 3 {
-					wy[z.t-1][b] += nz.deg[b]
+					wy[z.t-1][b] += dz[b]
 				}
 				if z.node == x {
 					continue
 				}
 				s.wedges = append(s.wedges, wedge{z.node, (y.t-1)*3 + z.t - 1})
-				if tx := typeIn(N, z.node); tx != 0 {
+				if tx := s.typeAt(z.node); tx != 0 {
 					t9[(tx-1)*3+z.t-1]++
 					s.commons = append(s.commons, common{z.node, tx, z.t})
 				}
@@ -351,12 +431,16 @@ func (q *Quads) readCycles(v view, s *readScratch4, x uint32, n []int64) error {
 	N := s.nx
 	ws := s.wedges
 	slices.SortFunc(ws, func(a, b wedge) int { return cmpNode(a.z, b.z) })
+	// Group the wedges by z: groups[i] is z's counts by wedge type.
+	s.zs, s.groups = s.zs[:0], s.groups[:0]
 	for i := 0; i < len(ws); {
 		z := ws[i].z
 		var c [9]int64
 		for ; i < len(ws) && ws[i].z == z; i++ {
 			c[ws[i].beta]++
 		}
+		s.zs = append(s.zs, z)
+		s.groups = append(s.groups, c)
 		for b1, k1 := range c {
 			if k1 == 0 {
 				continue
@@ -371,25 +455,46 @@ func (q *Quads) readCycles(v view, s *readScratch4, x uint32, n []int64) error {
 				}
 			}
 		}
-		for _, j := range s.heavyN {
-			h := N[j]
-			if h.node == z {
-				continue
+	}
+	// One light and one heavy middle: each z of a group joined to a heavy
+	// neighbour h of x, found by testing every z against h or, when h has
+	// fewer neighbours than there are groups, by looking h's neighbours
+	// up among the groups.
+	lh := func(h typed, z uint32, tz uint8, c *[9]int64) {
+		if h.node == z || tz == 0 {
+			return
+		}
+		g := (h.t-1)*3 + tz - 1
+		for b1, k1 := range c {
+			if k1 != 0 {
+				add(t.atTop[b1][g], k1)
+				add(t.atTop[g][b1], k1)
 			}
+		}
+	}
+	for _, j := range s.heavyN {
+		h := N[j]
+		nh, err := v.node(h.node)
+		if err != nil {
+			return err
+		}
+		if degree(&triadRecord{deg: nh.deg})*8 < int64(len(s.zs)) {
+			if s.hlist, err = v.neighbours(h.node, s.hlist[:0]); err != nil {
+				return err
+			}
+			for _, z := range s.hlist {
+				if i, ok := slices.BinarySearch(s.zs, z.node); ok {
+					lh(h, z.node, z.t, &s.groups[i])
+				}
+			}
+			continue
+		}
+		for i, z := range s.zs {
 			tz, err := v.linked(h.node, z)
 			if err != nil {
 				return err
 			}
-			if tz == 0 {
-				continue
-			}
-			g := (h.t-1)*3 + tz - 1
-			for b1, k1 := range c {
-				if k1 != 0 {
-					add(t.atTop[b1][g], k1)
-					add(t.atTop[g][b1], k1)
-				}
-			}
+			lh(h, z, tz, &s.groups[i])
 		}
 	}
 	for _, i := range s.heavyN {
@@ -428,18 +533,15 @@ func (q *Quads) readDiamonds(v view, s *readScratch4, x uint32, n []int64) error
 	eq := q.eq
 	N := s.nx
 	addN := func(o int, k int64) { n[o] += k }
-	isHeavy := func(z uint32) bool {
-		nz, _ := v.node(z)
-		return nz.heavy
-	}
 	for i, p := range N {
 		r := s.commonAt[i]
-		if r[0] == r[1] || isHeavy(p.node) {
+		if r[0] == r[1] || s.heavyAt[i] {
 			continue
 		}
 		listP := s.lists[s.listAt[i][0]:s.listAt[i][1]]
 		for _, c := range s.commons[r[0]:r[1]] {
-			qHeavy := isHeavy(c.z)
+			j := s.at(c.z)
+			qHeavy := s.heavyAt[j]
 			if !qHeavy && c.z < p.node {
 				continue // found from c.z's side
 			}
@@ -447,7 +549,6 @@ func (q *Quads) readDiamonds(v view, s *readScratch4, x uint32, n []int64) error
 			var t9 tri9
 			var listQ []typed
 			if !qHeavy {
-				j, _ := slices.BinarySearchFunc(N, c.z, func(a typed, z uint32) int { return cmpNode(a.node, z) })
 				listQ = s.lists[s.listAt[j][0]:s.listAt[j][1]]
 			}
 			for _, wn := range listP {
@@ -472,10 +573,11 @@ func (q *Quads) readDiamonds(v view, s *readScratch4, x uint32, n []int64) error
 				}
 				// A K4 x, p, q, w when w is x's neighbour too; counted
 				// once, with p the least light node and q < w.
-				tw := typeIn(N, wn.node)
-				if tw == 0 || c.z > wn.node || (!isHeavy(wn.node) && wn.node < p.node) {
+				k := s.at(wn.node)
+				if k < 0 || c.z > wn.node || (!s.heavyAt[k] && wn.node < p.node) {
 					continue
 				}
+				tw := N[k].t
 				typ := cliqueTypes([6]uint8{p.t, c.tx, tw, c.ty, wn.t, tq})
 				eq.cliqueForms(&typ, 0, func(o int) { n[o]++ })
 			}
