@@ -40,6 +40,9 @@ func TestCatalogJSONNumbering(t *testing.T) {
 				if o.Numbering != want.Numbering || o.Source != want.Source {
 					t.Errorf("%s orbit %d: JSON numbering %q source %q, catalog %q %q", c.kind, o.ID, o.Numbering, o.Source, want.Numbering, want.Source)
 				}
+				if o.Short != want.Short || o.Short == "" {
+					t.Errorf("%s orbit %d: JSON short name %q, catalog %q", c.kind, o.ID, o.Short, want.Short)
+				}
 				switch o.Numbering {
 				case "published":
 					if o.Source == "" {
