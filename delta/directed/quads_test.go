@@ -1,6 +1,7 @@
 package directed
 
 import (
+	"fmt"
 	"math/rand/v2"
 	"testing"
 
@@ -161,6 +162,51 @@ func TestQuadsAllocateNothing(t *testing.T) {
 		allocs := churnAllocs(t, q, g, sample, 1000)
 		if allocs != 0 {
 			t.Errorf("%.2f allocations per delete and insert (graph updates included)", allocs)
+		}
+	}
+}
+
+// TestQuadsConcurrentReads: reads may run concurrently with each other
+// (delta.Counter); four goroutines reading every node agree with one.
+func TestQuadsConcurrentReads(t *testing.T) {
+	arcs, _, _ := hubScenario(9)
+	g := delta.NewGraph(delta.Directed)
+	q := NewQuads(16)
+	if err := insertAll(q, g, arcs[:6000]); err != nil {
+		t.Fatal(err)
+	}
+	n := uint32(g.NumNodes())
+	want := make([][]uint64, n)
+	for x := range n {
+		v, err := q.Vector(x, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want[x] = v
+	}
+	errs := make(chan error, 4)
+	for w := range uint32(4) {
+		go func() {
+			var buf []uint64
+			var err error
+			for x := w; x < n; x += 4 {
+				if buf, err = q.Vector(x, buf); err != nil {
+					errs <- err
+					return
+				}
+				for o := range buf {
+					if buf[o] != want[x][o] {
+						errs <- fmt.Errorf("node %d orbit %d: %d concurrently, %d alone", x, o, buf[o], want[x][o])
+						return
+					}
+				}
+			}
+			errs <- nil
+		}()
+	}
+	for range 4 {
+		if err := <-errs; err != nil {
+			t.Fatal(err)
 		}
 	}
 }
