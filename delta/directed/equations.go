@@ -108,8 +108,10 @@ type equations struct {
 	slot [numFamilies][]int16
 	// order lists orbit ids densest first (by underlying edges, then id).
 	order []int
-	// byFamily[f] lists the orbits of family f in id order.
+	// byFamily[f] lists the orbits of family f in id order; terms[f]
+	// their prepared formulas for the families localPatterns evaluates.
 	byFamily [numFamilies][]int
+	terms    [numFamilies][]term
 	diag     []int64
 	// col[o′] lists the rows o ≠ o′ with A[o][o′] ≠ 0.
 	col [][]entry
@@ -270,6 +272,7 @@ func buildEquations(k int) *equations {
 		}
 	}
 	if k == 4 {
+		eq.buildTerms()
 		eq.cycles = buildCycleTables(eq)
 		eq.credited = append(append([]int(nil), eq.byFamily[fDiamondDeg2]...), eq.byFamily[fClique]...)
 	}

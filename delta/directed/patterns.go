@@ -100,6 +100,48 @@ func (eq *equations) localPatterns(n []int64, l *local, four bool) {
 		return
 	}
 	d, w, tri := &l.d, &l.w, &l.tri
+	for _, t := range eq.terms[fStarCentre] {
+		n[t.o] += d[t.A] * (d[t.B] - t.k1) * (d[t.C] - t.k2)
+	}
+	for _, t := range eq.terms[fStarLeaf] {
+		n[t.o] += l.leaf[t.A][t.B][t.C] - t.k2*w[t.A][t.B] - t.k1*w[t.A][t.C] + t.k1*t.k2*d[t.A]
+	}
+	for _, t := range eq.terms[fPathEnd4] {
+		n[t.o] += l.q[t.A][t.B][t.C] - t.k1*d[t.A]*d[t.C] - t.k2*(w[t.A][t.B]-t.k1*d[t.A]) - tri[t.A][t.B][t.CR]
+	}
+	for _, t := range eq.terms[fPathMid4] {
+		n[t.o] += (d[t.A]-t.k1)*(w[t.B][t.C]-t.k2*d[t.B]) - tri[t.B][t.C][t.A]
+	}
+	if l.anyPend {
+		for _, t := range eq.terms[fTailEnd] {
+			n[t.o] += l.pend[t.A][t.B][t.C][t.E] - t.k1*tri[t.A][t.E][t.C] - t.k2*tri[t.A][t.B][t.CR]
+		}
+	}
+	if !l.hasTri {
+		return // x in no triangle: the rest are zero
+	}
+	for _, t := range eq.terms[fTailDeg3] {
+		n[t.o] += tri[t.B][t.C][t.E] * (d[t.A] - t.k1)
+	}
+	for _, t := range eq.terms[fTailDeg2] {
+		n[t.o] += l.v[t.A][t.B][t.C][t.E] - t.k1*tri[t.A][t.C][t.B]
+	}
+	for _, t := range eq.terms[fDiamondDeg3] {
+		n[t.o] += l.dd3[t.A][t.B*3+t.C][t.E*3+t.F] - t.k1*tri[t.A][t.C][t.B]
+	}
+}
+
+// term is one 4-node orbit's pattern formula in localPatterns, prepared:
+// its parameters as indices (t−1), CR = rev(c)−1, and the 0/1 (or 0–2)
+// correction factors k1, k2 of its family.
+type term struct {
+	o                 int
+	A, B, C, E, F, CR uint8
+	k1, k2            int64
+}
+
+// buildTerms prepares the terms of every family localPatterns evaluates.
+func (eq *equations) buildTerms() {
 	is := func(ok bool) int64 {
 		if ok {
 			return 1
@@ -107,41 +149,33 @@ func (eq *equations) localPatterns(n []int64, l *local, four bool) {
 		return 0
 	}
 	for f := fStarCentre; f <= fDiamondDeg3; f++ {
-		switch {
-		case f == fCycle:
+		if f == fCycle {
 			continue
-		case f == fTailEnd && !l.anyPend:
-			continue // no neighbour in a triangle
-		case f >= fTailDeg3 && !l.hasTri:
-			continue // x in no triangle
 		}
 		for _, o := range eq.byFamily[f] {
-			p := &eq.patterns[o].params
-			a, b, c, e := p[0], p[1], p[2], p[3]
+			p := eq.patterns[o].params
+			a, b, c, e, ff := p[0], p[1], p[2], p[3], p[4]
 			ar := rev(a)
-			A, B, C, E := a-1, b-1, c-1, e-1
-			var v int64
+			t := term{o: o, A: a - 1, B: b - 1, C: c - 1, E: e - 1, F: ff - 1, CR: rev(c) - 1}
 			switch f {
 			case fStarCentre:
-				v = d[A] * (d[B] - is(b == a)) * (d[C] - is(c == a) - is(c == b))
+				t.k1, t.k2 = is(b == a), is(c == a)+is(c == b)
 			case fStarLeaf:
-				e1, e2 := is(b == ar), is(c == ar)+is(c == b)
-				v = l.leaf[A][B][C] - e2*w[A][B] - e1*w[A][C] + e1*e2*d[A]
+				t.k1, t.k2 = is(b == ar), is(c == ar)+is(c == b)
 			case fPathEnd4:
-				v = l.q[A][B][C] - is(b == ar)*d[A]*d[C] - is(c == rev(b))*(w[A][B]-is(b == ar)*d[A]) - tri[A][B][rev(c)-1]
+				t.k1, t.k2 = is(b == ar), is(c == rev(b))
 			case fPathMid4:
-				v = (d[A]-is(a == b))*(w[B][C]-is(c == rev(b))*d[B]) - tri[B][C][A]
+				t.k1, t.k2 = is(a == b), is(c == rev(b))
 			case fTailEnd:
-				v = l.pend[A][B][C][E] - is(b == ar)*tri[A][E][C] - is(e == ar)*tri[A][B][rev(c)-1]
+				t.k1, t.k2 = is(b == ar), is(e == ar)
 			case fTailDeg3:
-				v = tri[B][C][E] * (d[A] - is(a == b) - is(a == e))
+				t.k1 = is(a == b) + is(a == e)
 			case fTailDeg2:
-				v = l.v[A][B][C][E] - (is(e == ar)+is(e == c))*tri[A][C][B]
+				t.k1 = is(e == ar) + is(e == c)
 			case fDiamondDeg3:
-				F := p[4] - 1
-				v = l.dd3[A][B*3+C][E*3+F] - is(b == e && c == p[4])*tri[A][C][B]
+				t.k1 = is(b == e && c == ff)
 			}
-			n[o] += v
+			eq.terms[f] = append(eq.terms[f], t)
 		}
 	}
 }
@@ -154,27 +188,32 @@ func (eq *equations) localPatterns(n []int64, l *local, four bool) {
 // less one when n is such a w; likewise for (q, p). Only canonical forms
 // are added (equations.slot), so each tuple is counted once.
 func (eq *equations) diamondForms(np, nq, pq uint8, t *tri9, add func(o int, k int64)) {
+	slots := eq.slot[fDiamondDeg2]
 	pn, qn := rev(np), rev(nq)
-	for e := uint8(1); e <= 3; e++ {
-		for f := uint8(1); f <= 3; f++ {
-			k := int64(t[(e-1)*3+f-1])
-			if e == pn && f == qn {
-				k--
-			}
-			if k > 0 {
-				if o := eq.slotOf(fDiamondDeg2, np, nq, pq, e, f); o >= 0 {
-					add(o, k)
-				}
-			}
-			k = int64(t[(f-1)*3+e-1])
-			if e == qn && f == pn {
-				k--
-			}
-			if k > 0 {
-				if o := eq.slotOf(fDiamondDeg2, nq, np, rev(pq), e, f); o >= 0 {
-					add(o, k)
-				}
-			}
+	// Parameter tuples (np, nq, pq, e, f) and (nq, np, p̄q, e, f) by
+	// their base-3 index (paramIndex): the first three digits are fixed.
+	pqBase := int(np-1) + 3*int(nq-1) + 9*int(pq-1)
+	qpBase := int(nq-1) + 3*int(np-1) + 9*int(rev(pq)-1)
+	for i, c := range t {
+		if c == 0 {
+			continue
+		}
+		// c nodes w with type(p,w) = e, type(q,w) = f: tuples (n, p, q, w)
+		// of the first form and (n, q, p, w) of the second, with e and f
+		// swapped; n itself is one of them when e = p̄n and f = q̄n.
+		e, f := i/3, i%3
+		k := int64(c)
+		if uint8(e+1) == pn && uint8(f+1) == qn {
+			k--
+		}
+		if k == 0 {
+			continue
+		}
+		if o := slots[pqBase+27*e+81*f]; o >= 0 {
+			add(int(o), k)
+		}
+		if o := slots[qpBase+27*f+81*e]; o >= 0 {
+			add(int(o), k)
 		}
 	}
 }

@@ -198,58 +198,46 @@ func (st *state) credit(x uint32, o int, v uint64) {
 	}
 }
 
-// diamondsAndCliques visits every triangle once more, now that every
-// edge's typed triangle count is known. For each of its nodes n and each
-// order (p, q) of the other two it credits the diamonds with n at a
-// degree-2 node: per type pair (e, f), tri(p,q)[e][f] nodes w joined to p
-// and q, less n itself. A K4 x < y < z′ < z is found at the triangle x, y,
-// z as the earlier triangle x, y, z′ with z′ joined to z; each of its
-// nodes is credited once per ordering of the other three that is its
-// orbit's canonical form.
+// diamondsAndCliques credits, at every node n, its diamonds with n at a
+// degree-2 node and its K4s, now that every edge's typed triangle count
+// is known. Each node walks its own triangles n, p, q (p < q, found by
+// intersecting n's row with p's upper part) and writes only its own row,
+// so a hub's credits need no atomics: for each order (p, q), per type
+// pair (e, f), tri(p,q)[e][f] nodes w joined to p and q, less n itself;
+// and for each r > q in that intersection joined to q, the K4 n, p, q, r,
+// once per ordering of p, q, r that is its orbit's canonical form. The
+// work is Σ over edges np of the smaller of the two intersected lists
+// (binary searches into the longer).
 func (st *state) diamondsAndCliques() {
 	s := st.s
-	type earlier struct {
-		z    uint32
-		p, q int
-	}
-	lists := make([][]earlier, workers())
-	forEachNode(s.numNodes(), func(wk int, x uint32) {
-		zs := lists[wk][:0]
-		last := -1
-		s.forEachTriangle(x, func(i, p, q int) {
-			y, z := s.adj[i], s.adj[p]
-			xy, xz, yz := s.typ[i], s.typ[p], s.typ[q]
-			st.diamondAt(x, xy, xz, yz, &st.edge[q])
-			st.diamondAt(y, rev(xy), yz, xz, &st.edge[p])
-			st.diamondAt(z, rev(xz), rev(yz), xy, &st.edge[i])
-			if i != last {
-				zs, last = zs[:0], i
-			}
-			for _, e := range zs {
-				if k := s.find(e.z, z); k >= 0 {
-					st.clique([4]uint32{x, y, e.z, z}, [6]uint8{xy, s.typ[e.p], xz, s.typ[e.q], yz, s.typ[k]})
+	common := make([][]int, workers()) // entries of the q in p's row
+	forEachNode(s.numNodes(), func(wk int, n uint32) {
+		row := st.vec.Row(s.orig[n])
+		add := func(o int, k int64) { row[o] += uint64(k) }
+		touched := false
+		cs := common[wk]
+		for i := s.off[n]; i < s.off[n+1]; i++ {
+			p := s.adj[i]
+			cs = s.intersectAbove(n, i, p, cs[:0])
+			for a, jq := range cs {
+				q := s.adj[jq]
+				np, nq, pq := s.typ[i], s.typeOf(n, q), s.typ[jq]
+				st.eq.diamondForms(np, nq, pq, &st.edge[jq], add)
+				touched = true
+				for _, jr := range cs[a+1:] {
+					r := s.adj[jr]
+					if k := s.find(q, r); k >= 0 {
+						typ := cliqueTypes([6]uint8{np, nq, s.typeOf(n, r), pq, s.typ[jr], s.typ[k]})
+						st.eq.cliqueForms(&typ, 0, func(o int) { row[o]++ })
+					}
 				}
 			}
-			zs = append(zs, earlier{z, p, q})
-		})
-		lists[wk] = zs
+		}
+		common[wk] = cs
+		if touched {
+			st.credited[n] = 1
+		}
 	})
-}
-
-// diamondAt credits the diamonds at apex n of the triangle n, p, q
-// (equations.diamondForms).
-func (st *state) diamondAt(n uint32, np, nq, pq uint8, t *tri9) {
-	st.eq.diamondForms(np, nq, pq, t, func(o int, k int64) { st.credit(n, o, uint64(k)) })
-}
-
-// clique credits the K4 on nodes v with pair types t of (0,1), (0,2),
-// (0,3), (1,2), (1,3), (2,3) seen from the first node of each pair, at
-// each of its nodes.
-func (st *state) clique(v [4]uint32, t [6]uint8) {
-	typ := cliqueTypes(t)
-	for root := range 4 {
-		st.eq.cliqueForms(&typ, root, func(o int) { st.credit(v[root], o, 1) })
-	}
 }
 
 // solveScratch is one worker's buffer for solveNode.
@@ -268,7 +256,7 @@ func (st *state) solveNode(sc *solveScratch, x uint32) error {
 	clear(n)
 	// Only the diamond (degree-2) and K4 slots were credited in the row,
 	// and only in rows marked.
-	if atomic.LoadUint32(&st.credited[x]) != 0 {
+	if st.credited[x] != 0 {
 		for _, o := range st.eq.credited {
 			n[o] = int64(row[o])
 			if n[o] < 0 {

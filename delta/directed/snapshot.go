@@ -148,3 +148,47 @@ func (s *snapshot) forEachWedgeBelow(x uint32, f func(y, z uint32, a, b uint8)) 
 		}
 	}
 }
+
+// typeOf returns the type of the pair (x, y) seen from x; they must be
+// joined.
+func (s *snapshot) typeOf(x, y uint32) uint8 { return s.typ[s.find(x, y)] }
+
+// intersectAbove appends to dst the entries, in p's row, of the common
+// neighbours q > p of n and p, where i is p's entry in n's row: the rest
+// of n's row after i against p's upper part, by a merge when they are of
+// like length, else by binary searches of the shorter in the longer.
+func (s *snapshot) intersectAbove(n uint32, i int, p uint32, dst []int) []int {
+	a := s.adj[i+1 : s.off[n+1]]
+	lo, hi := s.up[p], s.off[p+1]
+	b := s.adj[lo:hi]
+	switch {
+	case len(a) == 0 || len(b) == 0:
+	case len(a) > 16*len(b):
+		for j, q := range b {
+			if _, ok := slices.BinarySearch(a, q); ok {
+				dst = append(dst, lo+j)
+			}
+		}
+	case len(b) > 16*len(a):
+		for _, q := range a {
+			if j, ok := slices.BinarySearch(b, q); ok {
+				dst = append(dst, lo+j)
+			}
+		}
+	default:
+		x, y := 0, 0
+		for x < len(a) && y < len(b) {
+			switch {
+			case a[x] < b[y]:
+				x++
+			case a[x] > b[y]:
+				y++
+			default:
+				dst = append(dst, lo+y)
+				x++
+				y++
+			}
+		}
+	}
+	return dst
+}
