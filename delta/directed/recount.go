@@ -57,9 +57,10 @@ type state struct {
 	// cyc holds each worker's 4-cycle counts (cycles.go).
 	cyc []*cycleScratch
 	// hasTri[x]: x is in a triangle; credited[x] ≠ 0: x's output row
-	// holds credits. Both let solveNode skip work and untouched memory.
+	// holds diamond or K4 credits. Both let solveNode skip work and
+	// untouched memory.
 	hasTri   []bool
-	credited []uint32
+	credited []uint8
 }
 
 // Recount returns every node's orbit vector. g must be Directed with no
@@ -83,7 +84,7 @@ func (r *recounter) newState(g *delta.Graph) *state {
 		panic(fmt.Sprintf("directed: degree %d above 2^20, counts could overflow int64", s.off[n]-s.off[n-1]))
 	}
 	st := &state{s: s, k: r.k, eq: r.eq, vec: delta.NewVectors(n, r.eq.cat.NumOrbits()), tri: make([][3][3][3]int64, n), w: make([][3][3]int64, n),
-		hasTri: make([]bool, n), credited: make([]uint32, n)}
+		hasTri: make([]bool, n), credited: make([]uint8, n)}
 	if r.k == 4 {
 		st.edge = make([]tri9, len(s.adj))
 	}
@@ -189,14 +190,6 @@ func (st *state) mirror() {
 	})
 }
 
-// credit adds v to node x's pattern count of orbit o (a slot of the output
-// row, read back by solveNode).
-func (st *state) credit(x uint32, o int, v uint64) {
-	atomic.AddUint64(&st.vec.Row(st.s.orig[x])[o], v)
-	if atomic.LoadUint32(&st.credited[x]) == 0 {
-		atomic.StoreUint32(&st.credited[x], 1)
-	}
-}
 
 // diamondsAndCliques credits, at every node n, its diamonds with n at a
 // degree-2 node and its K4s, now that every edge's typed triangle count
