@@ -190,7 +190,6 @@ func (st *state) mirror() {
 	})
 }
 
-
 // diamondsAndCliques credits, at every node n, its diamonds with n at a
 // degree-2 node and its K4s, now that every edge's typed triangle count
 // is known. Each node walks its own triangles n, p, q (p < q, found by
