@@ -194,3 +194,47 @@ func TestTriadsDeriveNextToHub(t *testing.T) {
 		t.Fatalf("Derive of a payer with %d neighbours read adjacency of %v and %d records", d, src.adjacent, src.records)
 	}
 }
+
+// TestWrongCountersAreCaught shows the comparison the hub tests rely on
+// can fail: a Triads whose triangle table swaps two orbits, and a Quads
+// whose heavy node's degree sums are off by one, disagree with the
+// recount somewhere on a small payments graph.
+func TestWrongCountersAreCaught(t *testing.T) {
+	arcs, hub := withMerchant(baArcs(300, 2, 11, 0.1), 300, 200, 12)
+	differs := func(c delta.Counter, g *delta.Graph) bool {
+		want := NewRecounter(c.MaxNodes()).Recount(g)
+		for x := range uint32(g.NumNodes()) {
+			got, err := c.Vector(x, nil)
+			if err != nil {
+				return true
+			}
+			for o, v := range got {
+				if v != want.Get(x, o) {
+					return true
+				}
+			}
+		}
+		return false
+	}
+	tri := NewTriads()
+	tri.triIndex[0][0][0], tri.triIndex[0][0][1] = tri.triIndex[0][0][1], tri.triIndex[0][0][0]
+	g := delta.NewGraph(delta.Directed)
+	if err := insertAll(tri, g, arcs); err != nil {
+		t.Fatal(err)
+	}
+	if !differs(tri, g) {
+		t.Error("a Triads with two triangle orbits swapped agrees with the recount")
+	}
+	q := NewQuads(32)
+	g = delta.NewGraph(delta.Directed)
+	if err := insertAll(q, g, arcs); err != nil {
+		t.Fatal(err)
+	}
+	if differs(q, g) {
+		t.Fatal("the unbroken Quads disagrees with the recount")
+	}
+	q.heavy[hub].w[tIn-1][0]++
+	if !differs(q, g) {
+		t.Error("a Quads with a wrong heavy degree sum agrees with the recount")
+	}
+}
