@@ -195,7 +195,7 @@ func (m memView) node(x uint32) (*quadNode, error) {
 		n.deg, n.tri = r.deg, r.tri
 	}
 	if h := m.q.heavy[x]; h != nil {
-		n.heavy, n.w, n.pair = true, h.w, h.pair
+		n.heavy, n.wl, n.heavyN, n.pair = true, h.wl, m.q.heavyN[x], h.pair
 	}
 	return n, nil
 }
@@ -283,6 +283,22 @@ func (q *Quads) orderedTri(n *quadNode) (tri [3][3][3]int64) {
 		}
 	}
 	return tri
+}
+
+// heavySums returns a heavy node's neighbour degree sums: its light
+// neighbours' from its record, its heavy neighbours' from theirs.
+func heavySums(v view, n *quadNode) ([3][3]int64, error) {
+	w := n.wl
+	for _, h := range n.heavyN {
+		dh, err := v.deg(h.node)
+		if err != nil {
+			return w, err
+		}
+		for b := range 3 {
+			w[h.t-1][b] += dh[b]
+		}
+	}
+	return w, nil
 }
 
 // typeIn returns type(x, z) from x's sorted typed neighbours (0: none).
@@ -374,12 +390,16 @@ func (q *Quads) derive(v view, s *readScratch4, x uint32, dst []uint64) ([]uint6
 				}
 			}
 		case nx.heavy:
-			wy = ny.w
+			if wy, err = heavySums(v, ny); err != nil {
+				return nil, err
+			}
 			if row := nx.pair[y.node]; row != nil {
 				t9 = *row
 			}
 		default:
-			wy = ny.w
+			if wy, err = heavySums(v, ny); err != nil {
+				return nil, err
+			}
 			for _, z := range N {
 				if z.node == y.node {
 					continue

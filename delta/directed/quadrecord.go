@@ -11,9 +11,11 @@ import (
 // Record formats of Quads, after a leading uvarint tag:
 //
 //	light (tag 0): the 18 counts of a Triads record (3 degrees, 15 triangle counts)
-//	heavy (tag 1): the same, the 9 degree sums w[a][b], the number of
-//	               codegree rows, and per row the partner's id (as the gap
-//	               from the previous partner's) and its 9 counts
+//	heavy (tag 1): the same, the 9 light degree sums wl[a][b], the number
+//	               of heavy neighbours and per neighbour its id (as the gap
+//	               from the previous one's) and type, the number of
+//	               codegree rows, and per row the partner's id (as a gap)
+//	               and its 9 counts
 //
 // all as uvarints. A light node with all counts zero appends nothing.
 const (
@@ -45,10 +47,18 @@ func (q *Quads) AppendRecord(dst []byte, x uint32) []byte {
 	if h == nil {
 		return dst
 	}
-	for _, row := range h.w {
+	for _, row := range h.wl {
 		for _, v := range row {
 			dst = binary.AppendUvarint(dst, uint64(v))
 		}
+	}
+	hs := slices.SortedFunc(slices.Values(q.heavyN[x]), func(a, b typed) int { return cmpNode(a.node, b.node) })
+	dst = binary.AppendUvarint(dst, uint64(len(hs)))
+	prev := uint32(0)
+	for _, h := range hs {
+		dst = binary.AppendUvarint(dst, uint64(h.node-prev))
+		dst = binary.AppendUvarint(dst, uint64(h.t))
+		prev = h.node
 	}
 	partners := make([]uint32, 0, len(h.pair))
 	for p := range h.pair {
@@ -56,7 +66,7 @@ func (q *Quads) AppendRecord(dst []byte, x uint32) []byte {
 	}
 	slices.Sort(partners)
 	dst = binary.AppendUvarint(dst, uint64(len(partners)))
-	prev := uint32(0)
+	prev = 0
 	for _, p := range partners {
 		dst = binary.AppendUvarint(dst, uint64(p-prev))
 		prev = p
@@ -67,13 +77,16 @@ func (q *Quads) AppendRecord(dst []byte, x uint32) []byte {
 	return dst
 }
 
-// quadNode is a decoded record: what a read needs of a node.
+// quadNode is a decoded record: what a read needs of a node. For a heavy
+// node: its light neighbours' degree sums, its heavy neighbours with
+// type(x, h), and its codegree rows.
 type quadNode struct {
-	deg   [3]int64
-	tri   [numTriOrbits]int64
-	heavy bool
-	w     [3][3]int64
-	pair  map[uint32]*tri9 // heavy only
+	deg    [3]int64
+	tri    [numTriOrbits]int64
+	heavy  bool
+	wl     [3][3]int64
+	heavyN []typed
+	pair   map[uint32]*tri9
 }
 
 // decoder reads uvarints off a record, remembering the first error.
@@ -115,16 +128,26 @@ func decodeQuad(b []byte, n *quadNode, withPairs bool) error {
 	}
 	if tag == tagHeavy {
 		n.heavy = true
-		for a := range n.w {
-			for b := range n.w[a] {
-				n.w[a][b] = int64(d.next("degree sum", maxCount))
+		for a := range n.wl {
+			for b := range n.wl[a] {
+				n.wl[a][b] = int64(d.next("degree sum", maxCount))
 			}
+		}
+		hs := d.next("heavy neighbour count", 1<<32)
+		h := uint64(0)
+		for i := uint64(0); i < hs && d.err == nil; i++ {
+			h += d.next("heavy neighbour", 1<<32)
+			t := d.next("heavy neighbour type", tBoth)
+			if h >= 1<<32 || t == 0 {
+				d.err = fmt.Errorf("heavy neighbour %d of type %d out of range", h, t)
+			}
+			n.heavyN = append(n.heavyN, typed{uint32(h), uint8(t)})
 		}
 		if withPairs {
 			rows := d.next("row count", 1<<32)
-			n.pair = make(map[uint32]*tri9, rows)
+			n.pair = make(map[uint32]*tri9, min(rows, 1<<16))
 			p := uint64(0)
-			for range rows {
+			for i := uint64(0); i < rows && d.err == nil; i++ {
 				p += d.next("partner", 1<<32)
 				row := &tri9{}
 				for i := range row {
@@ -159,6 +182,7 @@ func (q *Quads) Restore(g *delta.Graph, src delta.Source) error {
 	q.t.g = g
 	q.grow(g.NumNodes())
 	var n quadNode
+	stored := map[uint32][]typed{} // heavy nodes' heavy neighbours as stored
 	for x := range uint32(g.NumNodes()) {
 		b, err := src.Record(x)
 		if err != nil {
@@ -175,7 +199,8 @@ func (q *Quads) Restore(g *delta.Graph, src delta.Source) error {
 			return fmt.Errorf("record of node %d: degrees %v, graph has %v", x, r.deg, want)
 		}
 		if n.heavy {
-			q.heavy[x] = &heavyNode{w: n.w, pair: n.pair}
+			q.heavy[x] = &heavyNode{wl: n.wl, pair: n.pair}
+			stored[x] = n.heavyN
 		}
 	}
 	// Rebuild the heavy-neighbour lists, then recount every heavy node's
@@ -187,12 +212,14 @@ func (q *Quads) Restore(g *delta.Graph, src delta.Source) error {
 		}
 	}
 	for h, hn := range q.heavy {
-		var w [3][3]int64
+		var wl [3][3]int64
 		pair := map[uint32]*tri9{}
 		q.t.nbrs = q.t.loadNeighbours(g, h, q.t.nbrs[:0])
 		for _, z := range q.t.nbrs {
-			for b := range 3 {
-				w[z.t-1][b] += q.t.recs[z.node].deg[b]
+			if q.heavy[z.node] == nil {
+				for b := range 3 {
+					wl[z.t-1][b] += q.t.recs[z.node].deg[b]
+				}
 			}
 			for _, h2 := range q.heavyN[z.node] {
 				if h2.node == h {
@@ -206,8 +233,12 @@ func (q *Quads) Restore(g *delta.Graph, src delta.Source) error {
 				row[(z.t-1)*3+rev(h2.t)-1]++
 			}
 		}
-		if w != hn.w {
-			return fmt.Errorf("record of heavy node %d: degree sums %v, graph gives %v", h, hn.w, w)
+		if wl != hn.wl {
+			return fmt.Errorf("record of heavy node %d: light degree sums %v, graph gives %v", h, hn.wl, wl)
+		}
+		want := slices.SortedFunc(slices.Values(q.heavyN[h]), func(a, b typed) int { return cmpNode(a.node, b.node) })
+		if !slices.Equal(want, stored[h]) {
+			return fmt.Errorf("record of heavy node %d: heavy neighbours %v, graph gives %v", h, stored[h], want)
 		}
 		if len(pair) != len(hn.pair) {
 			return fmt.Errorf("record of heavy node %d: %d codegree rows, graph gives %d", h, len(hn.pair), len(pair))

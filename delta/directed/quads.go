@@ -14,27 +14,31 @@ import (
 // the threshold does not flip back and forth.
 const DefaultHeavy = 128
 
-// heavyNode is what only a heavy node h keeps: its neighbour degree sums
-// w[a][b] = Σ_{type(h,z)=a} d_b(z), and its typed codegree with every
-// other heavy node it shares a neighbour with: pair[h2][p·3+q] counts the
-// z with type(h,z) = p+1 and type(h2,z) = q+1 (rows that fall to zero are
+// heavyNode is what only a heavy node h keeps: the degree sums of its
+// light neighbours wl[a][b] = Σ_{type(h,z)=a, z light} d_b(z) (its heavy
+// neighbours' degrees are added on read, so a hub's degree change moves
+// nothing here), and its typed codegree with every other heavy node it
+// shares a neighbour with: pair[h2][p·3+q] counts the z with
+// type(h,z) = p+1 and type(h2,z) = q+1 (rows that fall to zero are
 // dropped).
 type heavyNode struct {
-	w    [3][3]int64
+	wl   [3][3]int64
 	pair map[uint32]*tri9
 }
 
 // Quads counts the directed 2–4 node orbits (730) in factored form. Per
 // node it keeps what Triads keeps (typed degrees, triangles by orbit);
-// heavy nodes (degree ≥ θ) also keep their neighbour degree sums and
-// their typed codegrees with the other heavy nodes. Everything else —
+// heavy nodes (degree ≥ θ) also keep their light neighbours' degree sums,
+// their heavy neighbours, and their typed codegrees with the other heavy
+// nodes. Everything else —
 // paths, stars, tailed triangles, 4-cycles, diamonds, K4s — is derived on
 // read from a node's record, its neighbours' records and adjacency, and
 // the adjacency of its light neighbours (read.go).
 //
 // An arc event costs what it costs Triads plus a term per heavy neighbour
-// of either endpoint: no sum over a hub's neighbours is ever pushed to
-// them. A node turning heavy or light costs O(d·H) once. A read of x
+// of a light endpoint (and, for an arc between two heavy nodes, per heavy
+// neighbour of either): no sum over a hub's neighbours is ever pushed to
+// them, and a hub's own degree is in no stored sum. A node turning heavy or light costs O(d·H) once. A read of x
 // costs O(Σ over x's light neighbours y of d(y), times the number of x's
 // heavy neighbours) plus the triangles at x: small for a customer of a
 // merchant with a million customers; for the merchant itself, its
@@ -141,7 +145,7 @@ func (q *Quads) event(g *delta.Graph, u, v uint32, insert bool) error {
 // terms moves by sign the heavy quantities that involve the pair (u, v) of
 // type t (seen from u) or the degrees of u and v:
 //
-//	w(h) for every heavy neighbour h of u: the term type(h,u) ⊗ d(u); the same for v
+//	wl(h) for every heavy neighbour h of u when u is light: the term type(h,u) ⊗ d(u); the same for v
 //	pair(u, h2) for u heavy, h2 a heavy neighbour of v: the count of z = v
 //	pair(v, h2) for v heavy, h2 a heavy neighbour of u: the count of z = u
 //
@@ -151,17 +155,19 @@ func (q *Quads) terms(u, v uint32, t uint8, sign int64) {
 		x, other uint32
 		t        uint8
 	}{{u, v, t}, {v, u, rev(t)}} {
-		dx := &q.t.recs[e.x].deg
-		for _, h := range q.heavyN[e.x] {
-			hn := q.heavy[h.node]
-			a := rev(h.t) // type(h, x)
-			for b := range 3 {
-				hn.w[a-1][b] += sign * dx[b]
+		hx := q.heavy[e.x]
+		if hx == nil {
+			dx := &q.t.recs[e.x].deg
+			for _, h := range q.heavyN[e.x] {
+				hn := q.heavy[h.node]
+				a := rev(h.t) // type(h, x)
+				for b := range 3 {
+					hn.wl[a-1][b] += sign * dx[b]
+				}
+				q.t.mark(h.node)
 			}
-			q.t.mark(h.node)
 		}
 		// z = other, seen by the heavy x and the heavy neighbours of other.
-		hx := q.heavy[e.x]
 		if hx == nil || e.t == 0 {
 			continue
 		}
@@ -203,13 +209,20 @@ func (q *Quads) bumpPair(h1, h2 uint32, i uint8, sign int64) {
 }
 
 // relink brings the heavy-neighbour lists of u and v in line with the
-// pair's new type t (seen from u).
+// pair's new type t (seen from u). A heavy node's list is part of its
+// record.
 func (q *Quads) relink(u, v uint32, t uint8) {
 	if q.heavy[v] != nil {
 		q.heavyN[u] = setTyped(q.heavyN[u], v, t)
+		if q.heavy[u] != nil {
+			q.t.mark(u)
+		}
 	}
 	if q.heavy[u] != nil {
 		q.heavyN[v] = setTyped(q.heavyN[v], u, rev(t))
+		if q.heavy[v] != nil {
+			q.t.mark(v)
+		}
 	}
 }
 
@@ -272,20 +285,35 @@ func cmpNode(a, b uint32) int {
 	return 0
 }
 
-// makeHeavy gives x (with neighbours nbrs) its degree sums and codegrees
-// with the heavy nodes and lists it with its neighbours: O(d(x)·H).
+// makeHeavy gives x (with neighbours nbrs) its light neighbours' degree
+// sums and its codegrees with the heavy nodes, takes its degree out of its
+// heavy neighbours' sums, and lists it with its neighbours: O(d(x)·H).
 func (q *Quads) makeHeavy(nbrs []typed, x uint32) {
+	dx := &q.t.recs[x].deg
+	for _, h := range q.heavyN[x] {
+		hn := q.heavy[h.node]
+		for b := range 3 {
+			hn.wl[rev(h.t)-1][b] -= dx[b]
+		}
+	}
 	hx := &heavyNode{pair: map[uint32]*tri9{}}
+	for _, z := range nbrs {
+		if q.heavy[z.node] == nil {
+			dz := &q.t.recs[z.node].deg
+			for b := range 3 {
+				hx.wl[z.t-1][b] += dz[b]
+			}
+		}
+	}
 	q.heavy[x] = hx
 	for _, z := range nbrs {
-		dz := &q.t.recs[z.node].deg
-		for b := range 3 {
-			hx.w[z.t-1][b] += dz[b]
-		}
 		for _, h := range q.heavyN[z.node] {
 			q.addPair(x, h.node, z.t, rev(h.t), 1)
 		}
 		q.heavyN[z.node] = append(q.heavyN[z.node], typed{x, rev(z.t)})
+		if q.heavy[z.node] != nil {
+			q.t.mark(z.node)
+		}
 	}
 	q.t.mark(x)
 }
@@ -294,12 +322,23 @@ func (q *Quads) makeHeavy(nbrs []typed, x uint32) {
 func (q *Quads) makeLight(nbrs []typed, x uint32) {
 	for _, z := range nbrs {
 		q.heavyN[z.node] = setTyped(q.heavyN[z.node], x, 0)
+		if q.heavy[z.node] != nil {
+			q.t.mark(z.node)
+		}
 	}
 	for h := range q.heavy[x].pair {
 		delete(q.heavy[h].pair, x)
 		q.t.mark(h)
 	}
 	delete(q.heavy, x)
+	dx := &q.t.recs[x].deg
+	for _, h := range q.heavyN[x] {
+		hn := q.heavy[h.node]
+		for b := range 3 {
+			hn.wl[rev(h.t)-1][b] += dx[b]
+		}
+		q.t.mark(h.node)
+	}
 	q.t.mark(x)
 }
 

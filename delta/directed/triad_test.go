@@ -197,7 +197,7 @@ func TestTriadsDeriveNextToHub(t *testing.T) {
 
 // TestWrongCountersAreCaught shows the comparison the hub tests rely on
 // can fail: a Triads whose triangle table swaps two orbits, and a Quads
-// whose heavy node's degree sums are off by one, disagree with the
+// whose heavy node's light degree sums are off by one, disagree with the
 // recount somewhere on a small payments graph.
 func TestWrongCountersAreCaught(t *testing.T) {
 	arcs, hub := withMerchant(baArcs(300, 2, 11, 0.1), 300, 200, 12)
@@ -233,7 +233,7 @@ func TestWrongCountersAreCaught(t *testing.T) {
 	if differs(q, g) {
 		t.Fatal("the unbroken Quads disagrees with the recount")
 	}
-	q.heavy[hub].w[tIn-1][0]++
+	q.heavy[hub].wl[tIn-1][0]++
 	if !differs(q, g) {
 		t.Error("a Quads with a wrong heavy degree sum agrees with the recount")
 	}
