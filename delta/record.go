@@ -33,8 +33,9 @@ type Counter interface {
 
 	// Vector appends node x's exact orbit vector (NumOrbits counts) to
 	// dst[:0] and returns it. x must be a node of the graph the events
-	// built. The only error is a count that does not fit in a uint64
-	// (a *CountError): counts are never wrapped or clamped.
+	// built. The only errors are a count that does not fit in a uint64
+	// and, after a bug, a record that contradicts another: counts are
+	// never wrapped or clamped.
 	Vector(x uint32, dst []uint64) ([]uint64, error)
 
 	// Changed calls visit, in increasing id order, for every node whose

@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"io"
 	"net/http"
 	"net/url"
 	"slices"
@@ -14,6 +13,7 @@ import (
 	"sync"
 	"time"
 
+	"orbitwatch/delta"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
@@ -84,7 +84,7 @@ func NewAPI(v View, opts APIOptions) http.Handler {
 	if opts.Client == nil {
 		opts.Client = &http.Client{Timeout: opts.Timeout}
 	}
-	a := &api{v: v, opts: opts, kind: v.Counting().Catalog.Kind.String(), maxNodes: v.Counting().Catalog.MaxNodes}
+	a := &api{v: v, opts: opts, kind: v.Counting().Catalog.Kind.String(), maxNodes: v.Counting().Catalog.MaxNodes, derive: v.Counting().New()}
 	v.SetObserver(opts.Metrics)
 	mux := http.NewServeMux()
 	mux.HandleFunc("/v1/nodes/{id...}", a.get(a.node))
@@ -110,6 +110,7 @@ type api struct {
 	opts     APIOptions
 	kind     string
 	maxNodes int
+	derive   delta.Counter // for as-of reads: only Derive is used
 }
 
 // get admits GET and HEAD only.
@@ -155,43 +156,29 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusBadRequest, "give at or seq, not both")
 		return
 	}
-	var rep ReadReply
-	switch {
-	case q.Has("seq"):
+	req := ReadRequest{Node: id}
+	if q.Has("seq") {
 		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
-		if err != nil {
+		if err != nil || seq == 0 {
 			writeError(w, http.StatusBadRequest, fmt.Sprintf("seq %q: not a sequence number", q.Get("seq")))
 			return
 		}
-		self, _ := a.v.Shard()
-		if owner := a.v.Owner(id); owner != self {
-			a.forwardHTTP(w, r, owner, id, "")
-			return
-		}
-		rep = readStore(a.v.Store(), a.kind, a.maxNodes, self, id, time.Time{}, seq)
-	default:
-		req := ReadRequest{Node: id}
-		if q.Has("at") {
-			at, err := stream.ParseTime(q.Get("at"))
-			if err != nil {
-				writeError(w, http.StatusBadRequest, fmt.Sprintf("at %q: %v", q.Get("at"), err))
-				return
-			}
-			req.At = at
-		}
-		ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
-		defer cancel()
-		var err error
-		rep, err = a.v.Read(ctx, req)
+		req.Seq = seq
+	}
+	if q.Has("at") {
+		at, err := stream.ParseTime(q.Get("at"))
 		if err != nil {
-			owner := a.v.Owner(id)
-			status := http.StatusBadGateway
-			if errors.Is(err, context.DeadlineExceeded) {
-				status = http.StatusGatewayTimeout
-			}
-			writeError(w, status, fmt.Sprintf("node %q: shard %d did not answer: %v", id, owner, err))
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("at %q: %v", q.Get("at"), err))
 			return
 		}
+		req.At = at
+	}
+	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+	defer cancel()
+	rep, err := a.v.Read(ctx, req)
+	if err != nil {
+		writeError(w, http.StatusInternalServerError, fmt.Sprintf("node %q: %v", id, err))
+		return
 	}
 	w.Header().Set(ShardHeader, strconv.Itoa(rep.Shard))
 	if rep.Status != http.StatusOK {
@@ -210,120 +197,13 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 	writeJSON(w, http.StatusOK, body)
 }
 
-// forwardHTTP relays a node read (suffix "" or a sub-resource such as
-// "/history") to the owner shard's API (from Peers) and copies its answer
-// back.
-func (a *api) forwardHTTP(w http.ResponseWriter, r *http.Request, owner int, id, suffix string) {
-	if owner >= len(a.opts.Peers) || a.opts.Peers[owner] == "" {
-		writeError(w, http.StatusNotImplemented, fmt.Sprintf("node %q is on shard %d, whose API address is not configured: reads by seq are forwarded over HTTP only (ask shard %d, or use at)", id, owner, owner))
-		return
-	}
-	if r.Header.Get(ShardHeader) != "" {
-		writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("node %q was forwarded here but shard %d owns it: the shards disagree on the shard count", id, owner))
-		return
-	}
-	u, err := url.JoinPath(a.opts.Peers[owner], "/v1/nodes/", escapeID(id)+suffix)
-	if err != nil {
-		writeError(w, http.StatusInternalServerError, fmt.Sprintf("address of shard %d: %v", owner, err))
-		return
-	}
-	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
-	defer cancel()
-	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?"+r.URL.RawQuery, nil)
-	if err != nil {
-		writeError(w, http.StatusInternalServerError, fmt.Sprintf("request to shard %d: %v", owner, err))
-		return
-	}
-	self, _ := a.v.Shard()
-	req.Header.Set(ShardHeader, strconv.Itoa(self))
-	resp, err := a.opts.Client.Do(req)
-	if err != nil {
-		status := http.StatusBadGateway
-		if errors.Is(err, context.DeadlineExceeded) {
-			status = http.StatusGatewayTimeout
-		}
-		writeError(w, status, fmt.Sprintf("node %q: shard %d did not answer: %v", id, owner, err))
-		return
-	}
-	defer resp.Body.Close()
-	body, err := io.ReadAll(io.LimitReader(resp.Body, maxForwardBody))
-	if err != nil {
-		writeError(w, http.StatusBadGateway, fmt.Sprintf("node %q: reading shard %d's answer: %v", id, owner, err))
-		return
-	}
-	w.Header().Set("Content-Type", resp.Header.Get("Content-Type"))
-	w.Header().Set(ShardHeader, resp.Header.Get(ShardHeader))
-	w.WriteHeader(resp.StatusCode)
-	w.Write(body)
-}
-
-// escapeID escapes a node id as one path segment. url.PathEscape leaves
-// the ids "." and ".." as they are, which path cleaning would then remove
-// (with a redirect); their dots are escaped too.
-func escapeID(id string) string {
-	if id == "." || id == ".." {
-		return strings.ReplaceAll(id, ".", "%2E")
-	}
-	return url.PathEscape(id)
-}
-
-// maxForwardBody bounds a relayed answer: a 730-orbit vector of 20-digit
-// counts is under 16 KiB.
-const maxForwardBody = 1 << 20
-
-// readStore reads node from st as the owner shard does: as of the latest
-// cut with event-time watermark ≤ at when at is not zero, else as of the
-// latest cut ≤ seq. The reply's Status is 200, 404 (unknown node, no such
-// cut), 410 (before the retained history) or 500. Kind and maxNodes label
-// the reply.
-func readStore(st *storage.Store, kind string, maxNodes, shard int, node string, at time.Time, seq uint64) ReadReply {
-	rep := ReadReply{Node: node, Kind: kind, MaxNodes: maxNodes, Shard: shard}
-	if !at.IsZero() {
-		s, ok := st.SeqAtTime(at)
-		switch {
-		case !ok && s > 0:
-			rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", at.Format(time.RFC3339Nano), s, st.Floor())
-			return rep
-		case !ok:
-			rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", at.Format(time.RFC3339Nano))
-			return rep
-		}
-		seq = s
-	}
-	vec, cut, wm, err := st.VectorAt(node, seq)
-	switch {
-	case err == nil:
-		rep.Status, rep.Seq, rep.EventTime, rep.Orbits = http.StatusOK, cut, wm, vec
-	case errors.Is(err, storage.ErrUnknownNode):
-		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", node, cutOrSeq(st, seq))
-	case errors.Is(err, storage.ErrNoCheckpoint):
-		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut at or before seq %d", seq)
-	case errors.Is(err, storage.ErrRetention):
-		rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("seq %d is before the retained history (floor %d)", seq, st.Floor())
-	default:
-		rep.Status, rep.Error = http.StatusInternalServerError, err.Error()
-	}
-	return rep
-}
-
-// cutOrSeq returns the latest retained checkpoint ≤ seq, or seq when there
-// is none, for messages.
-func cutOrSeq(st *storage.Store, seq uint64) uint64 {
-	cps := st.Checkpoints()
-	for i := len(cps) - 1; i >= 0; i-- {
-		if cps[i].Seq <= seq {
-			return cps[i].Seq
-		}
-	}
-	return seq
-}
-
 // shardJSON is one shard's line of /v1/status.
 type shardJSON struct {
 	Shard         int               `json:"shard"`
 	Shards        int               `json:"shards"`
 	AppliedSeq    uint64            `json:"applied_seq"`
 	CutSeq        uint64            `json:"cut_seq"`
+	CommittedSeq  uint64            `json:"committed_seq"`
 	StreamLastSeq uint64            `json:"stream_last_seq"`
 	Lag           uint64            `json:"lag"`
 	Ready         bool              `json:"ready"`
@@ -332,7 +212,9 @@ type shardJSON struct {
 	Rejected      map[string]uint64 `json:"rejected"`
 	Watermark     *time.Time        `json:"watermark"`
 	StartedAt     *time.Time        `json:"started_at"`
-	CutAt         *time.Time        `json:"cut_at"`
+	CommittedAt   *time.Time        `json:"committed_at"`
+	// AlertsPublished counts the alerts this worker published.
+	AlertsPublished uint64 `json:"alerts_published"`
 	// Error is set, and the rest empty, when a peer did not answer.
 	Error string `json:"error,omitempty"`
 }
@@ -359,10 +241,11 @@ func shardOf(s Status) shardJSON {
 		rej = map[string]uint64{}
 	}
 	return shardJSON{
-		Shard: s.Shard, Shards: s.Shards, AppliedSeq: s.AppliedSeq, CutSeq: s.CutSeq,
+		Shard: s.Shard, Shards: s.Shards, AppliedSeq: s.AppliedSeq, CutSeq: s.CutSeq, CommittedSeq: s.CommittedSeq,
 		StreamLastSeq: s.StreamLastSeq, Lag: s.Lag, Ready: s.Ready,
 		Applied: s.Applied, Expired: s.Expired, Rejected: rej,
-		Watermark: optTime(s.Watermark), StartedAt: optTime(s.StartedAt), CutAt: optTime(s.CutAt),
+		Watermark: optTime(s.Watermark), StartedAt: optTime(s.StartedAt), CommittedAt: optTime(s.CommittedAt),
+		AlertsPublished: s.AlertsPublished,
 	}
 }
 
@@ -441,10 +324,10 @@ func (a *api) healthz(w http.ResponseWriter, r *http.Request) {
 func (a *api) readyz(w http.ResponseWriter, r *http.Request) {
 	s := a.v.Status()
 	if !s.Ready {
-		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: cut %d, log at %d (lag %d)", s.CutSeq, s.StreamLastSeq, s.Lag))
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: applied up to %d, log at %d (lag %d)", s.AppliedSeq, s.StreamLastSeq, s.Lag))
 		return
 	}
-	writeJSON(w, http.StatusOK, map[string]any{"ready": true, "cut_seq": s.CutSeq, "lag": s.Lag})
+	writeJSON(w, http.StatusOK, map[string]any{"ready": true, "applied_seq": s.AppliedSeq, "lag": s.Lag})
 }
 
 func (a *api) metrics(w http.ResponseWriter, r *http.Request) {
@@ -524,11 +407,6 @@ func (a *api) history(w http.ResponseWriter, r *http.Request) {
 	if !ok {
 		return
 	}
-	self, _ := a.v.Shard()
-	if owner := a.v.Owner(id); owner != self {
-		a.forwardHTTP(w, r, owner, id, "/history")
-		return
-	}
 	st := a.v.Store()
 	var from, to time.Time
 	for _, k := range []string{"from", "to"} {
@@ -557,47 +435,20 @@ func (a *api) history(w http.ResponseWriter, r *http.Request) {
 		s, _ := st.SeqAtTime(to)
 		toSeq = s
 	}
-	if _, _, _, err := st.VectorAt(id, st.Seq()); errors.Is(err, storage.ErrUnknownNode) || errors.Is(err, storage.ErrNoCheckpoint) {
-		writeError(w, http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", id, st.Seq()))
+	vs, err := History(st, a.derive, id, fromSeq, toSeq, limit)
+	switch {
+	case errors.Is(err, storage.ErrUnknownNode), errors.Is(err, storage.ErrNoCheckpoint):
+		writeError(w, http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", id, toSeq))
 		return
-	}
-	vs, err := st.History(id, fromSeq, toSeq)
-	if err != nil {
+	case err != nil:
 		writeError(w, http.StatusInternalServerError, err.Error())
 		return
 	}
-	kept := vs[:0]
-	for i, v := range vs {
-		if v.Changed || i == len(vs)-1 {
-			kept = append(kept, v)
-		}
-	}
-	out := historyJSON{Node: id, Kind: a.kind, MaxNodes: a.maxNodes, Versions: make([]versionJSON, 0, min(len(kept), limit))}
-	for _, i := range thin(len(kept), limit) {
-		k := kept[i]
-		out.Versions = append(out.Versions, versionJSON{Seq: k.Seq, EventTime: optTime(k.Watermark), Orbits: k.Vector})
+	out := historyJSON{Node: id, Kind: a.kind, MaxNodes: a.maxNodes, Versions: make([]versionJSON, 0, len(vs))}
+	for _, v := range vs {
+		out.Versions = append(out.Versions, versionJSON{Seq: v.Seq, EventTime: optTime(v.Watermark), Orbits: v.Vector})
 	}
 	writeJSON(w, http.StatusOK, out)
-}
-
-// thin returns at most limit indices of 0..n−1, evenly spread, the first
-// and the last always among them.
-func thin(n, limit int) []int {
-	if n <= limit {
-		out := make([]int, n)
-		for i := range out {
-			out[i] = i
-		}
-		return out
-	}
-	out := make([]int, 0, limit)
-	if limit == 1 {
-		return append(out, n-1)
-	}
-	for i := range limit {
-		out = append(out, i*(n-1)/(limit-1))
-	}
-	return out
 }
 
 func (a *api) neighbors(w http.ResponseWriter, r *http.Request) {

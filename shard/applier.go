@@ -3,6 +3,7 @@ package shard
 import (
 	"errors"
 	"fmt"
+	"slices"
 	"time"
 
 	"orbitwatch/delta"
@@ -26,76 +27,77 @@ type Reject struct {
 func (r *Reject) Error() string { return fmt.Sprintf("seq %d: %v", r.Seq, r.Reason) }
 func (r *Reject) Unwrap() error { return r.Reason }
 
-// Applier applies edge events in log order and keeps every node's orbit
-// vector exact. It is not safe for concurrent use.
+// Cuts says where the state is committed: at every event-time boundary
+// (a multiple of Every since the Unix epoch, UTC) the watermark crosses,
+// and after every log position that is a multiple of Lines. Both are
+// functions of the log alone, so a log gives the same cuts however it
+// arrives. Zero values switch a rule off.
+type Cuts struct {
+	Every time.Duration
+	Lines uint64
+}
+
+// DefaultCutEvery is the event-time spacing of cuts unless a command says
+// otherwise; the README's performance section shows how it was chosen.
+const DefaultCutEvery = time.Hour
+
+// Applier applies edge events in log order to the graph and the counter's
+// records, and hands a Checkpoint of what changed to OnCut at every cut.
+// It is not safe for concurrent use.
 type Applier struct {
-	count  *Counting
-	graph  *delta.Graph
-	vec    *delta.Vectors
-	dict   *storage.Dict
-	window *window
-	edges  [][2]uint32 // pairs whose multiplicity changed since ResetTouched
+	count   *Counting
+	counter delta.Counter // nil: the graph alone (commands that recount)
+	graph   *delta.Graph
+	dict    *storage.Dict
+	window  *window
+	cuts    Cuts
+	// OnCut, when set, receives every cut as it is taken: the applier's
+	// state is then exactly the cut's (an event that crosses a boundary is
+	// applied after OnCut returns). An error stops the applier.
+	OnCut func(cp *storage.Checkpoint) error
 
 	seq       uint64
 	watermark time.Time
-
-	touchMark []uint32 // touchMark[x] == touchEpoch when x was touched since the last Touched reset
-	touched   []uint32
-	epoch     uint32
+	lastCut   uint64
+	named     int         // dictionary entries already in a cut
+	pairs     [][2]uint32 // pairs whose multiplicity changed since the last cut
+	records   []byte      // the last cut's records, reused
 	fault     error
 
 	applied, expired uint64
 	rejected         map[string]uint64
-	emit             delta.Emit
-
-	// computes, when set, says which simple-graph changes this applier
-	// computes orbit changes for (the others only change the graph).
-	computes func(u, v uint32) bool
 }
 
-// NewApplier returns an applier over an empty graph. A window of zero
-// keeps every edge until it is removed.
-func NewApplier(c *Counting, win time.Duration) *Applier {
+// NewApplier returns an applier over an empty graph with c's counter (nil
+// c.New: the graph alone). A window of zero keeps every edge until it is
+// removed.
+func NewApplier(c *Counting, win time.Duration, cuts Cuts) *Applier {
 	a := &Applier{
 		count:    c,
 		graph:    delta.NewGraph(c.Catalog.Kind),
-		vec:      delta.NewVectors(0, c.Catalog.NumOrbits()),
 		dict:     storage.NewDict(),
+		cuts:     cuts,
 		rejected: make(map[string]uint64),
-		epoch:    1,
+	}
+	if c.New != nil {
+		a.counter = c.New()
 	}
 	if win > 0 {
 		a.window = newWindow(win, c.Catalog.Kind)
 	}
-	a.emit = a.add
 	return a
-}
-
-func (a *Applier) add(x uint32, o int, d int64) {
-	if a.fault != nil {
-		return
-	}
-	if err := a.vec.Add(x, o, d); err != nil {
-		a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
-		return
-	}
-	if a.touchMark[x] != a.epoch {
-		a.touchMark[x] = a.epoch
-		a.touched = append(a.touched, x)
-	}
 }
 
 // Apply applies the event at log position seq (seqs must increase). A
 // rejected event returns a *Reject and changes nothing. Any other error is
-// an invariant violation: the applier's state is no longer trustworthy and
-// the caller must stop.
+// an invariant violation or a refusal of OnCut: the applier's state is no
+// longer trustworthy and the caller must stop.
 func (a *Applier) Apply(seq uint64, ev stream.Event) error {
-	a.advance(seq, "Apply")
-	if a.fault != nil {
-		return a.fault
+	if err := a.before(seq, ev); err != nil {
+		return err
 	}
 	if a.window != nil && !ev.HasTS {
-		return a.rejectWith(ev, ErrNoTime)
+		return a.after(a.rejectWith(ev, ErrNoTime))
 	}
 	// Time passes with every event that carries it, accepted or not: the
 	// expiries it makes due are applied before the event is judged.
@@ -108,16 +110,16 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 		}
 	}
 	if err := a.check(ev); err != nil {
-		return a.rejectWith(ev, err)
+		return a.after(a.rejectWith(ev, err))
 	}
 	u, v := a.intern(ev.Src), a.intern(ev.Dst)
 	var err error
 	if ev.Op == stream.OpAdd {
-		err = a.increment(u, v)
+		err = a.increment(u, v, ev.Neg)
 		if errors.Is(err, delta.ErrMultiplicity) {
 			// Only a present edge can overflow, so both nodes were known
 			// and interning changed nothing: the event is simply refused.
-			return a.rejectWith(ev, err)
+			return a.after(a.rejectWith(ev, err))
 		}
 		if err == nil && a.window != nil {
 			a.window.push(ev.TS.Add(a.window.width), seq, u, v)
@@ -132,23 +134,67 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 		return err
 	}
 	a.applied++
-	return a.fault
+	return a.after(nil)
 }
 
 // RejectLine uses up log position seq for a line that did not decode to an
 // event: it changes nothing but the position and the count of rejects by
 // reason.
-func (a *Applier) RejectLine(seq uint64, reason string) {
-	a.advance(seq, "RejectLine")
+func (a *Applier) RejectLine(seq uint64, reason string) error {
+	if err := a.before(seq, stream.Event{}); err != nil {
+		return err
+	}
 	a.rejected[reason]++
+	return a.after(nil)
 }
 
-// advance moves the log position to seq, which must be past it.
-func (a *Applier) advance(seq uint64, caller string) {
+// Pass uses up log position seq for a log message that is not an event (a
+// control message): it changes nothing but the position.
+func (a *Applier) Pass(seq uint64) error {
+	if err := a.before(seq, stream.Event{}); err != nil {
+		return err
+	}
+	return a.after(nil)
+}
+
+// before takes the cut an event-time boundary makes due (the state up to
+// the previous position) and moves the log position to seq.
+func (a *Applier) before(seq uint64, ev stream.Event) error {
 	if seq <= a.seq {
-		panic("shard: " + caller + " with a sequence that does not increase")
+		panic("shard: an applier was given a sequence that does not increase")
+	}
+	if a.fault != nil {
+		return a.fault
+	}
+	if a.cuts.Every > 0 && ev.HasTS && a.seq > a.lastCut && !a.watermark.IsZero() && !ev.TS.Before(nextBoundary(a.watermark, a.cuts.Every)) {
+		if err := a.Cut(); err != nil {
+			return err
+		}
 	}
 	a.seq = seq
+	return nil
+}
+
+// after takes the cut a log-position multiple makes due, then returns err
+// (a rejection) unless the cut failed.
+func (a *Applier) after(err error) error {
+	if a.cuts.Lines > 0 && a.seq%a.cuts.Lines == 0 {
+		if cerr := a.Cut(); cerr != nil {
+			return cerr
+		}
+	}
+	return err
+}
+
+// nextBoundary returns the first multiple of every (from the Unix epoch)
+// after t.
+func nextBoundary(t time.Time, every time.Duration) time.Time {
+	n := t.UnixNano()
+	q := n / int64(every)
+	if n < 0 && n%int64(every) != 0 {
+		q--
+	}
+	return time.Unix(0, (q+1)*int64(every)).UTC()
 }
 
 func (a *Applier) rejectWith(ev stream.Event, err error) error {
@@ -174,58 +220,31 @@ func (a *Applier) check(ev stream.Event) error {
 	return nil
 }
 
-// Route makes the applier a shard worker's: it computes the orbit changes
-// only of simple-graph changes {u,v} with computes(u, v) true and hands
-// them to emit instead of adding them to its own vectors; every event still
-// changes the graph and the dictionary. The owner's side adds the changes
-// it receives with AddDelta. Call Route before the first Apply.
-func (a *Applier) Route(computes func(u, v uint32) bool, emit delta.Emit) {
-	if computes == nil || emit == nil {
-		panic("shard: Route needs both a partition and an emit")
-	}
-	a.computes, a.emit = computes, emit
-}
-
-// AddDelta adds d to count (x, o) and marks x touched: a routed orbit
-// change arriving at the node's owner. x must be a known node. An error is
-// an invariant violation (a count leaving the uint64 range): the caller
-// must stop.
-func (a *Applier) AddDelta(x uint32, o int, d int64) error {
-	if int(x) >= a.dict.Len() {
-		return fmt.Errorf("seq %d: orbit change for node %d, only %d known", a.seq, x, a.dict.Len())
-	}
-	a.add(x, o, d)
-	return a.fault
-}
-
-// Pass uses up log position seq for a log message that is not an event (a
-// control message): it changes nothing but the position.
-func (a *Applier) Pass(seq uint64) { a.advance(seq, "Pass") }
-
-// computesEdge reports whether this applier computes the change of {u,v}.
-func (a *Applier) computesEdge(u, v uint32) bool {
-	return a.computes == nil || a.computes(u, v)
-}
-
-func (a *Applier) increment(u, v uint32) error {
-	if !a.graph.HasEdge(u, v) && a.computesEdge(u, v) {
-		a.count.Engine.Insert(a.graph, u, v, a.emit)
+func (a *Applier) increment(u, v uint32, neg bool) error {
+	if !a.graph.HasEdge(u, v) && a.counter != nil {
+		if err := a.counter.Insert(a.graph, u, v, neg); err != nil {
+			a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
+			return a.fault
+		}
 	}
 	if _, err := a.graph.Increment(u, v); err != nil {
 		return err
 	}
-	a.edges = append(a.edges, [2]uint32{u, v})
+	a.pairs = append(a.pairs, [2]uint32{u, v})
 	return nil
 }
 
 func (a *Applier) decrement(u, v uint32) error {
-	if a.graph.Multiplicity(u, v) == 1 && a.computesEdge(u, v) {
-		a.count.Engine.Delete(a.graph, u, v, a.emit)
+	if a.graph.Multiplicity(u, v) == 1 && a.counter != nil {
+		if err := a.counter.Delete(a.graph, u, v); err != nil {
+			a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
+			return a.fault
+		}
 	}
 	if _, err := a.graph.Decrement(u, v); err != nil {
 		return err
 	}
-	a.edges = append(a.edges, [2]uint32{u, v})
+	a.pairs = append(a.pairs, [2]uint32{u, v})
 	return nil
 }
 
@@ -234,15 +253,12 @@ func (a *Applier) expire() error {
 	for {
 		e, ok := a.window.pop(a.watermark)
 		if !ok {
-			return a.fault
+			return nil
 		}
 		if err := a.decrement(e.u, e.v); err != nil {
 			return fmt.Errorf("seq %d: window expiry of add at seq %d: %w", a.seq, e.seq, err)
 		}
 		a.expired++
-		if a.fault != nil {
-			return a.fault
-		}
 	}
 }
 
@@ -250,14 +266,99 @@ func (a *Applier) intern(id string) uint32 {
 	x, isNew := a.dict.Intern(id)
 	if isNew {
 		a.graph.Grow(a.dict.Len())
-		a.vec.Grow(a.dict.Len())
-		a.touchMark = append(a.touchMark, 0)
 	}
 	return x
 }
 
+// Cut hands OnCut the state change since the last cut as a Checkpoint at
+// the current position (nothing when the position has not moved since).
+// Commands call it at the end of their input.
+func (a *Applier) Cut() error {
+	if a.seq == a.lastCut {
+		return nil
+	}
+	cp := a.checkpoint()
+	a.lastCut = a.seq
+	if a.OnCut == nil {
+		return nil
+	}
+	if err := a.OnCut(cp); err != nil {
+		a.fault = err
+		return err
+	}
+	return nil
+}
+
+// checkpoint takes the change since the last cut out of the live state:
+// the new names, the changed pairs with their multiplicity now, the
+// changed records, and the window's keyed changes. Nothing in it aliases
+// state the applier will change.
+func (a *Applier) checkpoint() *storage.Checkpoint {
+	cp := &storage.Checkpoint{Seq: a.seq, Watermark: a.watermark, Names: a.dict.From(a.named), Blobs: map[string][]byte{}}
+	a.named = a.dict.Len()
+	undirected := a.graph.Kind() != delta.Directed
+	for i, e := range a.pairs {
+		if undirected && e[0] > e[1] {
+			a.pairs[i] = [2]uint32{e[1], e[0]}
+		}
+	}
+	slices.SortFunc(a.pairs, func(x, y [2]uint32) int {
+		if x[0] != y[0] {
+			return int(x[0]) - int(y[0])
+		}
+		return int(x[1]) - int(y[1])
+	})
+	a.pairs = slices.Compact(a.pairs)
+	cp.Edges = make([]storage.EdgeChange, len(a.pairs))
+	for i, e := range a.pairs {
+		cp.Edges[i] = storage.EdgeChange{U: e[0], V: e[1], Mult: a.graph.Multiplicity(e[0], e[1])}
+	}
+	a.pairs = a.pairs[:0]
+	if a.counter != nil {
+		// One buffer holds every record of the cut; it is new for each
+		// cut because the writer may still hold the last one's.
+		var buf []byte
+		var ends []int
+		var nodes []uint32
+		a.counter.Changed(func(x uint32) {
+			buf = a.counter.AppendRecord(buf, x)
+			ends = append(ends, len(buf))
+			nodes = append(nodes, x)
+		})
+		cp.Records = make([]storage.RecordChange, len(nodes))
+		from := 0
+		for i, x := range nodes {
+			cp.Records[i] = storage.RecordChange{Node: x, Data: buf[from:ends[i]:ends[i]]}
+			from = ends[i]
+		}
+	}
+	if a.window != nil {
+		cp.Keyed = lastPerKey(a.window.takeChanges())
+	}
+	return cp
+}
+
+// lastPerKey keeps the last change of every key, in first-appearance
+// order.
+func lastPerKey(ch []storage.KeyedChange) []storage.KeyedChange {
+	last := make(map[string]int, len(ch))
+	for i, k := range ch {
+		last[k.Key] = i
+	}
+	out := ch[:0]
+	for i, k := range ch {
+		if last[k.Key] == i {
+			out = append(out, k)
+		}
+	}
+	return out
+}
+
 // Seq returns the last log position applied (accepted or rejected).
 func (a *Applier) Seq() uint64 { return a.seq }
+
+// LastCut returns the position of the last cut taken.
+func (a *Applier) LastCut() uint64 { return a.lastCut }
 
 // Watermark returns the largest event time seen.
 func (a *Applier) Watermark() time.Time { return a.watermark }
@@ -265,20 +366,34 @@ func (a *Applier) Watermark() time.Time { return a.watermark }
 // Graph returns the current simple graph with multiplicities.
 func (a *Applier) Graph() *delta.Graph { return a.graph }
 
-// Vectors returns the current orbit vectors.
-func (a *Applier) Vectors() *delta.Vectors { return a.vec }
+// Counter returns the counter (nil for the graph alone).
+func (a *Applier) Counter() delta.Counter { return a.counter }
 
 // Counting returns the counters in use.
 func (a *Applier) Counting() *Counting { return a.count }
 
-// Names returns node names by dense id, in order of first appearance.
-func (a *Applier) Names() []string {
-	names := make([]string, a.dict.Len())
-	for i := range names {
-		names[i] = a.dict.Name(uint32(i))
-	}
-	return names
+// Vector appends node x's current orbit vector to dst[:0]. The applier
+// must have a counter.
+func (a *Applier) Vector(x uint32, dst []uint64) ([]uint64, error) {
+	return a.counter.Vector(x, dst)
 }
+
+// Vectors returns every node's current orbit vector, by dense id.
+func (a *Applier) Vectors() (*delta.Vectors, error) {
+	v := delta.NewVectors(a.dict.Len(), a.count.Catalog.NumOrbits())
+	var buf []uint64
+	for x := range uint32(a.dict.Len()) {
+		var err error
+		if buf, err = a.counter.Vector(x, buf); err != nil {
+			return nil, err
+		}
+		copy(v.Row(x), buf)
+	}
+	return v, nil
+}
+
+// Names returns node names by dense id, in order of first appearance.
+func (a *Applier) Names() []string { return a.dict.From(0) }
 
 // Dict returns the node dictionary.
 func (a *Applier) Dict() *storage.Dict { return a.dict }
@@ -286,19 +401,12 @@ func (a *Applier) Dict() *storage.Dict { return a.dict }
 // Lookup returns the dense id of a node name.
 func (a *Applier) Lookup(id string) (uint32, bool) { return a.dict.Lookup(id) }
 
-// ChangedEdges returns the pairs whose multiplicity changed since the last
-// ResetTouched (with repeats).
-func (a *Applier) ChangedEdges() [][2]uint32 { return a.edges }
-
-// Touched returns the nodes whose vectors changed since the last
-// ResetTouched, in order of first change.
-func (a *Applier) Touched() []uint32 { return a.touched }
-
-// ResetTouched starts a new touched set.
-func (a *Applier) ResetTouched() {
-	a.touched = a.touched[:0]
-	a.edges = a.edges[:0]
-	a.epoch++
+// PendingExpiries returns the number of adds waiting for the window.
+func (a *Applier) PendingExpiries() int {
+	if a.window == nil {
+		return 0
+	}
+	return a.window.pending()
 }
 
 // Stats are the applier's counters.

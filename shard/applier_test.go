@@ -23,13 +23,23 @@ func mustCounting(t *testing.T, kind delta.Kind, k int) *Counting {
 
 var t0 = time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
 
+// mustVectors returns a's current vectors.
+func mustVectors(t testing.TB, a *Applier) *delta.Vectors {
+	t.Helper()
+	v, err := a.Vectors()
+	if err != nil {
+		t.Fatal(err)
+	}
+	return v
+}
+
 func ev(op stream.Op, src, dst string, ts time.Duration) stream.Event {
 	return stream.Event{Op: op, Src: src, Dst: dst, TS: t0.Add(ts), HasTS: true}
 }
 
 func TestApplierRejectsChangeNothing(t *testing.T) {
 	for _, kind := range []delta.Kind{delta.Undirected, delta.Directed} {
-		a := NewApplier(mustCounting(t, kind, 3), 0)
+		a := NewApplier(mustCounting(t, kind, 3), 0, Cuts{})
 		steps := []struct {
 			e    stream.Event
 			want error
@@ -43,7 +53,7 @@ func TestApplierRejectsChangeNothing(t *testing.T) {
 			{ev(stream.OpRemove, "a", "b", 0), nil},
 		}
 		for i, s := range steps {
-			before := a.Vectors().Clone()
+			before := mustVectors(t, a)
 			nodes := len(a.Names())
 			err := a.Apply(uint64(i+1), s.e)
 			if s.want == nil {
@@ -56,7 +66,7 @@ func TestApplierRejectsChangeNothing(t *testing.T) {
 			if !errors.As(err, &rj) || !errors.Is(err, s.want) || rj.Seq != uint64(i+1) {
 				t.Fatalf("%v step %d: got %v, want reject %v", kind, i, err, s.want)
 			}
-			if !a.Vectors().Equal(before) || len(a.Names()) != nodes {
+			if !mustVectors(t, a).Equal(before) || len(a.Names()) != nodes {
 				t.Fatalf("%v step %d: a rejected event changed state", kind, i)
 			}
 		}
@@ -64,7 +74,7 @@ func TestApplierRejectsChangeNothing(t *testing.T) {
 		// remains, so b is the middle of a 3-path (orbit 2 undirected).
 		if kind == delta.Undirected {
 			b, _ := a.Lookup("b")
-			if got := a.Vectors().Get(b, 2); got != 1 {
+			if got := mustVectors(t, a).Get(b, 2); got != 1 {
 				t.Fatalf("b middle of 3-path = %d, want 1", got)
 			}
 		}
@@ -99,8 +109,8 @@ func TestWindowEqualsExplicitRemoves(t *testing.T) {
 					log = append(log, ev(op, fmt.Sprint("n", u), fmt.Sprint("n", v), ts))
 				}
 				c := mustCounting(t, kind, 3)
-				win := NewApplier(c, W)
-				plain := NewApplier(mustCounting(t, kind, 3), 0)
+				win := NewApplier(c, W, Cuts{})
+				plain := NewApplier(mustCounting(t, kind, 3), 0, Cuts{})
 				explicit, lateWant := explicitExpiries(log, W, kind)
 				late := 0
 				pi := 0
@@ -118,7 +128,7 @@ func TestWindowEqualsExplicitRemoves(t *testing.T) {
 							t.Fatal(err)
 						}
 					}
-					if err := sameState(win, plain); err != nil {
+					if err := sameState(t, win, plain); err != nil {
 						t.Fatalf("after log line %d: %v", i+1, err)
 					}
 				}
@@ -209,13 +219,14 @@ func explicitExpiries(log []stream.Event, w time.Duration, kind delta.Kind) ([]p
 
 // sameState compares two appliers by node name: same edges with the same
 // multiplicities and the same vectors.
-func sameState(a, b *Applier) error {
+func sameState(t testing.TB, a, b *Applier) error {
+	va, vb := mustVectors(t, a), mustVectors(t, b)
 	for x, name := range a.Names() {
 		y, ok := b.Lookup(name)
 		if !ok {
 			return fmt.Errorf("node %q missing from the explicit replay", name)
 		}
-		ra, rb := a.Vectors().Row(uint32(x)), b.Vectors().Row(y)
+		ra, rb := va.Row(uint32(x)), vb.Row(y)
 		for o := range ra {
 			if ra[o] != rb[o] {
 				return fmt.Errorf("node %q orbit %d: windowed %d, explicit %d", name, o, ra[o], rb[o])

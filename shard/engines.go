@@ -5,22 +5,30 @@ import (
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
+	"orbitwatch/delta/factored"
+	"orbitwatch/delta/five"
 	"orbitwatch/delta/generic"
 	"orbitwatch/delta/undirected"
 )
 
 // Counting is the choice of counters for one graph kind and graphlet size:
-// the catalog that names the orbits, the incremental engine, and the
-// separate static recount that verifies it.
+// the catalog that names the orbits, the record-keeping counter every
+// product path uses, and the separate static recount that verifies it.
 type Counting struct {
 	Catalog *catalog.Catalog
-	Engine  delta.Engine
+	// New returns a fresh, empty counter (delta.Counter); each applier
+	// owns one.
+	New func() delta.Counter
+	// Recount computes every vector from scratch by a separate code path.
 	Recount delta.Recounter
 }
 
-// NewCounting picks the counters for kind and maxNodes: the specialised
-// combinatorial counters for undirected graphlets of up to 4 nodes, the
-// generic halo enumerator for everything else.
+// NewCounting picks the counters for kind and maxNodes: the factored
+// records of delta/factored for undirected graphlets of up to 4 nodes
+// (recounted by delta/undirected); for 5 nodes the vectors kept as records
+// and recounted combinatorially at a cut (delta/five); vectors kept as
+// records by the generic halo enumerator for the other kinds (recounted by
+// enumeration).
 func NewCounting(kind delta.Kind, maxNodes int) (*Counting, error) {
 	cat, err := catalog.New(kind, maxNodes)
 	if err != nil {
@@ -28,9 +36,11 @@ func NewCounting(kind delta.Kind, maxNodes int) (*Counting, error) {
 	}
 	switch {
 	case kind == delta.Undirected && maxNodes >= 3 && maxNodes <= 4:
-		return &Counting{cat, undirected.NewEngine(maxNodes), undirected.NewRecounter(maxNodes)}, nil
-	case kind == delta.Undirected && maxNodes == 5, kind == delta.Directed && maxNodes >= 3 && maxNodes <= 4:
-		return &Counting{cat, generic.NewEngine(cat), generic.NewRecounter(cat)}, nil
+		return &Counting{cat, func() delta.Counter { return factored.New(maxNodes) }, undirected.NewRecounter(maxNodes)}, nil
+	case kind == delta.Undirected && maxNodes == 5:
+		return &Counting{cat, func() delta.Counter { return five.New() }, five.NewRecounter(five.Options{})}, nil
+	case kind == delta.Directed && maxNodes >= 3 && maxNodes <= 4:
+		return &Counting{cat, func() delta.Counter { return delta.NewEager(generic.NewEngine(cat)) }, generic.NewRecounter(cat)}, nil
 	}
 	return nil, fmt.Errorf("%v graphlets of up to %d nodes are not supported (undirected: 3–5, directed: 3–4)", kind, maxNodes)
 }

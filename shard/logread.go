@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math/rand/v2"
-	"strconv"
 	"time"
 
 	"github.com/nats-io/nats.go"
@@ -14,26 +13,17 @@ import (
 	"orbitwatch/stream"
 )
 
-// Defaults for a deployment's names and batching.
+// Defaults for a deployment's names.
 const (
 	DefaultStream  = "ORBITWATCH"
 	DefaultSubject = "orbitwatch.events"
-	// DefaultBatch is the number of log positions per batch: batches end
-	// at every multiple of it (and at cut control messages).
-	DefaultBatch = 4096
-	// DefaultIdle is how long the log must be idle, with shard 0 caught
-	// up and a batch partly filled, before shard 0 asks for a cut.
-	DefaultIdle = 25 * time.Millisecond
-	// DefaultMaxDelay is how long a batch may stay open under a steady
-	// flow of events before shard 0 asks for a cut: it bounds how long an
-	// event waits to become visible when batches fill slowly.
-	DefaultMaxDelay = 250 * time.Millisecond
 )
 
-// Headers of the control and reject messages this package writes.
+// Headers of the control and reject messages this package reads and
+// writes.
 const (
-	// ControlHeader marks a log message that is not an event; its value
-	// says what it is. "cut" ends the current batch at its position.
+	// ControlHeader marks a log message that is not an event; it uses up
+	// its position and changes nothing.
 	ControlHeader = "Orbitwatch-Control"
 	// RejectReasonHeader and RejectSeqHeader go with a message republished
 	// on the rejects subject: why it was rejected and its log sequence.
@@ -41,17 +31,7 @@ const (
 	RejectSeqHeader    = "Orbitwatch-Reject-Seq"
 )
 
-// Metadata keys of the shuffle stream that fix a deployment's layout.
-const (
-	metaShards = "orbitwatch-shards"
-	metaBatch  = "orbitwatch-batch"
-)
-
-func shuffleStream(cfg *WorkerConfig) string { return cfg.Deployment + "_SHUFFLE" }
 func rejectsStream(cfg *WorkerConfig) string { return cfg.Deployment + "_REJECTS" }
-func shuffleSubject(cfg *WorkerConfig, owner int) string {
-	return cfg.Subject + "." + cfg.Deployment + ".shuffle." + strconv.Itoa(owner)
-}
 
 // RejectsSubject is where the workers of a deployment republish the log
 // messages they reject, with RejectReasonHeader and RejectSeqHeader: <log
@@ -61,36 +41,12 @@ func RejectsSubject(subject, deployment string) string {
 	return subject + "." + deployment + ".rejects"
 }
 
-// ensureStreams creates (or checks) the log stream, the shuffle stream and
-// the rejects stream. The shuffle stream records the shard count and the
-// batch size when it is created; a worker with other values is refused,
-// because the deltas of every batch must meet at the same owners.
+// ensureStreams creates (or checks) the log stream and the rejects stream
+// and returns the log's last sequence.
 func ensureStreams(ctx context.Context, js jetstream.JetStream, cfg *WorkerConfig) (last uint64, err error) {
 	log, err := stream.EnsureStream(ctx, js, cfg.Stream, cfg.Subject, cfg.Replicas)
 	if err != nil {
 		return 0, err
-	}
-	meta := map[string]string{metaShards: strconv.Itoa(cfg.Shards), metaBatch: strconv.FormatUint(cfg.Batch, 10)}
-	sc := jetstream.StreamConfig{
-		Name:       shuffleStream(cfg),
-		Subjects:   []string{cfg.Subject + "." + cfg.Deployment + ".shuffle.*"},
-		Storage:    jetstream.FileStorage,
-		Retention:  jetstream.LimitsPolicy,
-		Replicas:   cfg.Replicas,
-		Duplicates: stream.DefaultDuplicateWindow,
-		Metadata:   meta,
-	}
-	s, err := js.CreateStream(ctx, sc)
-	if errors.Is(err, jetstream.ErrStreamNameAlreadyInUse) {
-		s, err = js.Stream(ctx, sc.Name)
-	}
-	if err != nil {
-		return 0, fmt.Errorf("shuffle stream %s: %w", sc.Name, err)
-	}
-	have := s.CachedInfo().Config.Metadata
-	if have[metaShards] != meta[metaShards] || have[metaBatch] != meta[metaBatch] {
-		return 0, fmt.Errorf("deployment %s was created for %s shards with batches of %s; this worker has --shards %d and batch %d: the shard count of a deployment is fixed (start a new deployment name to change it)",
-			cfg.Deployment, have[metaShards], have[metaBatch], cfg.Shards, cfg.Batch)
 	}
 	if _, err := stream.EnsureStream(ctx, js, rejectsStream(cfg), RejectsSubject(cfg.Subject, cfg.Deployment), cfg.Replicas); err != nil {
 		return 0, err

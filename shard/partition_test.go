@@ -1,7 +1,6 @@
 package shard
 
 import (
-	"encoding/binary"
 	"hash/fnv"
 	"testing"
 )
@@ -24,38 +23,5 @@ func TestOwnerOfIsFNV1a(t *testing.T) {
 				t.Fatalf("OwnerOf(%q, %d) = %d, want %d", id, n, got, want)
 			}
 		}
-	}
-}
-
-func TestEdgeShard(t *testing.T) {
-	for _, p := range [][2]string{{"a", "b"}, {"acct-1", "shop-2"}, {"ab", "c"}, {"a", "bc"}} {
-		h := fnv.New64a()
-		lo, hi := min(p[0], p[1]), max(p[0], p[1])
-		var l [4]byte
-		binary.LittleEndian.PutUint32(l[:], uint32(len(lo)))
-		h.Write(l[:])
-		h.Write([]byte(lo + hi))
-		for n := 1; n <= 5; n++ {
-			want := int(h.Sum64() % uint64(n))
-			if got := EdgeShard(p[0], p[1], n); got != want {
-				t.Fatalf("EdgeShard(%q, %q, %d) = %d, want %d", p[0], p[1], n, got, want)
-			}
-			if got := EdgeShard(p[1], p[0], n); got != want {
-				t.Fatalf("EdgeShard is not symmetric for %q", p)
-			}
-		}
-	}
-	// The length prefix keeps "ab"+"c" and "a"+"bc" apart.
-	same := 0
-	for n := 2; n <= 40; n++ {
-		if EdgeShard("ab", "c", n) == EdgeShard("a", "bc", n) {
-			same++
-		}
-	}
-	if same == 39 {
-		t.Fatal(`EdgeShard does not tell {"ab","c"} from {"a","bc"}`)
-	}
-	if testing.AllocsPerRun(100, func() { EdgeShard("acct-1", "shop-2", 3) }) != 0 {
-		t.Fatal("EdgeShard allocates")
 	}
 }

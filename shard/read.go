@@ -2,89 +2,99 @@ package shard
 
 import (
 	"context"
-	"encoding/json"
 	"errors"
-	"math"
+	"fmt"
 	"net/http"
+	"time"
 
-	"github.com/nats-io/nats.go"
-
+	"orbitwatch/delta"
 	"orbitwatch/storage"
 )
 
-// readEnvelope is a ReadReply on the wire, with its status.
-type readEnvelope struct {
-	Status int       `json:"status"`
-	Reply  ReadReply `json:"reply"`
-}
-
-// Read answers a node read locally when this shard owns the node, else
-// forwards it to the owner over NATS request/reply on its ReadSubject; ctx
-// bounds the wait (it should carry a deadline).
+// Read answers a node read: with neither At nor Seq, from the in-memory
+// state at the last applied event (the reply's Seq and EventTime are that
+// event's position and the watermark); otherwise as of a cut, derived from
+// the store (ReadStored). Every worker holds the whole state, so any
+// worker answers for any node.
 func (w *Worker) Read(ctx context.Context, req ReadRequest) (ReadReply, error) {
-	owner := w.Owner(req.Node)
-	if owner == w.cfg.Shard {
-		return w.readLocal(req), nil
+	if req.At.IsZero() && req.Seq == 0 {
+		return w.readNow(req.Node), nil
 	}
-	data, err := json.Marshal(req)
-	if err != nil {
-		return ReadReply{}, err
-	}
-	msg, err := w.cfg.Conn.RequestWithContext(ctx, ReadSubject(w.cfg.Subject, w.cfg.Deployment, owner), data)
-	if err != nil {
-		return ReadReply{}, err
-	}
-	var env readEnvelope
-	if err := json.Unmarshal(msg.Data, &env); err != nil {
-		return ReadReply{}, err
-	}
-	env.Reply.Status = env.Status
-	return env.Reply, nil
+	r := ReadStored(w.cfg.Store, w.derive, w.cfg.Counting, req)
+	r.Shard = w.cfg.Shard
+	return r, nil
 }
 
-// readLocal reads a node this shard owns from its store: at the last
-// complete cut, or at the latest cut whose watermark is ≤ req.At.
-func (w *Worker) readLocal(req ReadRequest) ReadReply {
+func (w *Worker) readNow(node string) ReadReply {
 	cat := w.cfg.Counting.Catalog
-	r := ReadReply{Status: http.StatusOK, Node: req.Node, Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes, Shard: w.cfg.Shard}
-	seq := uint64(math.MaxUint64)
-	if !req.At.IsZero() {
-		s, ok := w.cfg.Store.SeqAtTime(req.At)
-		if !ok {
-			r.Status, r.Error = http.StatusNotFound, "no cut at or before "+req.At.String()
-			return r
-		}
-		seq = s
+	r := ReadReply{Status: http.StatusOK, Node: node, Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes, Shard: w.cfg.Shard}
+	w.mu.RLock()
+	defer w.mu.RUnlock()
+	x, ok := w.a.Lookup(node)
+	if !ok {
+		r.Status, r.Error = http.StatusNotFound, fmt.Sprintf("unknown node %q at seq %d", node, w.a.Seq())
+		return r
 	}
-	vec, cut, wm, err := w.cfg.Store.VectorAt(req.Node, seq)
-	switch {
-	case errors.Is(err, storage.ErrUnknownNode), errors.Is(err, storage.ErrNoCheckpoint):
-		r.Status, r.Error = http.StatusNotFound, err.Error()
-	case errors.Is(err, storage.ErrRetention):
-		r.Status, r.Error = http.StatusGone, err.Error()
-	case err != nil:
+	vec, err := w.a.Vector(x, nil)
+	if err != nil {
 		r.Status, r.Error = http.StatusInternalServerError, err.Error()
-	default:
-		r.Seq, r.EventTime, r.Orbits = cut, wm, vec
+		return r
 	}
+	r.Seq, r.EventTime, r.Orbits = w.a.Seq(), w.a.Watermark(), vec
 	return r
 }
 
-// serveReads answers ReadRequests for this shard's nodes on its
-// ReadSubject. A request that is not a ReadRequest gets status 400.
-func (w *Worker) serveReads() (*nats.Subscription, error) {
-	return w.cfg.Conn.Subscribe(ReadSubject(w.cfg.Subject, w.cfg.Deployment, w.cfg.Shard), func(m *nats.Msg) {
-		var req ReadRequest
-		var env readEnvelope
-		if err := json.Unmarshal(m.Data, &req); err != nil {
-			env.Status, env.Reply.Error = http.StatusBadRequest, "read request: "+err.Error()
-		} else {
-			env.Reply = w.readLocal(req)
-			env.Status = env.Reply.Status
+// ReadStored reads node as of a cut of st: the latest cut whose event-time
+// watermark is ≤ req.At when At is set, else the latest cut ≤ req.Seq;
+// the vector is derived from the records at that cut by c (a counter of
+// the store's kind, only its Derive is used). The reply's Status is 200,
+// 404 (unknown node, no such cut), 410 (before the retained history) or
+// 500.
+func ReadStored(st *storage.Store, c delta.Counter, counting *Counting, req ReadRequest) ReadReply {
+	cat := counting.Catalog
+	rep := ReadReply{Node: req.Node, Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes}
+	seq := req.Seq
+	if !req.At.IsZero() {
+		s, ok := st.SeqAtTime(req.At)
+		switch {
+		case !ok && s > 0:
+			rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", req.At.Format(time.RFC3339Nano), s, st.Floor())
+			return rep
+		case !ok:
+			rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", req.At.Format(time.RFC3339Nano))
+			return rep
 		}
-		data, err := json.Marshal(env)
-		if err == nil {
-			m.Respond(data)
-		}
-	})
+		seq = s
+	}
+	vec, cut, err := DeriveStored(st, c, req.Node, seq)
+	switch {
+	case err == nil:
+		rep.Status, rep.Seq, rep.EventTime, rep.Orbits = http.StatusOK, cut.Seq, cut.Watermark, vec
+	case errors.Is(err, storage.ErrUnknownNode):
+		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", req.Node, cut.Seq)
+	case errors.Is(err, storage.ErrNoCheckpoint):
+		rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut at or before seq %d", seq)
+	case errors.Is(err, storage.ErrRetention):
+		rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("seq %d is before the retained history (floor %d)", seq, st.Floor())
+	default:
+		rep.Status, rep.Error = http.StatusInternalServerError, err.Error()
+	}
+	return rep
+}
+
+// DeriveStored returns node's orbit vector as of the latest complete cut
+// of st with Seq ≤ seq, derived by c from the records and adjacency
+// stored there, with the cut.
+func DeriveStored(st *storage.Store, c delta.Counter, node string, seq uint64) ([]uint64, storage.CheckpointInfo, error) {
+	src, err := st.SourceAt(seq)
+	if err != nil {
+		return nil, storage.CheckpointInfo{}, err
+	}
+	defer src.Close()
+	x, err := src.Node(node)
+	if err != nil {
+		return nil, src.Checkpoint(), err
+	}
+	vec, err := c.Derive(src, x, nil)
+	return vec, src.Checkpoint(), err
 }

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"net"
 	"net/url"
-	"path/filepath"
 	"strings"
 	"sync"
 	"testing"
@@ -17,7 +16,6 @@ import (
 	"github.com/nats-io/nats.go/jetstream"
 
 	"orbitwatch/delta"
-	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
@@ -57,16 +55,6 @@ func reconnecting(t *testing.T, url string) *nats.Conn {
 	}
 	t.Cleanup(nc.Close)
 	return nc
-}
-
-// openShardStore opens shard i's store below dir for the counters of c.
-func openShardStore(t *testing.T, c *Counting, dir string, i int) *storage.Store {
-	t.Helper()
-	st, err := storage.Open(filepath.Join(dir, fmt.Sprintf("shard-%d", i)), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits()})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return st
 }
 
 // freeAddr returns a loopback host:port that nothing listened on a moment
@@ -145,8 +133,8 @@ func TestWorkersStartWhileServerRestarts(t *testing.T) {
 	dataDir := t.TempDir()
 	for i, nc := range conns {
 		cc := mustCounting(t, c.Catalog.Kind, c.Catalog.MaxNodes)
-		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: len(conns), Batch: 64,
-			Counting: cc, Store: openShardStore(t, cc, dataDir, i), Logf: logs.logf}))
+		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: len(conns),
+			Counting: cc, Store: openShardStore(t, cc, dataDir, i, 0), Logf: logs.logf}))
 	}
 	// Down for longer than one start-up attempt waits for an answer.
 	time.Sleep(startAttempt + time.Second)
@@ -163,8 +151,8 @@ func TestWorkersStartWhileServerRestarts(t *testing.T) {
 	}
 	t.Cleanup(srv.Shutdown)
 	publishLog(t, js, name, subject, log[half:])
-	waitCut(t, ws, lastSeq(t, js, name))
-	sameVectors(t, "workers started while the server was down vs one applier", owned(t, ws, want), want)
+	waitApplied(t, ws, lastSeq(t, js, name))
+	sameVectors(t, "workers started while the server was down vs one applier", readAll(t, ws, want), want)
 
 	retries := logs.retries()
 	if len(retries) < len(ws) {
@@ -189,7 +177,7 @@ func TestWorkersStartWhileServerRestarts(t *testing.T) {
 func TestWorkerStopsWhileWaitingForJetStream(t *testing.T) {
 	addr := freeAddr(t)
 	c := mustCounting(t, delta.Undirected, 3)
-	st := openShardStore(t, c, t.TempDir(), 0)
+	st := openShardStore(t, c, t.TempDir(), 0, 0)
 	defer st.Close()
 	var logs logLines
 	w, err := NewWorker(WorkerConfig{Conn: reconnecting(t, "nats://"+addr), Stream: "NEVER", Subject: "never.events", Shard: 0, Shards: 1,
@@ -208,19 +196,13 @@ func TestWorkerStopsWhileWaitingForJetStream(t *testing.T) {
 }
 
 // TestStartupFailsAtOnce: refusals that retrying cannot mend end Run with
-// their message before any start-up retry: another shard count or batch
-// size than the deployment's, a log stream with other settings, and
-// replicas a single server cannot hold.
+// their message before any start-up retry: a log stream with other
+// settings, and replicas a single server cannot hold.
 func TestStartupFailsAtOnce(t *testing.T) {
 	c := mustCounting(t, delta.Undirected, 3)
 	srv := startServer(t)
 	nc, js := connect(t, srv.URL())
 	ctx := context.Background()
-	// A 2-shard deployment with batches of 64 on the log FIXED.
-	fixed := WorkerConfig{Stream: "FIXED", Subject: "fixed.events", Deployment: "FIXED", Replicas: 1, Shards: 2, Batch: 64}
-	if _, err := ensureStreams(ctx, js, &fixed); err != nil {
-		t.Fatal(err)
-	}
 	// A log stream OTHER on a subject other than the worker's.
 	if _, err := js.CreateStream(ctx, jetstream.StreamConfig{Name: "OTHER", Subjects: []string{"other.elsewhere"}}); err != nil {
 		t.Fatal(err)
@@ -230,8 +212,6 @@ func TestStartupFailsAtOnce(t *testing.T) {
 		cfg    WorkerConfig
 		expect string
 	}{
-		{"another shard count", WorkerConfig{Stream: "FIXED", Subject: "fixed.events", Shard: 0, Shards: 3, Batch: 64}, "created for 2 shards with batches of 64"},
-		{"another batch size", WorkerConfig{Stream: "FIXED", Subject: "fixed.events", Shard: 1, Shards: 2, Batch: 128}, "created for 2 shards with batches of 64"},
 		{"a log stream with other settings", WorkerConfig{Stream: "OTHER", Subject: "other.events", Shard: 0, Shards: 1}, "exists with subjects [other.elsewhere]"},
 		// nats-server errors.json: JSStreamReplicasNotSupportedErr, code 500,
 		// err_code 10074, "replicas > 1 not supported in non-clustered mode".
@@ -241,7 +221,7 @@ func TestStartupFailsAtOnce(t *testing.T) {
 			var logs logLines
 			cfg := tc.cfg
 			cfg.Conn, cfg.Counting, cfg.Logf = nc, c, logs.logf
-			cfg.Store = openShardStore(t, c, t.TempDir(), cfg.Shard)
+			cfg.Store = openShardStore(t, c, t.TempDir(), cfg.Shard, 0)
 			defer cfg.Store.Close()
 			w, err := NewWorker(cfg)
 			if err != nil {
@@ -267,7 +247,7 @@ func TestStartupFailsAtOnce(t *testing.T) {
 // errors.json (v2.15).
 func TestTransient(t *testing.T) {
 	api := func(code, errCode int, desc string) error {
-		return fmt.Errorf("shuffle stream X: %w", &jetstream.APIError{Code: code, ErrorCode: jetstream.ErrorCode(errCode), Description: desc})
+		return fmt.Errorf("log stream X: %w", &jetstream.APIError{Code: code, ErrorCode: jetstream.ErrorCode(errCode), Description: desc})
 	}
 	for _, tc := range []struct {
 		err  error
@@ -291,7 +271,7 @@ func TestTransient(t *testing.T) {
 		{nats.ErrAuthorization, false},
 		{nats.ErrPermissionViolation, false},
 		{context.Canceled, false},
-		{errors.New("deployment D was created for 2 shards with batches of 64"), false},
+		{errors.New("stream ORBITWATCH exists with subjects [other]"), false},
 	} {
 		if got := transient(tc.err); got != tc.want {
 			t.Errorf("transient(%v) = %v, want %v", tc.err, got, tc.want)
@@ -372,7 +352,7 @@ func TestWorkersStartWhileClusterElects(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
 	defer cancel()
 	// The deployment as it stood before the server was lost.
-	cfg := WorkerConfig{Stream: name, Subject: subject, Deployment: name, Replicas: 3, Shards: 2, Batch: 64}
+	cfg := WorkerConfig{Stream: name, Subject: subject, Deployment: name, Replicas: 3, Shards: 2, Cuts: testCuts}
 	if _, err := startStreams(ctx, js, &cfg); err != nil {
 		t.Fatal(err)
 	}
@@ -406,11 +386,11 @@ func TestWorkersStartWhileClusterElects(t *testing.T) {
 	for i := range cfg.Shards {
 		cc := mustCounting(t, c.Catalog.Kind, c.Catalog.MaxNodes)
 		wc := cfg
-		wc.Conn, wc.Shard, wc.Counting, wc.Store, wc.Logf = reconnecting(t, urls), i, cc, openShardStore(t, cc, dataDir, i), logs.logf
+		wc.Conn, wc.Shard, wc.Counting, wc.Store, wc.Logf = reconnecting(t, urls), i, cc, openShardStore(t, cc, dataDir, i, 0), logs.logf
 		ws = append(ws, runWorker(t, wc))
 	}
-	waitCut(t, ws, uint64(len(log)))
-	sameVectors(t, "workers started while the cluster elected a leader vs one applier", owned(t, ws, want), want)
+	waitApplied(t, ws, uint64(len(log)))
+	sameVectors(t, "workers started while the cluster elected a leader vs one applier", readAll(t, ws, want), want)
 	t.Logf("start-up retries: %q", logs.retries())
 	for _, rw := range ws {
 		rw.stop(t)

@@ -10,10 +10,7 @@ import (
 // View is what the HTTP API reads from a running worker. All methods are
 // safe for concurrent use while the worker runs.
 type View interface {
-	// Store is the worker's Badger store. Reads at its last complete
-	// checkpoint are consistent: that checkpoint is the last complete cut.
-	// Only the vectors of nodes this shard owns are meaningful in it; the
-	// dictionary and adjacency are whole.
+	// Store is the worker's Badger store: every cut of the whole state.
 	Store() *storage.Store
 	// Counting is the catalog (orbit names, kind, max nodes) in use.
 	Counting() *Counting
@@ -21,16 +18,15 @@ type View interface {
 	Status() Status
 	// Shard returns this worker's shard and the shard count.
 	Shard() (i, n int)
-	// Owner returns the shard that owns node id: OwnerOf(node, n).
+	// Owner returns the shard that owns node id (scores and alerts it):
+	// OwnerOf(node, n).
 	Owner(node string) int
-	// Read answers a node read: locally when this shard owns the node,
-	// else by forwarding it over NATS request/reply to the owner's
-	// ReadSubject. The reply's Status says how it went (200, 404, …);
-	// the error is for transport failures only.
+	// Read answers a node read, now or as of a cut; the reply's Status
+	// says how it went (200, 404, …); the error is for failures to read
+	// at all.
 	Read(ctx context.Context, req ReadRequest) (ReadReply, error)
-	// SetObserver registers o to hear of batch and cut timings (for
-	// metrics); nil stops it. Calls come from the worker's goroutine and
-	// must return quickly.
+	// SetObserver registers o to hear of cut timings (for metrics); nil
+	// stops it. Calls must return quickly.
 	SetObserver(o Observer)
 }
 
@@ -38,36 +34,39 @@ type View interface {
 type Status struct {
 	Shard, Shards int
 	// AppliedSeq is the last log sequence this worker has read and
-	// applied to its adjacency (and computed deltas for).
+	// applied: reads without an as-of point see the state there.
 	AppliedSeq uint64
-	// CutSeq is the last complete cut: every shard's deltas up to it are
-	// applied here and committed to the store.
-	CutSeq uint64
+	// CutSeq is the last cut taken; CommittedSeq the last cut durable in
+	// the store (as-of reads and alerts reach it).
+	CutSeq, CommittedSeq uint64
 	// StreamLastSeq is the log stream's last sequence, as last seen.
 	StreamLastSeq uint64
-	// Lag is StreamLastSeq − CutSeq (0 when caught up).
+	// Lag is StreamLastSeq − AppliedSeq (0 when caught up).
 	Lag uint64
-	// Ready is true once the cut has reached the log position the
-	// worker started behind.
+	// Ready is true once the worker has applied the log up to where it
+	// stood when the worker started.
 	Ready bool
 	// Applied counts accepted events, Expired window expiries; Rejected
-	// counts rejected events and malformed bus messages by reason.
+	// counts rejected events and malformed bus messages by reason (all up
+	// to CommittedSeq).
 	Applied, Expired uint64
 	Rejected         map[string]uint64
-	// Watermark is the largest event time seen.
+	// Watermark is the event-time watermark at CommittedSeq.
 	Watermark time.Time
-	// StartedAt is when the worker started; CutAt when the last cut
-	// was committed (zero before the first).
-	StartedAt, CutAt time.Time
+	// StartedAt is when the worker started; CommittedAt when the last cut
+	// became durable (zero before the first).
+	StartedAt, CommittedAt time.Time
+	// AlertsPublished counts alerts published on the bus.
+	AlertsPublished uint64
 }
 
 // Observer hears of a worker's timings as they happen.
 type Observer interface {
-	// Batch is the time from reading a batch's first log message to
-	// sending its deltas to their owners.
+	// Batch is the time from reading the log message that ended a cut to
+	// the cut being handed to the committer.
 	Batch(d time.Duration)
-	// Cut is the time from reading a batch's last log message to the
-	// cut being committed on this worker.
+	// Cut is the time from reading the log message that ended a cut to
+	// the cut being durable.
 	Cut(d time.Duration)
 }
 
@@ -75,8 +74,10 @@ type Observer interface {
 type ReadRequest struct {
 	Node string `json:"node"`
 	// At, when not zero, reads as of the latest cut whose event-time
-	// watermark is ≤ At; zero reads the last complete cut.
-	At time.Time `json:"at,omitzero"`
+	// watermark is ≤ At; Seq, when not zero, as of the latest cut ≤ Seq;
+	// neither reads the in-memory state at the last applied event.
+	At  time.Time `json:"at,omitzero"`
+	Seq uint64    `json:"seq,omitempty"`
 }
 
 // ReadReply is a node read's answer, in the shape of the API's JSON.

@@ -2,19 +2,26 @@ package shard
 
 import (
 	"container/heap"
+	"encoding/binary"
+	"fmt"
 	"time"
 
 	"orbitwatch/delta"
+	"orbitwatch/storage"
 )
 
 // window keeps the pending expiry of every accepted add, ordered by
 // (expiry time, seq) so that every replica expires edges at the same log
-// position and in the same order.
+// position and in the same order. An explicit remove cancels the pair's
+// earliest pending expiry. Its state is stored one key per pending expiry
+// and per cancelled pair (storage.KeyedChange), and changes records what
+// moved since the last cut.
 type window struct {
 	width     time.Duration
 	kind      delta.Kind
 	q         expiryHeap
 	cancelled map[uint64]uint32 // pair key → expiries to skip (explicit removes)
+	changes   []storage.KeyedChange
 }
 
 type expiry struct {
@@ -27,22 +34,34 @@ func newWindow(w time.Duration, kind delta.Kind) *window {
 	return &window{width: w, kind: kind, cancelled: make(map[uint64]uint32)}
 }
 
-func (w *window) push(at time.Time, seq uint64, u, v uint32) {
-	heap.Push(&w.q, expiry{at: at.UnixNano(), seq: seq, u: u, v: v})
+// Keys: "e" at(8, sign flipped) seq(8) → uvarint u, v; "c" pair(8) →
+// uvarint count.
+func expiryKey(e expiry) string {
+	b := make([]byte, 0, 17)
+	b = append(b, 'e')
+	b = binary.BigEndian.AppendUint64(b, uint64(e.at)^(1<<63))
+	return string(binary.BigEndian.AppendUint64(b, e.seq))
 }
 
-// pop returns the next expiry due at watermark wm (expiry time ≤ wm), skipping
-// those cancelled by explicit removes.
+func cancelKey(k uint64) string {
+	return string(binary.BigEndian.AppendUint64([]byte{'c'}, k))
+}
+
+func (w *window) push(at time.Time, seq uint64, u, v uint32) {
+	e := expiry{at: at.UnixNano(), seq: seq, u: u, v: v}
+	heap.Push(&w.q, e)
+	w.changes = append(w.changes, storage.KeyedChange{Key: expiryKey(e), Value: binary.AppendUvarint(binary.AppendUvarint(nil, uint64(u)), uint64(v))})
+}
+
+// pop returns the next expiry due at watermark wm (expiry time ≤ wm),
+// skipping those cancelled by explicit removes.
 func (w *window) pop(wm time.Time) (expiry, bool) {
 	for len(w.q) > 0 && w.q[0].at <= wm.UnixNano() {
 		e := heap.Pop(&w.q).(expiry)
+		w.changes = append(w.changes, storage.KeyedChange{Key: expiryKey(e)})
 		k := pairKey(e.u, e.v, w.kind)
 		if n := w.cancelled[k]; n > 0 {
-			if n == 1 {
-				delete(w.cancelled, k)
-			} else {
-				w.cancelled[k] = n - 1
-			}
+			w.setCancelled(k, n-1)
 			continue
 		}
 		return e, true
@@ -50,14 +69,62 @@ func (w *window) pop(wm time.Time) (expiry, bool) {
 	return expiry{}, false
 }
 
-// cancel records that an explicit remove of (u, v) took away one pending add:
-// the earliest pending expiry of that pair will be skipped.
+// cancel records that an explicit remove of (u, v) took away one pending
+// add: the earliest pending expiry of that pair will be skipped.
 func (w *window) cancel(u, v uint32) {
-	w.cancelled[pairKey(u, v, w.kind)]++
+	k := pairKey(u, v, w.kind)
+	w.setCancelled(k, w.cancelled[k]+1)
 }
 
+func (w *window) setCancelled(k uint64, n uint32) {
+	ch := storage.KeyedChange{Key: cancelKey(k)}
+	if n == 0 {
+		delete(w.cancelled, k)
+	} else {
+		w.cancelled[k] = n
+		ch.Value = binary.AppendUvarint(nil, uint64(n))
+	}
+	w.changes = append(w.changes, ch)
+}
+
+// takeChanges returns the keyed changes since the last call.
+func (w *window) takeChanges() []storage.KeyedChange {
+	ch := w.changes
+	w.changes = nil
+	return ch
+}
+
+// load rebuilds the window from its stored keys.
+func (w *window) load(keyed []storage.KeyedChange) error {
+	for _, k := range keyed {
+		b := []byte(k.Key)
+		switch {
+		case len(b) == 17 && b[0] == 'e':
+			u, n := binary.Uvarint(k.Value)
+			v, m := binary.Uvarint(k.Value[max(n, 0):])
+			if n <= 0 || m <= 0 || n+m != len(k.Value) {
+				return fmt.Errorf("pending expiry %x: bad value", b)
+			}
+			w.q = append(w.q, expiry{at: int64(binary.BigEndian.Uint64(b[1:]) ^ (1 << 63)), seq: binary.BigEndian.Uint64(b[9:]), u: uint32(u), v: uint32(v)})
+		case len(b) == 9 && b[0] == 'c':
+			n, m := binary.Uvarint(k.Value)
+			if m <= 0 || m != len(k.Value) || n == 0 {
+				return fmt.Errorf("cancelled expiries %x: bad value", b)
+			}
+			w.cancelled[binary.BigEndian.Uint64(b[1:])] = uint32(n)
+		default:
+			return fmt.Errorf("unknown window key %x", b)
+		}
+	}
+	heap.Init(&w.q)
+	return nil
+}
+
+// pending returns the number of pending expiries.
+func (w *window) pending() int { return len(w.q) }
+
 func pairKey(u, v uint32, kind delta.Kind) uint64 {
-	if kind == delta.Undirected && u > v {
+	if kind != delta.Directed && u > v {
 		u, v = v, u
 	}
 	return uint64(u)<<32 | uint64(v)

@@ -37,29 +37,18 @@ const MaxNeighbors = 200
 type neighborsReq struct {
 	node  string
 	limit int
-	reply chan Neighbors
 }
 
-// Neighbors reads node's neighbourhood from the running worker's graph:
-// the request is answered by the worker's own goroutine between two log
-// messages, so it needs no lock on the graph; ctx bounds the wait (it
-// should carry a deadline). limit is clipped to 1..MaxNeighbors.
+// Neighbors reads node's neighbourhood from the running worker's graph at
+// the last applied event. limit is clipped to 1..MaxNeighbors.
 func (w *Worker) Neighbors(ctx context.Context, node string, limit int) (Neighbors, error) {
-	q := neighborsReq{node: node, limit: min(max(limit, 1), MaxNeighbors), reply: make(chan Neighbors, 1)}
-	select {
-	case w.nbrReq <- q:
-	case <-ctx.Done():
-		return Neighbors{}, fmt.Errorf("the worker did not take the request: %w", ctx.Err())
-	}
-	select {
-	case r := <-q.reply:
-		return r, nil
-	case <-ctx.Done():
-		return Neighbors{}, fmt.Errorf("the worker did not answer: %w", ctx.Err())
-	}
+	q := neighborsReq{node: node, limit: min(max(limit, 1), MaxNeighbors)}
+	w.mu.RLock()
+	defer w.mu.RUnlock()
+	return w.neighbors(q), ctx.Err()
 }
 
-// neighbors answers q from the worker's goroutine. It walks the node's
+// neighbors answers q under the read lock. It walks the node's
 // neighbours once and the chosen ones' bitmaps once each: O(degree +
 // limit²) bitmap tests.
 func (w *Worker) neighbors(q neighborsReq) Neighbors {

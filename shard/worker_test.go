@@ -6,8 +6,6 @@ import (
 	"math/rand/v2"
 	"path/filepath"
 	"strconv"
-	"strings"
-	"sync"
 	"testing"
 	"time"
 
@@ -71,20 +69,35 @@ func testLog(n int, seed uint64) []busMsg {
 // assigns them, and returns every node's vector by name.
 func reference(t *testing.T, c *Counting, win time.Duration, log []busMsg) map[string][]uint64 {
 	t.Helper()
-	a := NewApplier(c, win)
+	return vectorsByName(t, applyLog(t, c, win, Cuts{}, log, nil))
+}
+
+// applyLog applies log in one applier with cuts, handing every cut to
+// onCut.
+func applyLog(t *testing.T, c *Counting, win time.Duration, cuts Cuts, log []busMsg, onCut func(*storage.Checkpoint) error) *Applier {
+	t.Helper()
+	a := NewApplier(c, win, cuts)
+	a.OnCut = onCut
 	for i, m := range log {
 		seq := uint64(i + 1)
 		if m.raw != nil {
-			a.RejectLine(seq, malformedReason)
+			if err := a.RejectLine(seq, malformedReason); err != nil {
+				t.Fatal(err)
+			}
 			continue
 		}
 		if err := a.Apply(seq, m.ev); err != nil && !isReject(err) {
 			t.Fatal(err)
 		}
 	}
+	return a
+}
+
+func vectorsByName(t testing.TB, a *Applier) map[string][]uint64 {
+	vec := mustVectors(t, a)
 	out := map[string][]uint64{}
 	for x, name := range a.Names() {
-		out[name] = append([]uint64(nil), a.Vectors().Row(uint32(x))...)
+		out[name] = append([]uint64(nil), vec.Row(uint32(x))...)
 	}
 	return out
 }
@@ -116,12 +129,20 @@ func connect(t *testing.T, url string) (*nats.Conn, jetstream.JetStream) {
 // publishLog publishes the log on subject of stream name, creating it.
 func publishLog(t *testing.T, js jetstream.JetStream, name, subject string, log []busMsg) {
 	t.Helper()
+	publishFrom(t, js, name, subject, log, 0)
+}
+
+// publishFrom publishes log[from:], raw messages under ids of their
+// position in log.
+func publishFrom(t *testing.T, js jetstream.JetStream, name, subject string, log []busMsg, from int) {
+	t.Helper()
 	ctx := context.Background()
 	if _, err := stream.EnsureStream(ctx, js, name, subject, 1); err != nil {
 		t.Fatal(err)
 	}
 	p := stream.NewPublisher(js, subject, stream.PublisherOptions{Stream: name})
-	for i, m := range log {
+	for i := from; i < len(log); i++ {
+		m := log[i]
 		if m.raw != nil {
 			// A raw message must land at its place in order: flush first.
 			if err := p.Flush(ctx); err != nil {
@@ -153,28 +174,30 @@ type runningWorker struct {
 	done   chan error
 }
 
+// testCuts are the cuts of the tests' workers: the test log has an event
+// a second, so a cut every minute holds about sixty.
+var testCuts = Cuts{Every: time.Minute}
+
 func startWorkers(t *testing.T, url, name, subject string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
-	return startDeployment(t, url, name, subject, "", c0, win, shards, dir)
-}
-
-// partLimit, when set, makes the tests' workers cut their shuffle
-// messages into parts of this many bytes of changes.
-var partLimit int
-
-func startDeployment(t *testing.T, url, name, subject, deployment string, c0 *Counting, win time.Duration, shards int, dir string) []*runningWorker {
 	t.Helper()
 	var ws []*runningWorker
 	for i := range shards {
-		// Engines are not safe for concurrent use: one Counting each.
 		c := mustCounting(t, c0.Catalog.Kind, c0.Catalog.MaxNodes)
 		nc, _ := connect(t, url)
-		st, err := storage.Open(filepath.Join(dir, fmt.Sprintf("shard-%d", i)), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits(), Window: win})
-		if err != nil {
-			t.Fatal(err)
-		}
-		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: name, Subject: subject, Deployment: deployment, Shard: i, Shards: shards, Batch: 64, Counting: c, Window: win, Store: st}))
+		ws = append(ws, runWorker(t, WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: i, Shards: shards, Cuts: testCuts,
+			Counting: c, Window: win, Store: openShardStore(t, c, dir, i, win)}))
 	}
 	return ws
+}
+
+// openShardStore opens shard i's store under dir.
+func openShardStore(t *testing.T, c *Counting, dir string, i int, win time.Duration) *storage.Store {
+	t.Helper()
+	st, err := storage.Open(filepath.Join(dir, fmt.Sprintf("shard-%d", i)), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits(), Window: win})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st
 }
 
 // runWorker makes the worker of cfg and runs it until stop.
@@ -184,13 +207,13 @@ func runWorker(t *testing.T, cfg WorkerConfig) *runningWorker {
 	if err != nil {
 		t.Fatal(err)
 	}
-	w.partLimit = partLimit
 	ctx, cancel := context.WithCancel(context.Background())
 	rw := &runningWorker{w: w, st: cfg.Store, cancel: cancel, done: make(chan error, 1)}
 	go func() { rw.done <- w.Run(ctx) }()
 	return rw
 }
 
+// stop stops the worker and closes its store.
 func (rw *runningWorker) stop(t *testing.T) {
 	t.Helper()
 	rw.cancel()
@@ -202,12 +225,12 @@ func (rw *runningWorker) stop(t *testing.T) {
 	}
 }
 
-// waitCut waits until every worker's cut has reached seq.
-func waitCut(t *testing.T, ws []*runningWorker, seq uint64) {
+// waitFor waits until done(status) holds for every worker.
+func waitFor(t *testing.T, ws []*runningWorker, what string, done func(Status) bool) {
 	t.Helper()
-	deadline := time.Now().Add(15 * time.Second)
+	deadline := time.Now().Add(30 * time.Second)
 	for _, rw := range ws {
-		for rw.w.Status().CutSeq < seq {
+		for !done(rw.w.Status()) {
 			for _, o := range ws {
 				select {
 				case err := <-o.done:
@@ -219,33 +242,39 @@ func waitCut(t *testing.T, ws []*runningWorker, seq uint64) {
 				for _, o := range ws {
 					t.Logf("shard %d: %+v", o.w.cfg.Shard, o.w.Status())
 				}
-				if s, err := o0(ws).js.Stream(context.Background(), shuffleStream(&o0(ws).cfg)); err == nil {
-					info, err := s.Info(context.Background(), jetstream.WithSubjectFilter(">"))
-					t.Logf("shuffle %+v %v %v", info.State.Subjects, info.State.Msgs, err)
-				}
-				t.Fatalf("shard %d: cut %d, want %d", rw.w.cfg.Shard, rw.w.Status().CutSeq, seq)
+				t.Fatalf("shard %d: %s did not happen", rw.w.cfg.Shard, what)
 			}
 			time.Sleep(10 * time.Millisecond)
 		}
 	}
 }
 
-// owned reads every node's vector from the store of the shard that owns
-// it, through the worker's Read (local or forwarded over NATS).
-func owned(t *testing.T, ws []*runningWorker, names map[string][]uint64) map[string][]uint64 {
+// waitApplied waits until every worker has applied the log up to seq.
+func waitApplied(t *testing.T, ws []*runningWorker, seq uint64) {
+	t.Helper()
+	waitFor(t, ws, fmt.Sprintf("applying up to %d", seq), func(s Status) bool { return s.AppliedSeq >= seq })
+}
+
+// waitCommitted waits until every worker has made the cut at seq durable.
+func waitCommitted(t *testing.T, ws []*runningWorker, seq uint64) {
+	t.Helper()
+	waitFor(t, ws, fmt.Sprintf("committing the cut at %d", seq), func(s Status) bool { return s.CommittedSeq >= seq })
+}
+
+// readAll reads every node of names now, each from a worker chosen by
+// rotation (every worker answers for every node).
+func readAll(t *testing.T, ws []*runningWorker, names map[string][]uint64) map[string][]uint64 {
 	t.Helper()
 	out := map[string][]uint64{}
+	i := 0
 	for name := range names {
-		// Ask a worker that is not the owner when there is one, so reads
-		// are forwarded.
-		rw := ws[(OwnerOf(name, len(ws))+1)%len(ws)]
-		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
-		r, err := rw.w.Read(ctx, ReadRequest{Node: name})
-		cancel()
+		rw := ws[i%len(ws)]
+		i++
+		r, err := rw.w.Read(context.Background(), ReadRequest{Node: name})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if r.Status != 200 || r.Shard != OwnerOf(name, len(ws)) {
+		if r.Status != 200 || r.Shard != rw.w.cfg.Shard {
 			t.Fatalf("read %q: status %d from shard %d: %s", name, r.Status, r.Shard, r.Error)
 		}
 		out[name] = r.Orbits
@@ -271,9 +300,24 @@ func sameVectors(t *testing.T, what string, got, want map[string][]uint64) {
 	}
 }
 
+func lastSeq(t *testing.T, js jetstream.JetStream, name string) uint64 {
+	t.Helper()
+	s, err := js.Stream(context.Background(), name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	info, err := s.Info(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return info.State.LastSeq
+}
+
 // TestWorkersMatchOneApplier runs 1 and 3 in-process workers on one
-// embedded server and demands, at the final cut, every node's vector of a
-// single applier over the same log, the rejects counted and kept.
+// embedded server and demands every node's vector of a single applier over
+// the same log from every worker, the rejects counted and kept once, and
+// as-of reads at every stored cut equal to an applier over the log up to
+// that cut.
 func TestWorkersMatchOneApplier(t *testing.T) {
 	n := 3000
 	if testing.Short() {
@@ -293,10 +337,8 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 			name, subject := fmt.Sprintf("W%d", shards), fmt.Sprintf("w%d.events", shards)
 			ws := startWorkers(t, srv.URL(), name, subject, c, tc.window, shards, t.TempDir())
 			publishLog(t, js, name, subject, log)
-			// Cut control messages may sit between the events: wait for
-			// the log's last sequence, not for n.
-			waitCut(t, ws, lastSeq(t, js, name))
-			sameVectors(t, "workers vs one applier", owned(t, ws, want), want)
+			waitApplied(t, ws, uint64(n))
+			sameVectors(t, "workers vs one applier", readAll(t, ws, want), want)
 
 			var malformed, rejected uint64
 			for _, m := range log {
@@ -304,15 +346,21 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 					malformed++
 				}
 			}
+			// The counts are those of the last durable cut: wait for the
+			// cut before the last event's minute.
+			var cuts []uint64
+			applyLog(t, c, tc.window, testCuts, log, func(cp *storage.Checkpoint) error { cuts = append(cuts, cp.Seq); return nil })
+			lastCut := cuts[len(cuts)-1]
+			waitCommitted(t, ws, lastCut)
 			st := ws[0].w.Status()
 			for reason, k := range st.Rejected {
 				rejected += k
-				if reason == malformedReason && k != malformed {
+				if reason == malformedReason && k > malformed {
 					t.Fatalf("%d malformed counted, %d published", k, malformed)
 				}
 			}
-			if !st.Ready || st.Applied+rejected != uint64(n) {
-				t.Fatalf("status %+v: applied + rejected ≠ %d", st, n)
+			if !st.Ready || st.Applied+rejected != lastCut {
+				t.Fatalf("status %+v: applied + rejected ≠ %d at the last cut", st, lastCut)
 			}
 			if tc.window > 0 && st.Expired == 0 {
 				t.Fatalf("status %+v: a %v window over %d s of events expired nothing", st, tc.window, n)
@@ -322,17 +370,15 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 			if err != nil || r.Status != 404 {
 				t.Fatalf("read before the first cut: %+v, %v", r, err)
 			}
-			rs, err := js.Stream(context.Background(), name+"_REJECTS")
-			if err != nil {
-				t.Fatal(err)
-			}
-			info, err := rs.Info(context.Background())
-			if err != nil {
-				t.Fatal(err)
-			}
-			if info.State.Msgs != rejected {
-				t.Fatalf("rejects stream holds %d messages, %d rejected", info.State.Msgs, rejected)
-			}
+			checkAsOf(t, ws, c, tc.window, log, cuts)
+			waitFor(t, ws, "all rejects republished", func(Status) bool {
+				rs, err := js.Stream(context.Background(), name+"_REJECTS")
+				if err != nil {
+					return false
+				}
+				info, err := rs.Info(context.Background())
+				return err == nil && info.State.Msgs >= 1
+			})
 			for _, rw := range ws {
 				rw.stop(t)
 			}
@@ -340,106 +386,28 @@ func TestWorkersMatchOneApplier(t *testing.T) {
 	}
 }
 
-// TestWorkerRefusesOtherShardCount: the shard count is fixed by the first
-// worker of a deployment.
-func TestWorkerRefusesOtherShardCount(t *testing.T) {
-	c := mustCounting(t, delta.Undirected, 3)
-	srv := startServer(t)
-	ws := startWorkers(t, srv.URL(), "FIX", "fix.events", c, 0, 2, t.TempDir())
-	waitCut(t, ws, 0)
-	time.Sleep(200 * time.Millisecond)
-	nc, _ := connect(t, srv.URL())
-	st, err := storage.Open(t.TempDir(), storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits()})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer st.Close()
-	w, err := NewWorker(WorkerConfig{Conn: nc, Stream: "FIX", Subject: "fix.events", Shard: 0, Shards: 3, Batch: 64, Counting: c, Store: st})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
-	defer cancel()
-	err = w.Run(ctx)
-	if err == nil || !strings.Contains(err.Error(), "created for 2 shards") {
-		t.Fatalf("worker with --shards 3 on a 2-shard deployment: %v", err)
-	}
-	var wg sync.WaitGroup
-	for _, rw := range ws {
-		wg.Add(1)
-		go func() { defer wg.Done(); rw.cancel() }()
-	}
-	wg.Wait()
-	for _, rw := range ws {
-		rw.stop(t)
-	}
-}
-
-func lastSeq(t *testing.T, js jetstream.JetStream, name string) uint64 {
+// checkAsOf reads, at a few stored cuts, every node of an applier over
+// the log up to the cut, as of the cut (by seq, from the workers'
+// stores), and demands that applier's vectors.
+func checkAsOf(t *testing.T, ws []*runningWorker, c *Counting, win time.Duration, log []busMsg, cuts []uint64) {
 	t.Helper()
-	s, err := js.Stream(context.Background(), name)
-	if err != nil {
-		t.Fatal(err)
-	}
-	info, err := s.Info(context.Background())
-	if err != nil {
-		t.Fatal(err)
-	}
-	return info.State.LastSeq
-}
-
-func o0(ws []*runningWorker) *Worker { return ws[0].w }
-
-// TestTwoDeploymentsFollowOneLog: deployments of 1 and 2 shards under
-// different names read one log side by side (the way to change the shard
-// count) and both end at one applier's vectors.
-func TestTwoDeploymentsFollowOneLog(t *testing.T) {
-	c := mustCounting(t, delta.Undirected, 3)
-	log := testLog(1000, 9)
-	want := reference(t, c, 0, log)
-	srv := startServer(t)
-	_, js := connect(t, srv.URL())
-	publishLog(t, js, "SHARED", "shared.events", log)
-	one := startDeployment(t, srv.URL(), "SHARED", "shared.events", "OLD", c, 0, 1, t.TempDir())
-	two := startDeployment(t, srv.URL(), "SHARED", "shared.events", "NEW", c, 0, 2, t.TempDir())
-	last := lastSeq(t, js, "SHARED")
-	for _, ws := range [][]*runningWorker{one, two} {
-		waitCut(t, ws, last)
-		sameVectors(t, fmt.Sprintf("%d-shard deployment vs one applier", len(ws)), owned(t, ws, want), want)
-	}
-	for _, rw := range append(one, two...) {
-		rw.stop(t)
-	}
-}
-
-// TestWorkersWithShuffleParts: with shuffle messages cut into parts of 200
-// bytes of changes (as a big batch is cut under the server's maximum
-// payload), three workers still end at one applier's vectors.
-func TestWorkersWithShuffleParts(t *testing.T) {
-	partLimit = 200
-	t.Cleanup(func() { partLimit = 0 })
-	c := mustCounting(t, delta.Undirected, 4)
-	log := testLog(1500, 13)
-	want := reference(t, c, 0, log)
-	srv := startServer(t)
-	_, js := connect(t, srv.URL())
-	ws := startWorkers(t, srv.URL(), "PARTS", "parts.events", c, 0, 3, t.TempDir())
-	publishLog(t, js, "PARTS", "parts.events", log)
-	waitCut(t, ws, lastSeq(t, js, "PARTS"))
-	sameVectors(t, "workers with shuffle parts vs one applier", owned(t, ws, want), want)
-	s, err := js.Stream(context.Background(), "PARTS_SHUFFLE")
-	if err != nil {
-		t.Fatal(err)
-	}
-	info, err := s.Info(context.Background())
-	if err != nil {
-		t.Fatal(err)
-	}
-	// Without parts there would be 3 × 3 messages per batch.
-	if batches := lastSeq(t, js, "PARTS") / 64; info.State.Msgs <= 9*batches {
-		t.Fatalf("%d shuffle messages for about %d batches: no message was cut into parts", info.State.Msgs, batches)
-	}
-	for _, rw := range ws {
-		rw.stop(t)
+	for _, i := range []int{0, len(cuts) / 3, len(cuts) - 1} {
+		at := cuts[i]
+		want := vectorsByName(t, applyLog(t, c, win, Cuts{}, log[:at], nil))
+		for k, rw := range ws {
+			n := 0
+			for name, vec := range want {
+				if n++; n%(len(ws)) != k {
+					continue
+				}
+				r, err := rw.w.Read(context.Background(), ReadRequest{Node: name, Seq: at})
+				if err != nil || r.Status != 200 || r.Seq != at {
+					t.Fatalf("as of cut %d, node %q from shard %d: %+v %v", at, name, k, r, err)
+				}
+				if fmt.Sprint(r.Orbits) != fmt.Sprint(vec) {
+					t.Fatalf("as of cut %d, node %q: %v, an applier over the log prefix has %v", at, name, r.Orbits, vec)
+				}
+			}
+		}
 	}
 }

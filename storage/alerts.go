@@ -16,10 +16,11 @@ import (
 //	                       uvarint len, rule, body (the alert's JSON)
 //	'o' len(4) node seq(8) id   per-node index of alerts, empty value
 //
-// Both are written once, at Badger version = the cut's seq, so an alert is
-// visible exactly to readers at that cut or later, and retention (which
-// keeps the latest version of every key at or below the floor) never drops
-// one. Keys start with the seq, so "since" scans seek straight to it.
+// Both are written once, with their cut's checkpoint (Checkpoint.Alerts),
+// at Badger version = the cut's seq, so an alert is visible exactly to
+// readers at that cut or later, and retention (which keeps the latest
+// version of every key at or below the floor) never drops one. Keys start
+// with the seq, so "since" scans seek straight to it.
 const (
 	pAlert     = 'a'
 	pAlertNode = 'o'
@@ -52,50 +53,39 @@ type AlertFilter struct {
 	Newest bool
 }
 
-// PutAlerts stores the alerts of the cut at seq, at Badger version seq.
-// Call it before the Commit of that cut: readers see the alerts once the
-// checkpoint at seq is complete (Alerts reads at the last complete
-// checkpoint), so a crash before the Commit leaves them invisible, and
-// the recomputed cut, being deterministic, writes the same keys again.
-// Every record's Seq must be seq, its ID non-empty and unique in the cut,
-// and its EventTime the cut's watermark (or earlier); seq must not be
-// below the last complete checkpoint. Records are copied.
-func (st *Store) PutAlerts(seq uint64, recs []AlertRecord) error {
-	if st.readOnly {
-		return fmt.Errorf("storage: put alerts at %d: store opened read-only", seq)
-	}
-	if c := st.Seq(); seq < c {
-		return fmt.Errorf("storage: put alerts at %d: below the last checkpoint %d", seq, c)
-	}
-	if len(recs) == 0 {
-		return nil
-	}
-	wb := st.db.NewManagedWriteBatch()
-	defer wb.Cancel()
+// checkAlerts holds the alerts of the checkpoint at seq to their
+// preconditions: every record's Seq is seq, its ID non-empty and unique in
+// the cut, its EventTime storable (the cut's watermark or earlier).
+func checkAlerts(seq uint64, recs []AlertRecord) error {
 	seen := make(map[string]bool, len(recs))
 	for i := range recs {
 		r := &recs[i]
 		if r.Seq != seq || r.ID == "" || seen[r.ID] {
-			return fmt.Errorf("storage: put alerts at %d: record %d has seq %d and id %q (want seq %d and a unique id)", seq, i, r.Seq, r.ID, seq)
+			return fmt.Errorf("alert record %d has seq %d and id %q (want seq %d and a unique id)", i, r.Seq, r.ID, seq)
 		}
 		seen[r.ID] = true
-		wm, err := watermarkBits(r.EventTime)
-		if err != nil {
-			return fmt.Errorf("storage: put alerts at %d: alert %s: %w", seq, r.ID, err)
+		if _, err := watermarkBits(r.EventTime); err != nil {
+			return fmt.Errorf("alert %s: %w", r.ID, err)
 		}
-		val := binary.BigEndian.AppendUint64(make([]byte, 0, 16+len(r.Node)+len(r.Rule)+len(r.Body)), wm)
+	}
+	return nil
+}
+
+// putAlerts writes the alerts of the checkpoint at w.seq: the record and
+// its node index entry.
+func putAlerts(w *batchWriter, recs []AlertRecord) error {
+	for i := range recs {
+		r := &recs[i]
+		val := binary.BigEndian.AppendUint64(make([]byte, 0, 16+len(r.Node)+len(r.Rule)+len(r.Body)), mustBits(r.EventTime))
 		val = appendLenString(val, r.Node)
 		val = appendLenString(val, r.Rule)
 		val = append(val, r.Body...)
 		if err := errors.Join(
-			wb.SetEntryAt(badger.NewEntry(alertKey(seq, r.ID), val), seq),
-			wb.SetEntryAt(badger.NewEntry(alertNodeKey(r.Node, seq, r.ID), []byte{}), seq),
+			w.put(alertKey(w.seq, r.ID), val, false),
+			w.put(alertNodeKey(r.Node, w.seq, r.ID), []byte{}, false),
 		); err != nil {
-			return fmt.Errorf("storage: put alerts at %d: %w", seq, err)
+			return err
 		}
-	}
-	if err := wb.Flush(); err != nil {
-		return fmt.Errorf("storage: put alerts at %d: %w", seq, err)
 	}
 	return nil
 }

@@ -33,9 +33,9 @@ func openAlertStore(t *testing.T, dir string) *alertStore {
 	return &alertStore{t: t, st: st, dict: s.Dict}
 }
 
-func (a *alertStore) commit(seq uint64) {
+func (a *alertStore) commit(seq uint64, recs ...AlertRecord) {
 	a.t.Helper()
-	err := a.st.Commit(&Checkpoint{Seq: seq, Watermark: alertWatermark(seq)})
+	err := a.st.Commit(&Checkpoint{Seq: seq, Watermark: alertWatermark(seq), Alerts: recs})
 	if err != nil {
 		a.t.Fatal(err)
 	}
@@ -127,7 +127,7 @@ func equalAlerts(a, b []AlertRecord) bool {
 	})
 }
 
-// TestAlertsStoredAndListed writes the alerts of each cut before its
+// TestAlertsStoredAndListed writes the alerts of each cut with its
 // checkpoint, as the worker does, and holds every combination of filters
 // against a plain filter over what was written, live, after a reopen,
 // read-only, and after retention moved past the early cuts.
@@ -137,28 +137,21 @@ func TestAlertsStoredAndListed(t *testing.T) {
 	var all []AlertRecord
 	for seq := uint64(10); seq <= 120; seq += 10 {
 		recs := alertsOfCut(seq)
-		if err := a.st.PutAlerts(seq, recs); err != nil {
-			t.Fatal(err)
-		}
 		all = append(all, recs...)
-		// Written but not yet committed: invisible.
+		a.commit(seq, recs...)
 		got, err := a.st.Alerts(AlertFilter{SinceSeq: seq - 1})
-		if err != nil || len(got) != 0 {
-			t.Fatalf("alerts of cut %d visible before its checkpoint: %v %v", seq, got, err)
-		}
-		a.commit(seq)
-		got, err = a.st.Alerts(AlertFilter{SinceSeq: seq - 1})
 		if err != nil || !equalAlerts(got, want(recs, seq, AlertFilter{})) {
 			t.Fatalf("alerts of cut %d after its checkpoint: %v %v", seq, got, err)
 		}
 	}
 	checkAlertFilters(t, a.st, all)
 
-	// A cut whose checkpoint never completes (a crash after PutAlerts)
-	// stays invisible across a reopen, and the recomputed cut writes the
-	// same records again.
+	// A cut whose checkpoint never completes (a crash after its records
+	// were written, before the meta record) stays invisible across a
+	// reopen, and the recomputed cut writes the same records again.
 	torn := alertsOfCut(130)
-	if err := a.st.PutAlerts(130, torn); err != nil {
+	cp := &Checkpoint{Seq: 130, Watermark: alertWatermark(130), Alerts: torn}
+	if err := a.st.writeRecords([]*Checkpoint{cp}, []CheckpointInfo{{Seq: 130, Nodes: a.st.dictLen}}); err != nil {
 		t.Fatal(err)
 	}
 	if err := a.st.Close(); err != nil {
@@ -166,10 +159,7 @@ func TestAlertsStoredAndListed(t *testing.T) {
 	}
 	a = openAlertStore(t, dir)
 	checkAlertFilters(t, a.st, all)
-	if err := a.st.PutAlerts(130, torn); err != nil {
-		t.Fatal(err)
-	}
-	a.commit(130)
+	a.commit(130, torn...)
 	all = append(all, torn...)
 	checkAlertFilters(t, a.st, all)
 
@@ -191,12 +181,12 @@ func TestAlertsStoredAndListed(t *testing.T) {
 	}
 	defer ro.Close()
 	checkAlertFilters(t, ro, all)
-	if err := ro.PutAlerts(200, alertsOfCut(200)); err == nil {
-		t.Fatal("PutAlerts on a read-only store succeeded")
+	if err := ro.Commit(&Checkpoint{Seq: 200, Watermark: alertWatermark(200), Alerts: alertsOfCut(200)}); err == nil {
+		t.Fatal("a commit with alerts on a read-only store succeeded")
 	}
 }
 
-func TestPutAlertsRefusesBadRecords(t *testing.T) {
+func TestCommitRefusesBadAlerts(t *testing.T) {
 	a := openAlertStore(t, t.TempDir())
 	defer a.st.Close()
 	a.commit(50)
@@ -207,14 +197,14 @@ func TestPutAlertsRefusesBadRecords(t *testing.T) {
 		recs []AlertRecord
 		want string
 	}{
-		{"below the last checkpoint", 40, []AlertRecord{{Seq: 40, ID: "x", EventTime: alertT0}}, "below the last checkpoint 50"},
+		{"below the last checkpoint", 40, []AlertRecord{{Seq: 40, ID: "x", EventTime: alertT0}}, "does not exceed the last checkpoint 50"},
 		{"record of another cut", 60, []AlertRecord{{Seq: 61, ID: "x", EventTime: alertT0}}, "record 0 has seq 61"},
 		{"no id", 60, []AlertRecord{{Seq: 60, EventTime: alertT0}}, `id ""`},
 		{"id twice", 60, []AlertRecord{good, good}, "record 1"},
 		{"unstorable time", 60, []AlertRecord{{Seq: 60, ID: "x", EventTime: time.Date(1500, 1, 1, 0, 0, 0, 0, time.UTC)}}, "outside the storable range"},
 	}
 	for _, c := range cases {
-		err := a.st.PutAlerts(c.seq, c.recs)
+		err := a.st.Commit(&Checkpoint{Seq: c.seq, Watermark: alertWatermark(c.seq), Alerts: c.recs})
 		if err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: got %v, want an error containing %q", c.name, err, c.want)
 		}

@@ -1,8 +1,11 @@
 package storage
 
 import (
+	"bytes"
+	"cmp"
 	"encoding/binary"
 	"fmt"
+	"slices"
 	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
@@ -29,6 +32,13 @@ type Checkpoint struct {
 	// Records are the nodes whose record changed, with the new record; an
 	// empty record deletes it (an all-zero record).
 	Records []RecordChange
+	// Alerts are the alerts raised at this cut (see AlertRecord), stored
+	// in the same write as the cut.
+	Alerts []AlertRecord
+	// Scored are the orbit vectors of the nodes scored for alerts at this
+	// cut (delta.AppendCounts), kept so that rules can be evaluated again
+	// over the history without recounting, and read as baselines.
+	Scored []RecordChange
 	// Blobs are opaque applier records (input progress). A blob keeps its
 	// last written value until rewritten; a nil value deletes it.
 	Blobs map[string][]byte
@@ -102,6 +112,9 @@ func (st *Store) Commit(cps ...*Checkpoint) error {
 		}
 		dictLen += len(cp.Names)
 		st.checkShapes(cp, dictLen)
+		if err := checkAlerts(cp.Seq, cp.Alerts); err != nil {
+			return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
+		}
 		complete, lastWM = cp.Seq, cp.Watermark
 		infos[i] = CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(mustBits(cp.Watermark)), Nodes: dictLen}
 	}
@@ -154,22 +167,32 @@ func (st *Store) checkShapes(cp *Checkpoint, n int) {
 			panic("storage: checkpoint edge with an unknown node or a self-loop")
 		}
 	}
-	for _, r := range cp.Records {
+	for _, r := range append(cp.Records[:len(cp.Records):len(cp.Records)], cp.Scored...) {
 		if int(r.Node) >= n {
 			panic("storage: checkpoint record of a node missing from the dictionary")
 		}
 	}
 }
 
-// batchWriter puts records at one version, writing through to the
-// versions a torn checkpoint left above it (see repair). Keys and values
-// are carved from large chunks because Badger keeps the slices until the
-// batch is flushed.
+// batchWriter collects records at one version (several, for a group of
+// checkpoints), writing through to the versions a torn checkpoint left
+// above it (see repair). Keys and values are carved from large chunks
+// because Badger keeps the slices until the batch is flushed. The entries
+// are handed to Badger in key order (flush): inserting into its memtable
+// in order keeps the skiplist's search path in cache, which measured
+// several times faster than the order they are made in.
 type batchWriter struct {
-	wb    *badger.WriteBatch
-	seq   uint64
-	torn  map[string][]uint64
-	chunk []byte
+	wb      *badger.WriteBatch
+	seq     uint64
+	torn    map[string][]uint64
+	chunk   []byte
+	entries []pending
+}
+
+type pending struct {
+	key, val []byte
+	del      bool
+	ts       uint64
 }
 
 func (w *batchWriter) alloc(n int) []byte {
@@ -206,10 +229,32 @@ func (w *batchWriter) put(key, val []byte, del bool) error {
 }
 
 func (w *batchWriter) at(k, v []byte, del bool, ts uint64) error {
-	if del {
-		return w.wb.DeleteAt(k, ts)
+	w.entries = append(w.entries, pending{key: k, val: v, del: del, ts: ts})
+	return nil
+}
+
+// flush hands the entries to Badger sorted by key, then version, keeping
+// the order they were put in among equal ones (the last put wins).
+func (w *batchWriter) flush() error {
+	slices.SortStableFunc(w.entries, func(a, b pending) int {
+		if c := bytes.Compare(a.key, b.key); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.ts, b.ts)
+	})
+	for _, e := range w.entries {
+		var err error
+		if e.del {
+			err = w.wb.DeleteAt(e.key, e.ts)
+		} else {
+			err = w.wb.SetEntryAt(badger.NewEntry(e.key, e.val), e.ts)
+		}
+		if err != nil {
+			return err
+		}
 	}
-	return w.wb.SetEntryAt(badger.NewEntry(k, v), ts)
+	w.entries = nil
+	return w.wb.Flush()
 }
 
 func (st *Store) writeRecords(cps []*Checkpoint, infos []CheckpointInfo) error {
@@ -224,7 +269,7 @@ func (st *Store) writeRecords(cps []*Checkpoint, infos []CheckpointInfo) error {
 			return err
 		}
 	}
-	if err := wb.Flush(); err != nil {
+	if err := w.flush(); err != nil {
 		return err
 	}
 	return st.db.Sync()
@@ -263,6 +308,15 @@ func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info 
 	for _, r := range cp.Records {
 		key = binary.BigEndian.AppendUint32(append(key[:0], pRecord), r.Node)
 		if err := w.put(key, r.Data, len(r.Data) == 0); err != nil {
+			return 0, err
+		}
+	}
+	if err := putAlerts(w, cp.Alerts); err != nil {
+		return 0, err
+	}
+	for _, r := range cp.Scored {
+		key = binary.BigEndian.AppendUint32(append(key[:0], pScored), r.Node)
+		if err := w.put(key, r.Data, false); err != nil {
 			return 0, err
 		}
 	}

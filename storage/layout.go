@@ -24,6 +24,7 @@ import (
 //	'r' id(4)              the node's record, as the counter wrote it
 //	'b' name               applier blob
 //	'k' key                keyed applier record
+//	'g' id(4)              the node's orbit vector as last scored for alerts
 //	'a', 'o'               alert records and their node index (alerts.go)
 //
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
@@ -46,6 +47,7 @@ const (
 	pRecord     = 'r'
 	pBlob       = 'b'
 	pKeyed      = 'k'
+	pScored     = 'g'
 )
 
 // checkpointPrefixes are the prefixes written at a checkpoint's version
@@ -54,7 +56,7 @@ const (
 // the Commit of its cut. A crash can leave them above the last complete
 // checkpoint, so repair covers them. The meta record alone is written in
 // a final single transaction and is never torn.
-var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pKeyed, pAlert, pAlertNode, pCheckpoint, pWatermark}
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pKeyed, pScored, pAlert, pAlertNode, pCheckpoint, pWatermark}
 
 func keyID(p byte, x uint32) []byte {
 	k := make([]byte, 5)

@@ -6,9 +6,9 @@ import (
 	"orbitwatch/delta"
 )
 
-// TestTornAlerts: alerts put for a cut whose Commit never happened (the
-// process died in between) stay invisible after a reopen, also once later
-// checkpoints at other seqs pass that cut.
+// TestTornAlerts: alerts of a cut whose commit never completed (the
+// process died between its records and its meta record) stay invisible
+// after a reopen, also once later checkpoints at other seqs pass that cut.
 func TestTornAlerts(t *testing.T) {
 	dir := t.TempDir()
 	st := mustOpen(t, dir, undirected4)
@@ -18,7 +18,8 @@ func TestTornAlerts(t *testing.T) {
 		t.Fatal(err)
 	}
 	lost := AlertRecord{Seq: 300, ID: "cut300-1", EventTime: m.watermark(), Node: m.dict.Name(0), Rule: "fan-out"}
-	if err := st.PutAlerts(300, []AlertRecord{lost}); err != nil {
+	torn := &Checkpoint{Seq: 300, Watermark: m.watermark(), Alerts: []AlertRecord{lost}}
+	if err := st.writeRecords([]*Checkpoint{torn}, []CheckpointInfo{{Seq: 300, Nodes: st.dictLen}}); err != nil {
 		t.Fatal(err)
 	}
 	if err := st.Close(); err != nil { // the cut at 300 never commits
@@ -28,10 +29,9 @@ func TestTornAlerts(t *testing.T) {
 	defer st.Close()
 	m.run(200)
 	kept := AlertRecord{Seq: 200, ID: "cut200-1", EventTime: m.watermark(), Node: m.dict.Name(1), Rule: "ring"}
-	if err := st.PutAlerts(200, []AlertRecord{kept}); err != nil {
-		t.Fatal(err)
-	}
-	if err := st.Commit(m.checkpoint()); err != nil {
+	cp := m.checkpoint()
+	cp.Alerts = []AlertRecord{kept}
+	if err := st.Commit(cp); err != nil {
 		t.Fatal(err)
 	}
 	m.run(400)

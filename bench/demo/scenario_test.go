@@ -48,7 +48,7 @@ func TestPlantedPatterns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	ap := shard.NewApplier(counting, 0)
+	ap := shard.NewApplier(counting, 0, shard.Cuts{})
 	for i, e := range sc.Events {
 		if err := ap.Apply(uint64(i+1), e); err != nil {
 			t.Fatalf("event %d: %v", i+1, err)
@@ -62,7 +62,11 @@ func TestPlantedPatterns(t *testing.T) {
 			t.Fatalf("orbit %d is %q, want %q", o, cat.Orbits[o].Name, name)
 		}
 	}
-	g, vec := ap.Graph(), ap.Vectors()
+	g := ap.Graph()
+	vec, err := ap.Vectors()
+	if err != nil {
+		t.Fatal(err)
+	}
 	id := func(n string) uint32 {
 		x, ok := ap.Lookup(n)
 		if !ok {

@@ -39,12 +39,15 @@ func runBackfill(args []string) int {
 	fs := flag.NewFlagSet("backfill", flag.ContinueOnError)
 	var cf countingFlags
 	var inf inputFlags
+	var af alertFlags
+	var cuts cutFlags
 	cf.register(fs)
 	inf.register(fs)
+	cuts.register(fs)
+	fs.StringVar(&af.path, "alerts", "", "alert rules file (YAML) evaluated at every cut; default: the built-in rules")
+	noAlerts := fs.Bool("no-alerts", false, "evaluate no alert rules")
 	data := fs.String("data", "", "data directory (created when missing)")
 	windowFlag := fs.String("window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
-	every := fs.Uint64("checkpoint-every", 0, "checkpoint after every N data lines (default 100000 unless --checkpoint-interval is set)")
-	interval := fs.Duration("checkpoint-interval", 0, "checkpoint when this much wall time has passed since the last one")
 	keepFlag := fs.String("keep-history", "", "keep checkpoint versions this far back in event time, e.g. 90d (default: all)")
 	if err := fs.Parse(args); err != nil {
 		return 2
@@ -52,9 +55,6 @@ func runBackfill(args []string) int {
 	if *data == "" {
 		fmt.Fprintln(os.Stderr, "orbitwatch backfill: --data DIR is required")
 		return 2
-	}
-	if *every == 0 && *interval == 0 {
-		*every = 100000
 	}
 	window, err := parseDays(*windowFlag)
 	if err != nil {
@@ -68,6 +68,14 @@ func runBackfill(args []string) int {
 	if err != nil {
 		return fail("backfill", err)
 	}
+	var stage *shard.AlertStage
+	if !*noAlerts {
+		ev, _, err := af.setup(c.Catalog)
+		if err != nil {
+			return fail("backfill", err)
+		}
+		stage = shard.NewAlertStage(ev)
+	}
 	// Every input is checked before anything is applied, so a file that is
 	// not an edge log changes no state.
 	hashes, total, err := checkInputs(inf)
@@ -79,22 +87,28 @@ func runBackfill(args []string) int {
 		return fail("backfill", err)
 	}
 	defer st.Close()
-	state, err := st.Load()
+	a, state, err := shard.LoadApplier(c, window, cuts.cuts(), st)
 	if err != nil {
 		return fail("backfill", err)
 	}
-	a, err := shard.Restore(c, window, state)
-	if err != nil {
-		return fail("backfill", err)
+	if stage != nil {
+		if err := stage.Restore(st, state); err != nil {
+			return fail("backfill", err)
+		}
 	}
 	records, err := matchInputs(state.Blobs[inputsBlob], inf.inputs, hashes)
 	if err != nil {
 		return fail("backfill", err)
 	}
+	if state.Seq > 0 {
+		fmt.Fprintf(os.Stderr, "orbitwatch backfill: resuming after the checkpoint at seq %d\n", state.Seq)
+	}
 
 	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer cancel()
-	b := &backfill{st: st, applier: a, records: records, keep: keep}
+	com := shard.NewCommitter(st, 64)
+	b := &backfill{st: st, com: com, applier: a, stage: stage, records: records, keep: keep}
+	a.OnCut = b.cut
 	rep := progress.New(os.Stderr, total, "backfill")
 	in := &ingest{
 		flags: &inf, applier: a, resume: state.Seq, progress: rep, appendRejects: true,
@@ -108,26 +122,22 @@ func runBackfill(args []string) int {
 		fileDone: func(i int, lines uint64) { records[i].Lines, records[i].Done = lines, true },
 		stop:     func() error { return context.Cause(ctx) },
 	}
-	last := time.Now()
-	in.afterSeq = func(seq uint64) error {
-		if (*every > 0 && seq%*every == 0) || (*interval > 0 && time.Since(last) >= *interval) {
-			last = time.Now()
-			return b.checkpoint()
-		}
-		return nil
-	}
 	runErr := in.run()
 	rep.Done()
 	if runErr == nil || errors.Is(runErr, context.Canceled) || errors.Is(runErr, errStrict) {
 		// Stopped cleanly (finished, Ctrl-C, or --strict): what was applied
 		// is made durable, so a rerun goes on from here.
-		if err := b.checkpoint(); err != nil {
-			return fail("backfill", err)
+		if err := a.Cut(); err != nil && runErr == nil {
+			runErr = err
 		}
 	}
+	if err := com.Close(); err != nil && (runErr == nil || errors.Is(runErr, context.Canceled)) {
+		runErr = err
+	}
 	in.summary("backfill")
-	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges); this run wrote %d checkpoints, %d node vector versions\n",
-		*data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges(), b.checkpoints, b.versions)
+	groups, busy := com.Busy()
+	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges); this run wrote %d cuts (%d records, %d alerts) in %d commits taking %.1f s beside the counting\n",
+		*data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges(), b.cuts, b.recordsWritten, b.alerts, groups, busy.Seconds())
 	if errors.Is(runErr, context.Canceled) {
 		fmt.Fprintln(os.Stderr, "orbitwatch backfill: interrupted; rerun with the same arguments to go on")
 		return 130
@@ -138,33 +148,52 @@ func runBackfill(args []string) int {
 	return 0
 }
 
+// cutFlags are the flags that place cuts.
+type cutFlags struct {
+	every time.Duration
+	lines uint64
+}
+
+func (f *cutFlags) register(fs *flag.FlagSet) {
+	fs.DurationVar(&f.every, "cut-every", shard.DefaultCutEvery, "commit a cut at every multiple of this much event time (0: none)")
+	fs.Uint64Var(&f.lines, "checkpoint-every", 0, "also commit a cut after every N log positions (0: none)")
+}
+
+func (f *cutFlags) cuts() shard.Cuts { return shard.Cuts{Every: f.every, Lines: f.lines} }
+
 type backfill struct {
 	st      *storage.Store
+	com     *shard.Committer
 	applier *shard.Applier
+	stage   *shard.AlertStage
 	records []inputRecord
 	keep    time.Duration
 
-	checkpoints, versions uint64 // written by this run: checkpoints and node vector versions
+	cuts, recordsWritten, alerts uint64 // written by this run
 }
 
-// checkpoint commits what changed since the last one, with the input
-// records, unless nothing was applied since.
-func (b *backfill) checkpoint() error {
-	if b.applier.Seq() <= b.st.Seq() {
-		return nil
-	}
+// cut takes one cut: the alert stage scores it, the input records go with
+// it, and the committer writes it; retention follows the watermark.
+func (b *backfill) cut(cp *storage.Checkpoint) error {
 	blob, err := json.Marshal(b.records)
 	if err != nil {
 		return err
 	}
-	if err := b.st.Commit(b.applier.Checkpoint(map[string][]byte{inputsBlob: blob})); err != nil {
-		return fmt.Errorf("checkpoint at seq %d: %w", b.applier.Seq(), err)
+	cp.Blobs[inputsBlob] = blob
+	if b.stage != nil {
+		got, err := b.stage.Evaluate(b.applier, cp, nil, b.com, time.Now())
+		if err != nil {
+			return fmt.Errorf("cut at seq %d: %w", cp.Seq, err)
+		}
+		b.alerts += uint64(len(got))
 	}
-	b.checkpoints++
-	b.versions += uint64(len(b.applier.Touched()))
-	b.applier.ResetTouched()
-	if b.keep > 0 && !b.applier.Watermark().IsZero() {
-		if seq, ok := b.st.SeqAtTime(b.applier.Watermark().Add(-b.keep)); ok {
+	if err := b.com.Put(cp); err != nil {
+		return fmt.Errorf("cut at seq %d: %w", cp.Seq, err)
+	}
+	b.cuts++
+	b.recordsWritten += uint64(len(cp.Records))
+	if b.keep > 0 && !cp.Watermark.IsZero() {
+		if seq, ok := b.st.SeqAtTime(cp.Watermark.Add(-b.keep)); ok {
 			if err := b.st.SetDiscardBefore(seq); err != nil {
 				return err
 			}

@@ -47,8 +47,8 @@ func runCount(args []string) int {
 	if err != nil {
 		return fail("count", err)
 	}
-	// count never runs the incremental engine: it is the static path.
-	a := shard.NewApplier(&shard.Counting{Catalog: c.Catalog, Engine: shard.GraphOnly(c.Catalog), Recount: c.Recount}, 0)
+	// count keeps no records: it is the static path.
+	a := shard.NewApplier(&shard.Counting{Catalog: c.Catalog, Recount: c.Recount}, 0, shard.Cuts{})
 	in := &ingest{flags: &inf, applier: a}
 	if err := in.run(); err != nil {
 		in.summary("count")
@@ -89,16 +89,20 @@ func runReplay(args []string) int {
 	if err != nil {
 		return fail("replay", err)
 	}
-	a := shard.NewApplier(c, 0)
+	a := shard.NewApplier(c, 0, shard.Cuts{})
 	var last uint64
 	checkpoint := func(seq uint64) error {
 		last = seq
+		vec, err := a.Vectors()
+		if err != nil {
+			return fmt.Errorf("checkpoint %d: %w", seq, err)
+		}
 		if *verify {
-			if err := compare(a.Names(), a.Vectors(), c.Recount.Recount(a.Graph())); err != nil {
+			if err := compare(a.Names(), vec, c.Recount.Recount(a.Graph())); err != nil {
 				return fmt.Errorf("checkpoint %d: %w", seq, err)
 			}
 		}
-		return writeMatrixFile(filepath.Join(*out, strconv.FormatUint(seq, 10)+".csv"), a.Names(), a.Vectors())
+		return writeMatrixFile(filepath.Join(*out, strconv.FormatUint(seq, 10)+".csv"), a.Names(), vec)
 	}
 	in := &ingest{flags: &inf, applier: a, afterSeq: func(seq uint64) error {
 		if seq%*every == 0 {

@@ -22,6 +22,11 @@ func init() {
 	commands["demo"] = command{"play a fictional payments network with planted patterns through an embedded server and show the alerts on a web page", runDemo}
 }
 
+// demoCutEvery is the demo's cut spacing in event time: its payments are
+// ten seconds apart, so a cut holds about six of them and an alert comes
+// at most a minute of event time after the payment that made it.
+const demoCutEvery = time.Minute
+
 func runDemo(args []string) int {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
 	data := fs.String("data", "", "data directory to keep (default: a temporary one, removed on exit)")
@@ -66,7 +71,7 @@ func runDemo(args []string) int {
 	}
 	defer nc.Close()
 	wf := workerFlags{data: filepath.Join(dir, "state"), http: *httpAddr, stream: shard.DefaultStream, subject: shard.DefaultSubject,
-		batch: shard.DefaultBatch, idle: shard.DefaultIdle, maxDelay: shard.DefaultMaxDelay}
+		cuts: cutFlags{every: demoCutEvery}}
 	wf.counting = countingFlags{kind: "undirected", maxNodes: 4}
 	wf.alerts.yaml, wf.alerts.webhook = demo.AlertsYAML, *webhook
 

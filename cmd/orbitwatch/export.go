@@ -11,6 +11,7 @@ import (
 	"github.com/parquet-go/parquet-go"
 
 	"orbitwatch/internal/progress"
+	"orbitwatch/shard"
 )
 
 func init() {
@@ -40,6 +41,14 @@ func runExport(args []string) int {
 	}
 	defer st.Close()
 	numOrbits := st.Settings().NumOrbits
+	counting, err := shard.NewCounting(st.Settings().Kind, st.Settings().MaxNodes)
+	if err != nil {
+		return fail("export", err)
+	}
+	a, _, err := shard.StateAt(st, counting, cut.Seq)
+	if err != nil {
+		return fail("export", err)
+	}
 	prog := progress.New(os.Stderr, 0, "export nodes")
 	err = createAtomic(*out, func(w io.Writer) error {
 		cw := &countingWriter{w: w, prog: prog}
@@ -49,12 +58,16 @@ func runExport(args []string) int {
 		} else {
 			m = newMatrixParquet(cw, numOrbits)
 		}
-		_, err := st.ForEachAt(cut.Seq, func(node string, vec []uint64) error {
+		var vec []uint64
+		for x, node := range a.Names() {
+			var err error
+			if vec, err = a.Vector(uint32(x), vec); err != nil {
+				return err
+			}
+			if err := m.row(node, vec); err != nil {
+				return err
+			}
 			prog.Add(1, 0)
-			return m.row(node, vec)
-		})
-		if err != nil {
-			return err
 		}
 		return m.close()
 	})

@@ -7,6 +7,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"sort"
@@ -16,13 +17,15 @@ import (
 	"time"
 
 	"orbitwatch/bench/plot"
+	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
+	"orbitwatch/shard"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
 func init() {
-	commands["history"] = command{"list (and plot) one node's orbit vector at every checkpoint in an event-time range", runHistory}
+	commands["history"] = command{"list (and plot) one node's orbit vector at the cuts in an event-time range where its own record changed", runHistory}
 }
 
 // plotOrbits is how many orbits a history plot shows by default.
@@ -65,7 +68,11 @@ func runHistory(args []string) int {
 			return c.usage(err)
 		}
 	}
-	vers, err := nodeHistory(st, *node, rng)
+	counting, err := shard.NewCounting(set.Kind, set.MaxNodes)
+	if err != nil {
+		return fail("history", err)
+	}
+	vers, err := nodeHistory(st, counting.New(), *node, rng)
 	if err != nil {
 		return fail("history", err)
 	}
@@ -143,10 +150,11 @@ func (r *timeRange) contains(wm time.Time) bool {
 	return !r.hasTo || wm.IsZero() || !wm.After(r.to)
 }
 
-// nodeHistory returns node's vector at every checkpoint whose watermark is
-// in rng. Watermarks never decrease along the checkpoints, so those form
-// one run of sequences, read with one History call.
-func nodeHistory(st *storage.Store, node string, rng timeRange) ([]storage.Version, error) {
+// nodeHistory returns node's vector, derived by c from the stored records,
+// at every checkpoint whose watermark is in rng where the node's own record
+// changed, and at the last one (see shard.History). Watermarks never
+// decrease along the checkpoints, so those form one run of sequences.
+func nodeHistory(st *storage.Store, c delta.Counter, node string, rng timeRange) ([]shard.Version, error) {
 	var lo, hi uint64
 	found := false
 	for _, c := range st.Checkpoints() {
@@ -160,7 +168,7 @@ func nodeHistory(st *storage.Store, node string, rng timeRange) ([]storage.Versi
 	if !found {
 		return nil, errors.New("no checkpoint has an event time in the range")
 	}
-	vers, err := st.History(node, lo, hi)
+	vers, err := shard.History(st, c, node, lo, hi, math.MaxInt)
 	if errors.Is(err, storage.ErrUnknownNode) {
 		return nil, fmt.Errorf("node %q is not in the data directory", node)
 	}
@@ -194,7 +202,7 @@ func parseOrbits(s string, n int) ([]int, error) {
 // largestOrbits returns the k orbits with the largest counts at the last
 // version (ties to the lower id), leaving out orbits that are zero at every
 // version unless nothing else is left; the result is in id order.
-func largestOrbits(vers []storage.Version, k int) []int {
+func largestOrbits(vers []shard.Version, k int) []int {
 	final := vers[len(vers)-1].Vector
 	ever := make([]bool, len(final))
 	for _, v := range vers {
@@ -219,7 +227,7 @@ func largestOrbits(vers []storage.Version, k int) []int {
 
 // drawHistory draws the plotted orbits over event time, or over seq when a
 // checkpoint in the history carries no event time, on a log y axis.
-func drawHistory(w io.Writer, ext string, cat *catalog.Catalog, node string, vers []storage.Version, plotted []int) error {
+func drawHistory(w io.Writer, ext string, cat *catalog.Catalog, node string, vers []shard.Version, plotted []int) error {
 	series := make([]plot.Series, len(plotted))
 	for i, o := range plotted {
 		y := make([]float64, len(vers))
@@ -256,7 +264,7 @@ func drawHistory(w io.Writer, ext string, cat *catalog.Catalog, node string, ver
 
 // writeHistoryCSV writes header seq,event_time,<ids>, then one row per
 // version; event_time is RFC 3339 with nanoseconds, empty without a time.
-func writeHistoryCSV(w io.Writer, vers []storage.Version, orbits []int) error {
+func writeHistoryCSV(w io.Writer, vers []shard.Version, orbits []int) error {
 	cw := csv.NewWriter(w)
 	rec := make([]string, len(orbits)+2)
 	rec[0], rec[1] = "seq", "event_time"
@@ -278,7 +286,7 @@ func writeHistoryCSV(w io.Writer, vers []storage.Version, orbits []int) error {
 
 // writeHistoryTable writes the versions as aligned columns: seq, event time
 // ("-" without one), then the listed orbits.
-func writeHistoryTable(w io.Writer, vers []storage.Version, orbits []int) error {
+func writeHistoryTable(w io.Writer, vers []shard.Version, orbits []int) error {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	var b strings.Builder
 	b.WriteString("seq\tevent time\t")

@@ -231,7 +231,9 @@ func (in *ingest) file(path string) (uint64, error) {
 				continue
 			}
 			in.counts.reject(le.Reason)
-			in.applier.RejectLine(in.seq, reasonClass(le.Reason))
+			if err := in.applier.RejectLine(in.seq, reasonClass(le.Reason)); err != nil {
+				return 0, err
+			}
 			if err := in.reject(path, le.FileLine, le.Reason, le.Raw); err != nil {
 				return 0, err
 			}
@@ -242,7 +244,9 @@ func (in *ingest) file(path string) (uint64, error) {
 				continue
 			}
 			in.counts.filter(fe.Reason)
-			in.applier.Pass(in.seq)
+			if err := in.applier.Pass(in.seq); err != nil {
+				return 0, err
+			}
 		case err != nil:
 			return 0, fmt.Errorf("%s: %w", path, err)
 		default:

@@ -36,7 +36,10 @@ func main() {
 		usage()
 		os.Exit(2)
 	}
-	os.Exit(c.run(os.Args[2:]))
+	stop := startProfile()
+	code := c.run(os.Args[2:])
+	stop()
+	os.Exit(code)
 }
 
 func usage() {

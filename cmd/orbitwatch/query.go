@@ -40,15 +40,19 @@ func runQuery(args []string) int {
 		return fail("query", err)
 	}
 	defer st.Close()
-	vec, seq, wm, err := st.VectorAt(*node, cut.Seq)
+	set := st.Settings()
+	counting, err := shard.NewCounting(set.Kind, set.MaxNodes)
+	if err != nil {
+		return fail("query", err)
+	}
+	vec, at, err := shard.DeriveStored(st, counting.New(), *node, cut.Seq)
 	if errors.Is(err, storage.ErrUnknownNode) {
 		return fail("query", fmt.Errorf("node %q is not in %s at checkpoint %d", *node, c.dir, cut.Seq))
 	}
 	if err != nil {
 		return fail("query", err)
 	}
-	set := st.Settings()
-	nv := NodeVector{Node: *node, Kind: set.Kind.String(), MaxNodes: set.MaxNodes, Seq: seq, EventTime: eventTime(wm), Orbits: vec}
+	nv := NodeVector{Node: *node, Kind: set.Kind.String(), MaxNodes: set.MaxNodes, Seq: at.Seq, EventTime: eventTime(at.Watermark), Orbits: vec}
 	if *asJSON {
 		b, err := json.Marshal(nv)
 		if err != nil {

@@ -71,9 +71,7 @@ type workerFlags struct {
 	stream   string
 	subject  string
 	deploy   string
-	batch    uint64
-	idle     time.Duration
-	maxDelay time.Duration
+	cuts     cutFlags
 	peers    string
 	alerts   alertFlags
 }
@@ -85,12 +83,10 @@ func (f *workerFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.window, "window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
 	fs.StringVar(&f.stream, "stream", shard.DefaultStream, "JetStream stream of the event log")
 	fs.StringVar(&f.subject, "subject", shard.DefaultSubject, "subject of the event log")
-	fs.StringVar(&f.deploy, "deployment", "", "name of this set of workers (its shuffle and rejects streams); default: the stream name. A new name starts a new deployment on the same log, e.g. with another shard count")
-	fs.Uint64Var(&f.batch, "batch", shard.DefaultBatch, "log positions per batch; fixed for a deployment, like the shard count")
-	fs.DurationVar(&f.idle, "idle", shard.DefaultIdle, "idle time after which shard 0 cuts a partly filled batch")
-	fs.DurationVar(&f.maxDelay, "max-delay", shard.DefaultMaxDelay, "age of an open batch after which shard 0 cuts it while events keep coming (negative: only at batch ends and idle)")
+	fs.StringVar(&f.deploy, "deployment", "", "name of this set of workers (its rejects stream); default: the stream name")
+	f.cuts.register(fs)
 	f.alerts.register(fs)
-	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for status of all shards and reads by seq)")
+	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for the status of all shards)")
 }
 
 func runWorker(args []string) int {
@@ -100,7 +96,7 @@ func runWorker(args []string) int {
 	wf.register(fs)
 	nf.register(fs)
 	shardFlag := fs.Int("shard", -1, "this worker's shard, 0 ≤ shard < shards")
-	shards := fs.Int("shards", 0, "the deployment's shard count (fixed when its streams are created)")
+	shards := fs.Int("shards", 0, "the number of workers that share the alert scoring (each applies the whole log)")
 	replicas := fs.Int("replicas", 1, "replicas of the streams created when absent: 1, or 3 in a cluster")
 	if err := fs.Parse(args); err != nil {
 		return 2
@@ -137,7 +133,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 		return fail(name, err)
 	}
 	defer st.Close()
-	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Batch, cfg.Idle, cfg.MaxDelay = nc, wf.stream, wf.subject, wf.batch, wf.idle, wf.maxDelay
+	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Cuts = nc, wf.stream, wf.subject, wf.cuts.cuts()
 	cfg.Counting, cfg.Window, cfg.Store, cfg.Deployment = c, window, st, wf.deploy
 	cfg.Logf = func(format string, args ...any) {
 		fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d: %s\n", name, cfg.Shard, fmt.Sprintf(format, args...))
@@ -185,7 +181,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 		scancel()
 	}
 	stat := w.Status()
-	fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d of %d stopped at cut %d (log read to %d, %d applied)\n", name, stat.Shard, stat.Shards, stat.CutSeq, stat.AppliedSeq, stat.Applied)
+	fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d of %d stopped with the cut at %d durable (log read to %d, %d applied)\n", name, stat.Shard, stat.Shards, stat.CommittedSeq, stat.AppliedSeq, stat.Applied)
 	if runErr != nil {
 		return fail(name, runErr)
 	}

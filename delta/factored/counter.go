@@ -12,7 +12,7 @@ import (
 // It bounds the work of an event at a light endpoint (its neighbours'
 // light-degree sums move) and the number of heavy nodes (at most 2|E|/θ),
 // whose pair counts reads use. Measured in this package's benchmarks.
-const DefaultHeavy = 256
+const DefaultHeavy = 512
 
 // node holds the quantities of one node that its neighbours' reads need
 // too; four holds those only its own read needs. Split so that a read's

@@ -16,14 +16,14 @@
 // alerts with the same ids. The state (hysteresis, cool-downs, decayed
 // baselines, the rate window) is serialisable so a worker can checkpoint it
 // with its counts, and Forget drops that of nodes gone quiet. Outside
-// Evaluate, ReadBaseline does the as-of read of a look-back baseline from a
-// store, Records turns alerts into storage records, and Webhook delivers
-// alerts over HTTP from its own goroutine without ever blocking the caller.
+// Evaluate, Records turns alerts into storage records, and Webhook
+// delivers alerts over HTTP from its own goroutine without ever blocking
+// the caller.
 //
-// At a cut the worker: reads each touched node's baseline (ReadBaseline),
-// calls Evaluate, stores the alerts with storage.Store.PutAlerts before
-// committing the cut's checkpoint (with the Evaluator's MarshalBinary among
-// the checkpoint's blobs), then publishes them and hands them to Webhook.
+// At a cut the worker's alert stage (shard.AlertStage) reads each changed
+// node's baseline, calls Evaluate, and puts the alerts, the scored vectors
+// and the Evaluator's state into the cut's checkpoint; once the cut is
+// durable the worker publishes the alerts and hands them to Webhook.
 //
 // It is not for counting (package delta), for reading baselines from
 // history (the caller reads them from package storage, which also stores the

@@ -132,11 +132,13 @@ type run struct {
 	baselines, now [][]uint64
 }
 
-// replay applies payments in order, cutting every cutEvery events: it
-// evaluates the touched nodes against baselines read as of the look-back
-// from the store, stores the alerts, and commits the checkpoint. When
-// restartAt > 0 the evaluator is serialised after that many cuts and a
-// fresh one restored from the bytes continues.
+// replay applies payments in order through the product's path, cutting
+// every cutEvery events: the alert stage scores the nodes whose records
+// changed against baselines derived from the store, and the committer
+// writes each cut with its alerts. It holds every baseline an alert shows
+// to the node's vector at the latest cut a look-back before, kept here in
+// memory. When restartAt > 0 the evaluator is serialised after that many
+// cuts and a fresh one restored from the bytes continues.
 func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, restartAt int) run {
 	t.Helper()
 	counting, err := shard.NewCounting(delta.Undirected, 4)
@@ -149,64 +151,83 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 		t.Fatal(err)
 	}
 	defer st.Close()
-	ap := shard.NewApplier(counting, window)
+	com := shard.NewCommitter(st, 4)
+	ap := shard.NewApplier(counting, window, shard.Cuts{Lines: cutEvery})
 	ev := alert.New(cfg, cat)
+	stage := shard.NewAlertStage(ev)
+	if err := stage.Restore(st, &storage.State{}); err != nil {
+		t.Fatal(err)
+	}
 	var out run
 	cuts := 0
 	var snaps []snapshot
-	var changes []alert.NodeChange
-	for i, p := range pays {
-		seq := uint64(i + 1)
-		if err := ap.Apply(seq, stream.Event{Op: stream.OpAdd, Src: p.src, Dst: p.dst, TS: p.at, HasTS: true}); err != nil {
-			t.Fatalf("payment %d: %v", i, err)
+	ap.OnCut = func(cp *storage.Checkpoint) error {
+		got, err := stage.Evaluate(ap, cp, nil, com, time.Time{})
+		if err != nil {
+			return err
 		}
-		if seq%cutEvery != 0 && i != len(pays)-1 {
-			continue
-		}
-		cut := alert.Cut{Seq: seq, EventTime: ap.Watermark()}
-		changes = changes[:0]
-		var bases [][]uint64
-		for _, x := range ap.Touched() {
-			name := ap.Names()[x]
-			base := baseline(t, st, ev.Config(), name, cut.EventTime)
-			if want := snapshotAt(snaps, x, cut.EventTime.Add(-cfg.Lookback)); cfg.Baseline == alert.BaselineLookback && !slices.Equal(base, want) {
-				t.Fatalf("cut %d: baseline of %s read %v, the in-memory history has %v", seq, name, base, want)
+		now := map[string][]uint64{}
+		for _, r := range cp.Scored {
+			vec := make([]uint64, cat.NumOrbits())
+			if err := delta.DecodeCounts(r.Data, vec); err != nil {
+				return err
 			}
-			bases = append(bases, base)
-			changes = append(changes, alert.NodeChange{Node: name, Degree: ap.Graph().Degree(x), Now: ap.Vectors().Row(x), Baseline: base})
+			now[ap.Names()[r.Node]] = vec
 		}
-		if observe != nil {
-			observe(cut, changes)
-		}
-		got := ev.Evaluate(cut, changes)
 		for _, a := range got {
 			out.alerts = append(out.alerts, a)
 			out.near = append(out.near, withinTwoHops(ap, a.Node, planted))
-			j := slices.IndexFunc(changes, func(c alert.NodeChange) bool { return c.Node == a.Node })
-			out.baselines = append(out.baselines, bases[j])
-			out.now = append(out.now, slices.Clone(changes[j].Now))
+			out.now = append(out.now, now[a.Node])
+			var base []uint64
+			if cfg.Baseline == alert.BaselineLookback {
+				x, _ := ap.Lookup(a.Node)
+				base = snapshotAt(snaps, x, cp.Watermark.Add(-cfg.Lookback))
+				for _, m := range a.Orbits {
+					if b := float64(0); base != nil && m.Before != float64(base[m.Orbit]) || base == nil && m.Before != b {
+						return fmt.Errorf("cut %d: alert %s on %s saw baseline %v of orbit %d, the in-memory history has %v", cp.Seq, a.Rule, a.Node, m.Before, m.Orbit, base)
+					}
+				}
+			}
+			out.baselines = append(out.baselines, base)
 		}
-		if err := st.PutAlerts(seq, records(t, got)); err != nil {
-			t.Fatal(err)
-		}
-		if err := st.Commit(ap.Checkpoint(nil)); err != nil {
-			t.Fatal(err)
-		}
-		ap.ResetTouched()
 		if cfg.Baseline == alert.BaselineLookback {
-			snaps = append(snaps, snapshot{ap.Watermark(), ap.Vectors().Clone()})
+			vec, err := ap.Vectors()
+			if err != nil {
+				return err
+			}
+			snaps = append(snaps, snapshot{cp.Watermark, vec})
 		}
 		cuts++
 		if cuts == restartAt {
-			b, err := ev.MarshalBinary()
+			b, err := stage.Evaluator().MarshalBinary()
 			if err != nil {
-				t.Fatal(err)
+				return err
 			}
 			ev = alert.New(cfg, cat)
 			if err := ev.UnmarshalBinary(b); err != nil {
-				t.Fatal(err)
+				return err
 			}
+			if err := com.Put(cp); err != nil {
+				return err
+			}
+			if err := com.Wait(cp.Seq); err != nil {
+				return err
+			}
+			stage = shard.NewAlertStage(ev)
+			return stage.Restore(st, &storage.State{})
 		}
+		return com.Put(cp)
+	}
+	for i, p := range pays {
+		if err := ap.Apply(uint64(i+1), stream.Event{Op: stream.OpAdd, Src: p.src, Dst: p.dst, TS: p.at, HasTS: true}); err != nil {
+			t.Fatalf("payment %d: %v", i, err)
+		}
+	}
+	if err := ap.Cut(); err != nil {
+		t.Fatal(err)
+	}
+	if err := com.Close(); err != nil {
+		t.Fatal(err)
 	}
 	stored, err := st.Alerts(storage.AlertFilter{})
 	if err != nil {
@@ -218,10 +239,6 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 	out.ev = ev
 	return out
 }
-
-// observe, when set, sees every cut's node changes before they are
-// evaluated (for diagnostics in tests).
-var observe func(alert.Cut, []alert.NodeChange)
 
 // snapshot is every vector at one cut, kept in memory to check the as-of
 // reads from the store.
@@ -242,18 +259,6 @@ func snapshotAt(snaps []snapshot, x uint32, at time.Time) []uint64 {
 		}
 	}
 	return nil
-}
-
-// baseline reads node's vector as of the look-back before at (nil: none).
-func baseline(t *testing.T, st *storage.Store, cfg alert.Config, node string, at time.Time) []uint64 {
-	if cfg.Baseline != alert.BaselineLookback {
-		return nil
-	}
-	vec, err := alert.ReadBaseline(st, node, at, cfg.Lookback)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return vec
 }
 
 func withinTwoHops(ap *shard.Applier, node string, planted []string) bool {

@@ -29,7 +29,17 @@ func newMarket(t *testing.T) *market {
 	if err != nil {
 		t.Fatal(err)
 	}
-	return &market{t: t, ap: shard.NewApplier(counting, 0)}
+	return &market{t: t, ap: shard.NewApplier(counting, 0, shard.Cuts{})}
+}
+
+// vectors returns every node's current vector.
+func (m *market) vectors() *delta.Vectors {
+	m.t.Helper()
+	v, err := m.ap.Vectors()
+	if err != nil {
+		m.t.Fatal(err)
+	}
+	return v
 }
 
 func (m *market) pay(src, dst string) {
@@ -97,7 +107,7 @@ func TestRingShareIsTheClosingContinuations(t *testing.T) {
 	against := alert.RingAgainst(cat)
 	share := func(node string) (float64, uint64) {
 		x, _ := m.ap.Lookup(node)
-		v := m.ap.Vectors().Row(x)
+		v := m.vectors().Row(x)
 		return alert.Share(v, 8, against), v[8]
 	}
 	// A K_{2,5} on its own: every continuation of a sender closes.
@@ -116,7 +126,7 @@ func TestRingShareIsTheClosingContinuations(t *testing.T) {
 	}
 	g := m.ap.Graph()
 	for x := range uint32(len(m.ap.Names())) {
-		v := m.ap.Vectors().Row(x)
+		v := m.vectors().Row(x)
 		n := continuations(g, x)
 		if n[0] != v[4] || n[1] != 2*v[9] || n[2] != 2*v[8] || n[3] != 2*v[12] {
 			t.Fatalf("%s: continuations %v, want [o4 2·o9 2·o8 2·o12] of %v", m.ap.Names()[x], n, v)
@@ -163,18 +173,19 @@ func shareAndGrowth(t *testing.T) alert.Config {
 	return cfg
 }
 
-// cutAll evaluates every touched node of m at a cut, with its vector at
-// base (nil: none) as its baseline, and resets the touched set.
+// cutAll evaluates every node of m whose record changed since the last
+// cut (as the alert stage does), with its vector at base (nil: none) as
+// its baseline.
 func cutAll(ev *alert.Evaluator, m *market, base *delta.Vectors) []alert.Alert {
 	var nodes []alert.NodeChange
-	for _, x := range m.ap.Touched() {
-		nc := alert.NodeChange{Node: m.ap.Names()[x], Degree: m.ap.Graph().Degree(x), Now: m.ap.Vectors().Row(x)}
+	vec := m.vectors()
+	m.ap.Counter().Changed(func(x uint32) {
+		nc := alert.NodeChange{Node: m.ap.Names()[x], Degree: m.ap.Graph().Degree(x), Now: vec.Row(x)}
 		if base != nil && int(x) < base.NumNodes() {
 			nc.Baseline = base.Row(x)
 		}
 		nodes = append(nodes, nc)
-	}
-	m.ap.ResetTouched()
+	})
 	return ev.Evaluate(alert.Cut{Seq: m.n, EventTime: m.ap.Watermark()}, nodes)
 }
 
@@ -217,10 +228,10 @@ func TestRingShareTellsARingFromAHubCustomer(t *testing.T) {
 			t.Errorf("opening cut: %s on %s, score %.3f", a.Rule, a.Node, a.Score)
 		}
 	}
-	before := m.ap.Vectors().Clone()
+	before := m.vectors()
 	x, _ := m.ap.Lookup("hh-new")
 	m.pay("hh-new", "shop-big")
-	now := m.ap.Vectors().Row(x)
+	now := m.vectors().Row(x)
 	if now[8] < 10*max(before.Get(x, 8), 1) || now[8] < 8 {
 		t.Fatalf("hh-new: 4-cycles %d → %d, the market does not make the case it is meant to", before.Get(x, 8), now[8])
 	}
@@ -235,7 +246,7 @@ func TestRingShareTellsARingFromAHubCustomer(t *testing.T) {
 			t.Errorf("hub cut: ring-share on %s, score %.3f", a.Node, a.Score)
 		}
 	}
-	before = m.ap.Vectors().Clone()
+	before = m.vectors()
 	for _, s := range []string{"ring-s1", "ring-s2"} {
 		for i := range 5 {
 			m.pay(s, fmt.Sprintf("ring-r%d", i))

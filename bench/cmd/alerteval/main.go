@@ -33,7 +33,7 @@ import (
 func main() {
 	small := flag.Bool("small", false, "the tests' small scenario instead of the demo's")
 	seed := flag.Uint64("seed", 1, "scenario seed")
-	cut := flag.Duration("cut", 10*time.Second, "event time between cuts")
+	cut := flag.Duration("cut", time.Minute, "event time between cuts")
 	rules := flag.String("alerts", "", "alert rules file (default: the demo's rules, bench/demo/alerts.yaml)")
 	defaults := flag.Bool("default-rules", false, "use the alert package's default rules instead of the demo's")
 	flag.Parse()
@@ -93,10 +93,8 @@ type Result struct {
 }
 
 // Run replays sc through an applier and an alert stage over a store in
-// dir, cutting after an event when the next one is later and event time
-// has moved on by at least every since the last cut (and after the last).
-// Alerts are stored and the checkpoint committed at every cut, as the
-// worker does.
+// dir, with a cut at every multiple of every in event time (and after the
+// last event), scored and committed as backfill and the worker do.
 func Run(sc *demo.Scenario, counting *shard.Counting, ac alert.Config, dir string, every time.Duration) (Result, error) {
 	cat := counting.Catalog
 	st, err := storage.Open(dir, storage.Settings{Kind: cat.Kind, MaxNodes: cat.MaxNodes, NumOrbits: cat.NumOrbits()})
@@ -104,43 +102,39 @@ func Run(sc *demo.Scenario, counting *shard.Counting, ac alert.Config, dir strin
 		return Result{}, err
 	}
 	defer st.Close()
-	ap := shard.NewApplier(counting, 0)
+	ap := shard.NewApplier(counting, 0, shard.Cuts{Every: every})
 	stage := shard.NewAlertStage(alert.New(ac, cat))
+	if err := stage.Restore(st, &storage.State{}); err != nil {
+		return Result{}, err
+	}
+	com := shard.NewCommitter(st, 16)
 	var res Result
-	var lastCut time.Time
-	for i, ev := range sc.Events {
-		seq := uint64(i + 1)
-		if err := ap.Apply(seq, ev); err != nil {
-			return res, fmt.Errorf("event %d: %w", i+1, err)
-		}
-		last := i == len(sc.Events)-1
-		if !last && (!sc.Events[i+1].TS.After(ev.TS) || ev.TS.Sub(lastCut) < every) {
-			continue
-		}
-		lastCut = ev.TS
+	ap.OnCut = func(cp *storage.Checkpoint) error {
 		primed := stage.Primed()
-		c := alert.Cut{Seq: seq, EventTime: ap.Watermark()}
-		got, err := stage.Evaluate(st, ap, nil, c)
+		got, err := stage.Evaluate(ap, cp, nil, com, time.Time{})
 		if err != nil {
-			return res, err
+			return err
 		}
 		if stage.Primed() == primed {
 			if res.From.IsZero() {
-				res.From = c.EventTime
+				res.From = cp.Watermark
 			}
-			res.To = c.EventTime
+			res.To = cp.Watermark
 		}
-		if len(got) > 0 {
-			if err := st.PutAlerts(seq, alert.Records(got)); err != nil {
-				return res, err
-			}
-		}
-		if err := st.Commit(ap.Checkpoint(nil)); err != nil {
-			return res, err
-		}
-		ap.ResetTouched()
 		res.Alerts = append(res.Alerts, got...)
 		res.Cuts++
+		return com.Put(cp)
+	}
+	for i, ev := range sc.Events {
+		if err := ap.Apply(uint64(i+1), ev); err != nil {
+			return res, fmt.Errorf("event %d: %w", i+1, err)
+		}
+	}
+	if err := ap.Cut(); err != nil {
+		return res, err
+	}
+	if err := com.Close(); err != nil {
+		return res, err
 	}
 	stored, err := st.Alerts(storage.AlertFilter{})
 	if err != nil {

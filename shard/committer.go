@@ -1,0 +1,129 @@
+package shard
+
+import (
+	"errors"
+	"sync"
+	"time"
+
+	"orbitwatch/storage"
+)
+
+// Committer writes cuts to a store in the background, in log order: while
+// one group of cuts is being made durable the applier goes on, and the
+// cuts that queue up meanwhile go into the next group (storage.Commit
+// makes a group durable with one sync). Put blocks while maxQueued cuts
+// wait, so a slow disk slows the applier instead of filling memory.
+type Committer struct {
+	st        *storage.Store
+	mu        sync.Mutex
+	cond      *sync.Cond
+	queue     []*storage.Checkpoint
+	maxQueued int
+	committed uint64 // last durable seq
+	closed    bool
+	err       error
+	done      chan struct{}
+	groups    int
+	busy      time.Duration // spent in storage.Commit
+	// OnCommit, when set before the first Put, hears of every group made
+	// durable (from the committer's goroutine).
+	OnCommit func(group []*storage.Checkpoint)
+}
+
+// NewCommitter starts a committer for st that holds at most maxQueued
+// cuts not yet being written (at least 1).
+func NewCommitter(st *storage.Store, maxQueued int) *Committer {
+	c := &Committer{st: st, maxQueued: max(maxQueued, 1), committed: st.Seq(), done: make(chan struct{})}
+	c.cond = sync.NewCond(&c.mu)
+	go c.run()
+	return c
+}
+
+// Put queues cp behind the cuts before it. It returns the error of a
+// failed commit, after which the committer takes nothing more.
+func (c *Committer) Put(cp *storage.Checkpoint) error {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for len(c.queue) >= c.maxQueued && c.err == nil && !c.closed {
+		c.cond.Wait()
+	}
+	if c.err != nil {
+		return c.err
+	}
+	if c.closed {
+		return errors.New("shard: committer closed")
+	}
+	c.queue = append(c.queue, cp)
+	c.cond.Broadcast()
+	return nil
+}
+
+// Wait blocks until every cut up to seq is durable (or a commit failed).
+func (c *Committer) Wait(seq uint64) error {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for c.committed < seq && c.err == nil && !(c.closed && len(c.queue) == 0) {
+		c.cond.Wait()
+	}
+	return c.err
+}
+
+// Committed returns the last durable cut's seq.
+func (c *Committer) Committed() uint64 {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.committed
+}
+
+// Busy returns how many groups were committed and the wall time spent
+// committing them.
+func (c *Committer) Busy() (groups int, d time.Duration) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.groups, c.busy
+}
+
+// Close writes what is queued, stops the committer and returns the first
+// commit error.
+func (c *Committer) Close() error {
+	c.mu.Lock()
+	c.closed = true
+	c.cond.Broadcast()
+	c.mu.Unlock()
+	<-c.done
+	return c.err
+}
+
+func (c *Committer) run() {
+	defer close(c.done)
+	for {
+		c.mu.Lock()
+		for len(c.queue) == 0 && !c.closed && c.err == nil {
+			c.cond.Wait()
+		}
+		if len(c.queue) == 0 || c.err != nil {
+			c.mu.Unlock()
+			return
+		}
+		group := c.queue
+		c.queue = nil
+		c.cond.Broadcast()
+		c.mu.Unlock()
+		t0 := time.Now()
+		err := c.st.Commit(group...)
+		took := time.Since(t0)
+		if err == nil && c.OnCommit != nil {
+			c.OnCommit(group)
+		}
+		c.mu.Lock()
+		c.groups++
+		c.busy += took
+		if err != nil {
+			c.err = err
+		} else {
+			c.committed = group[len(group)-1].Seq
+		}
+		c.cond.Broadcast()
+		c.mu.Unlock()
+	}
+}
