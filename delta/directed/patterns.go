@@ -57,16 +57,23 @@ func (l *local) addNeighbour(a uint8, dy *[3]int64, wy *[3][3]int64, ty *[3][3][
 	if *t == (tri9{}) {
 		return
 	}
-	for bc, k := range t {
-		if k == 0 {
-			continue
+	// Most pairs have common neighbours of one or two types: pair only
+	// the non-zero counts.
+	var nz [9]uint8
+	k := 0
+	for bc, c := range t {
+		if c != 0 {
+			nz[k] = uint8(bc)
+			k++
 		}
-		kk := int64(k)
+	}
+	for _, bc := range nz[:k] {
+		kk := int64(t[bc])
 		for e := range 3 {
 			l.v[a][bc/3][bc%3][e] += kk * dy[e]
 		}
-		for ef, k2 := range t {
-			l.dd3[a][bc][ef] += kk * int64(k2)
+		for _, ef := range nz[:k] {
+			l.dd3[a][bc][ef] += kk * int64(t[ef])
 		}
 	}
 }
