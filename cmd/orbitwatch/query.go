@@ -14,6 +14,7 @@ import (
 
 	"orbitwatch/delta/catalog"
 	"orbitwatch/shard"
+	"orbitwatch/shard/api"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
@@ -25,7 +26,7 @@ func init() {
 // NodeVector is the shape `query --json` prints: the HTTP API's node body
 // (JSON strings are UTF-8, so a node id that is not valid UTF-8 is not
 // carried byte for byte).
-type NodeVector = shard.NodeVector
+type NodeVector = api.NodeVector
 
 func runQuery(args []string) int {
 	c := newReadCommand("query", true)

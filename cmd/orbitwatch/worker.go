@@ -16,6 +16,7 @@ import (
 	"github.com/nats-io/nats.go"
 
 	"orbitwatch/shard"
+	"orbitwatch/shard/api"
 	"orbitwatch/storage"
 )
 
@@ -166,7 +167,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 		if wf.peers != "" {
 			peers = strings.Split(wf.peers, ",")
 		}
-		srv = &http.Server{Handler: shard.NewAPI(w, shard.APIOptions{Peers: peers}), ReadHeaderTimeout: 10 * time.Second}
+		srv = &http.Server{Handler: api.New(w, api.Options{Peers: peers}), ReadHeaderTimeout: 10 * time.Second}
 		go srv.Serve(ln)
 		httpURL = "http://" + ln.Addr().String()
 		fmt.Printf("orbitwatch %s: HTTP API %s\n", name, httpURL)

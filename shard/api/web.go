@@ -1,4 +1,4 @@
-package shard
+package api
 
 import (
 	"embed"
@@ -17,7 +17,7 @@ var webFiles embed.FS
 func WebHandler() http.Handler {
 	sub, err := fs.Sub(webFiles, "web")
 	if err != nil {
-		panic("shard: embedded web assets: " + err.Error())
+		panic("api: embedded web assets: " + err.Error())
 	}
 	files := http.FileServerFS(sub)
 	mux := http.NewServeMux()

@@ -1,4 +1,4 @@
-package shard
+package api
 
 import (
 	"context"
@@ -14,14 +14,15 @@ import (
 	"time"
 
 	"orbitwatch/delta"
+	"orbitwatch/shard"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
-// APIOptions configures the HTTP API of one worker.
-type APIOptions struct {
-	// Metrics are the counters /metrics writes. NewAPI registers them as
-	// the view's Observer (batch and cut latencies) and refreshes the
+// Options configures the HTTP API of one worker.
+type Options struct {
+	// Metrics are the counters /metrics writes. New registers them as
+	// the view's shard.Observer (batch and cut latencies) and refreshes the
 	// progress gauges and counters from View.Status at every scrape.
 	// Nil makes a fresh set.
 	Metrics *Metrics
@@ -30,7 +31,7 @@ type APIOptions struct {
 	// shard's own entry is not used. With them /v1/status reports every
 	// shard and ?seq= reads of another shard's node are forwarded to it
 	// over HTTP. Empty: status reports this worker only and such reads are
-	// refused (501); ?at= and latest reads go through View.Read either way.
+	// refused (501); ?at= and latest reads go through shard.View.Read either way.
 	Peers []string
 	// Timeout bounds a forwarded node read and a peer status request;
 	// 0 means 5 s.
@@ -44,7 +45,7 @@ type APIOptions struct {
 // node read, so that forwarding can be seen without changing the JSON.
 const ShardHeader = "Orbitwatch-Shard"
 
-// NewAPI returns the HTTP API of the worker seen through v:
+// New returns the HTTP API of the worker seen through v:
 //
 //	GET /v1/nodes/{id}   one node's orbit vector at the last complete cut,
 //	                     ?at=TIME as of the latest cut whose event-time
@@ -56,7 +57,7 @@ const ShardHeader = "Orbitwatch-Shard"
 //	                     bound the event time, ?limit=N (default 1000) thins
 //	                     the versions evenly, keeping the first and last
 //	GET /v1/nodes/{id}/neighbors  up to ?limit=N (default 24, at most
-//	                     MaxNeighbors) of its neighbours, busiest first, and
+//	                     shard.MaxNeighbors) of its neighbours, busiest first, and
 //	                     the edges among them, from the worker's graph
 //	GET /v1/alerts       this shard's stored alerts, newest first:
 //	                     ?since=SEQ (cuts after it) or ?since=RFC3339
@@ -74,7 +75,7 @@ const ShardHeader = "Orbitwatch-Shard"
 // "." or ".." segments are cleaned away by the router unless escaped: the
 // ids "." and ".." are read as %2E and %2E%2E). A node owned by
 // another shard is read through v.Read, which forwards it.
-func NewAPI(v View, opts APIOptions) http.Handler {
+func New(v shard.View, opts Options) http.Handler {
 	if opts.Metrics == nil {
 		opts.Metrics = NewMetrics()
 	}
@@ -106,8 +107,8 @@ func NewAPI(v View, opts APIOptions) http.Handler {
 }
 
 type api struct {
-	v        View
-	opts     APIOptions
+	v        shard.View
+	opts     Options
 	kind     string
 	maxNodes int
 	derive   delta.Counter // for as-of reads: only Derive is used
@@ -156,7 +157,7 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusBadRequest, "give at or seq, not both")
 		return
 	}
-	req := ReadRequest{Node: id}
+	req := shard.ReadRequest{Node: id}
 	if q.Has("seq") {
 		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
 		if err != nil || seq == 0 {
@@ -235,7 +236,7 @@ func optTime(t time.Time) *time.Time {
 	return &t
 }
 
-func shardOf(s Status) shardJSON {
+func shardOf(s shard.Status) shardJSON {
 	rej := s.Rejected
 	if rej == nil {
 		rej = map[string]uint64{}
@@ -342,7 +343,7 @@ func (a *api) metrics(w http.ResponseWriter, r *http.Request) {
 func writeJSON(w http.ResponseWriter, status int, body any) {
 	b, err := json.Marshal(body)
 	if err != nil {
-		panic("shard: API response does not encode as JSON: " + err.Error())
+		panic("api: API response does not encode as JSON: " + err.Error())
 	}
 	w.Header().Set("Content-Type", "application/json")
 	w.Header().Set("Content-Length", strconv.Itoa(len(b)+1))
@@ -435,7 +436,7 @@ func (a *api) history(w http.ResponseWriter, r *http.Request) {
 		s, _ := st.SeqAtTime(to)
 		toSeq = s
 	}
-	vs, err := History(st, a.derive, id, fromSeq, toSeq, limit)
+	vs, err := shard.History(st, a.derive, id, fromSeq, toSeq, limit)
 	switch {
 	case errors.Is(err, storage.ErrUnknownNode), errors.Is(err, storage.ErrNoCheckpoint):
 		writeError(w, http.StatusNotFound, fmt.Sprintf("unknown node %q at cut %d", id, toSeq))
@@ -457,11 +458,11 @@ func (a *api) neighbors(w http.ResponseWriter, r *http.Request) {
 	if !queryKeys(w, q, "limit") {
 		return
 	}
-	limit, ok := queryLimit(w, q, 24, MaxNeighbors)
+	limit, ok := queryLimit(w, q, 24, shard.MaxNeighbors)
 	if !ok {
 		return
 	}
-	nr, ok := a.v.(NeighborReader)
+	nr, ok := a.v.(shard.NeighborReader)
 	if !ok {
 		writeError(w, http.StatusNotImplemented, "this view does not read the adjacency")
 		return

@@ -1,4 +1,4 @@
-package shard
+package api
 
 import (
 	"bufio"
@@ -10,6 +10,8 @@ import (
 	"sync"
 	"sync/atomic"
 	"time"
+
+	"orbitwatch/shard"
 )
 
 // MetricsContentType is the media type of the Prometheus text exposition
@@ -30,9 +32,9 @@ const otherReason = "other"
 var LatencyBuckets = []float64{0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30}
 
 // Metrics are one worker's counters for the /metrics page. The worker
-// reports batch and cut timings through the Observer methods Batch and Cut
+// reports batch and cut timings through the shard.Observer methods Batch and Cut
 // (a short bucket search and a few atomic adds, no allocation); event
-// counts, positions, lag and readiness come from its Status (SyncStatus).
+// counts, positions, lag and readiness come from its shard.Status (SyncStatus).
 // WriteTo may run concurrently with the updates. The zero value is not
 // usable: call NewMetrics. No metric carries a node id.
 type Metrics struct {
@@ -57,24 +59,24 @@ func NewMetrics() *Metrics {
 	return m
 }
 
-var _ Observer = (*Metrics)(nil)
+var _ shard.Observer = (*Metrics)(nil)
 
-// Batch records the time one batch took (Observer).
+// Batch records the time one batch took (shard.Observer).
 func (m *Metrics) Batch(d time.Duration) { m.batch.Observe(d) }
 
 // Cut records the time from a batch's last message until its cut was
 // committed on this worker, and counts the checkpoint that committed it
-// (Observer).
+// (shard.Observer).
 func (m *Metrics) Cut(d time.Duration) {
 	m.cut.Observe(d)
 	m.checkpoints.Add(1)
 }
 
 // SyncStatus sets the progress gauges and the event counters from a
-// worker's Status, whose counts are totals since the worker started. The
+// worker's shard.Status, whose counts are totals since the worker started. The
 // API calls it at every scrape, so the worker keeps its counts in one place
-// (its Status) and reports only timings here (as Observer).
-func (m *Metrics) SyncStatus(s Status) {
+// (its shard.Status) and reports only timings here (as shard.Observer).
+func (m *Metrics) SyncStatus(s shard.Status) {
 	m.applied.Store(s.Applied)
 	m.expired.Store(s.Expired)
 	m.appliedSeq.Store(s.AppliedSeq)
@@ -136,7 +138,7 @@ type Histogram struct {
 func NewHistogram(bounds []float64) *Histogram {
 	for i, b := range bounds {
 		if !(b > 0) || math.IsInf(b, 0) || (i > 0 && b <= bounds[i-1]) {
-			panic("shard: histogram bounds must be finite, positive and strictly increasing")
+			panic("api: histogram bounds must be finite, positive and strictly increasing")
 		}
 	}
 	return &Histogram{bounds: slices.Clone(bounds), counts: make([]atomic.Uint64, len(bounds)+1)}
