@@ -60,6 +60,7 @@ type WebhookStats struct {
 // queue, whose oldest alerts are then dropped and counted.
 type Webhook struct {
 	cfg    WebhookConfig
+	shown  string // the URL as logs and errors show it (RedactURL)
 	log    *slog.Logger
 	wake   chan struct{}
 	done   chan struct{}
@@ -81,7 +82,7 @@ type Webhook struct {
 func NewWebhook(cfg WebhookConfig) (*Webhook, error) {
 	u, err := url.Parse(cfg.URL)
 	if err != nil || (u.Scheme != "http" && u.Scheme != "https") || u.Host == "" {
-		return nil, fmt.Errorf("alert: webhook URL %q is not an http or https URL", cfg.URL)
+		return nil, fmt.Errorf("alert: webhook URL %s is not an http or https URL", RedactURL(cfg.URL))
 	}
 	def := func(d *time.Duration, v time.Duration) {
 		if *d <= 0 {
@@ -102,7 +103,7 @@ func NewWebhook(cfg WebhookConfig) (*Webhook, error) {
 		cfg.Client = &http.Client{Timeout: cfg.Timeout}
 	}
 	w := &Webhook{
-		cfg: cfg, log: cfg.Logger,
+		cfg: cfg, shown: RedactURL(cfg.URL), log: cfg.Logger,
 		wake: make(chan struct{}, 1), done: make(chan struct{}),
 		queue: make([][]byte, cfg.Queue), ids: make([]string, cfg.Queue),
 	}
@@ -144,7 +145,7 @@ func (w *Webhook) push(id string, body []byte) {
 		w.head = (w.head + 1) % len(w.queue)
 		w.n--
 		if d := w.dropped.Add(1); d == 1 || d%1000 == 0 {
-			w.log.Warn("alert webhook queue full: dropping the oldest alert", "url", w.cfg.URL, "alert", old, "dropped_total", d)
+			w.log.Warn("alert webhook queue full: dropping the oldest alert", "url", w.shown, "alert", old, "dropped_total", d)
 		}
 	}
 	i := (w.head + w.n) % len(w.queue)
@@ -218,7 +219,7 @@ func (w *Webhook) run() {
 		}
 		if err := w.deliver(id, body); err != nil {
 			w.failed.Add(1)
-			w.log.Warn("alert webhook delivery failed", "url", w.cfg.URL, "alert", id, "err", err)
+			w.log.Warn("alert webhook delivery failed", "url", w.shown, "alert", id, "err", err)
 		} else {
 			w.delivered.Add(1)
 		}
@@ -259,13 +260,13 @@ func (w *Webhook) post(ctx context.Context, id string, body []byte) (retry bool,
 	defer cancel()
 	req, err := http.NewRequestWithContext(rctx, http.MethodPost, w.cfg.URL, bytes.NewReader(body))
 	if err != nil {
-		return false, err
+		return false, redactError(err)
 	}
 	req.Header.Set("Content-Type", "application/json")
 	req.Header.Set(AlertIDHeader, id)
 	resp, err := w.cfg.Client.Do(req)
 	if err != nil {
-		return !errors.Is(ctx.Err(), context.Canceled), err
+		return !errors.Is(ctx.Err(), context.Canceled), redactError(err)
 	}
 	io.Copy(io.Discard, io.LimitReader(resp.Body, 64<<10))
 	resp.Body.Close()
@@ -276,4 +277,33 @@ func (w *Webhook) post(ctx context.Context, id string, body []byte) (retry bool,
 		return true, fmt.Errorf("answer %s", resp.Status)
 	}
 	return false, fmt.Errorf("refused with %s", resp.Status)
+}
+
+// RedactURL returns u as logs and error messages may show it: scheme and
+// host only, with "/…" standing for a path, query or fragment and the
+// user information dropped, since webhook receivers commonly carry their
+// secret in any of those ("https://hooks.example/services/T0/B0/secret"
+// becomes "https://hooks.example/…"). A URL that does not parse is shown
+// as "(a URL that does not parse)".
+func RedactURL(u string) string {
+	p, err := url.Parse(u)
+	if err != nil || p.Opaque != "" {
+		return "(a URL that does not parse)"
+	}
+	out := p.Scheme + "://" + p.Host
+	if (p.Path != "" && p.Path != "/") || p.RawQuery != "" || p.Fragment != "" || p.ForceQuery {
+		out += "/…"
+	}
+	return out
+}
+
+// redactError returns err with the URL of a *url.Error (which the HTTP
+// client wraps around every failure, naming the request's URL or a
+// redirect's) redacted.
+func redactError(err error) error {
+	var ue *url.Error
+	if !errors.As(err, &ue) {
+		return err
+	}
+	return &url.Error{Op: ue.Op, URL: RedactURL(ue.URL), Err: ue.Err}
 }

@@ -9,6 +9,7 @@ import (
 	"net/http"
 	"net/http/httptest"
 	"reflect"
+	"strings"
 	"sync"
 	"testing"
 	"time"
@@ -222,4 +223,81 @@ func TestWebhookGivesUp(t *testing.T) {
 	if _, err := alert.NewWebhook(alert.WebhookConfig{URL: "ftp://example.invalid/x"}); err == nil {
 		t.Fatal("a non-http URL was accepted")
 	}
+}
+
+// TestWebhookURLRedacted sends alerts to a receiver whose URL carries a
+// secret in its user information, path and query, and that refuses them
+// (a permanent refusal), and to a closed port (a dial error, whose text the
+// HTTP client builds around the URL): no log line and no error shows the
+// secret, and the host is still named so an operator knows which hook.
+func TestWebhookURLRedacted(t *testing.T) {
+	const secret = "s3cr3t-token-7f2a"
+	srv := httptest.NewServer(http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		http.Error(w, "no such hook", http.StatusNotFound)
+	}))
+	defer srv.Close()
+	closed := httptest.NewServer(http.NotFoundHandler())
+	closedURL := closed.URL
+	closed.Close()
+
+	var logs strings.Builder
+	var mu sync.Mutex
+	logger := slog.New(slog.NewTextHandler(lockedWriter{&mu, &logs}, nil))
+	for _, base := range []string{srv.URL, closedURL} {
+		u := strings.Replace(base, "http://", "http://user:"+secret+"@", 1) + "/hooks/" + secret + "?token=" + secret + "#" + secret
+		wh, err := alert.NewWebhook(alert.WebhookConfig{URL: u, Attempts: 2, Backoff: time.Millisecond, Logger: logger})
+		if err != nil {
+			t.Fatal(err)
+		}
+		wh.Send(testAlert(0))
+		waitFor(t, "a failure", func() bool { return wh.Stats().Failed == 1 })
+		wh.Close(context.Background())
+	}
+	mu.Lock()
+	out := logs.String()
+	mu.Unlock()
+	if strings.Contains(out, secret) {
+		t.Errorf("webhook logs show the secret:\n%s", out)
+	}
+	for _, base := range []string{srv.URL, closedURL} {
+		if !strings.Contains(out, base+"/…") {
+			t.Errorf("webhook logs do not name %s/…:\n%s", base, out)
+		}
+	}
+	if strings.Count(out, "delivery failed") != 2 {
+		t.Errorf("want two delivery failures logged:\n%s", out)
+	}
+	if _, err := alert.NewWebhook(alert.WebhookConfig{URL: "ftp://hooks.example.invalid/" + secret}); err == nil || strings.Contains(err.Error(), secret) {
+		t.Errorf("bad URL error %v shows the secret (or no error)", err)
+	}
+}
+
+func TestRedactURL(t *testing.T) {
+	for _, c := range []struct{ in, want string }{
+		{"https://hooks.example.invalid/services/T0/B0/secret", "https://hooks.example.invalid/…"},
+		{"https://hooks.example.invalid", "https://hooks.example.invalid"},
+		{"https://hooks.example.invalid/", "https://hooks.example.invalid"},
+		{"https://u:p@hooks.example.invalid:8443/", "https://hooks.example.invalid:8443"},
+		{"http://hooks.example.invalid?key=secret", "http://hooks.example.invalid/…"},
+		{"http://hooks.example.invalid/#secret", "http://hooks.example.invalid/…"},
+		{"http://hooks.example.invalid/?", "http://hooks.example.invalid/…"},
+		{"mailto:secret@example.invalid", "(a URL that does not parse)"},
+		{"http://[::1%zz/secret", "(a URL that does not parse)"},
+	} {
+		if got := alert.RedactURL(c.in); got != c.want {
+			t.Errorf("RedactURL(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+}
+
+// lockedWriter serialises writes from the delivery goroutines.
+type lockedWriter struct {
+	mu *sync.Mutex
+	w  io.Writer
+}
+
+func (l lockedWriter) Write(p []byte) (int, error) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.w.Write(p)
 }
