@@ -12,6 +12,7 @@ import (
 // cost what the eager engine emits (DESIGN.md §7).
 type eager struct {
 	e       Engine
+	signed  SignedEngine // e, when it counts a Signed graph
 	vec     *Vectors
 	emit    Emit
 	fault   error
@@ -19,9 +20,17 @@ type eager struct {
 }
 
 // NewEager returns the Counter that keeps every node's orbit vector as its
-// record, updated by e.
+// record, updated by e. An engine of the Signed kind must be a
+// SignedEngine.
 func NewEager(e Engine) Counter {
 	c := &eager{e: e, vec: NewVectors(0, e.NumOrbits())}
+	if e.Kind() == Signed {
+		se, ok := e.(SignedEngine)
+		if !ok {
+			panic("delta: NewEager of a Signed engine that cannot insert a negative edge")
+		}
+		c.signed = se
+	}
 	c.emit = c.add
 	return c
 }
@@ -50,7 +59,11 @@ func (c *eager) grow(n int) {
 
 func (c *eager) Insert(g *Graph, u, v uint32, neg bool) error {
 	c.grow(g.NumNodes())
-	c.e.Insert(g, u, v, c.emit)
+	if c.signed != nil {
+		c.signed.InsertSigned(g, u, v, neg, c.emit)
+	} else {
+		c.e.Insert(g, u, v, c.emit)
+	}
 	return c.fault
 }
 

@@ -27,6 +27,14 @@ type Engine interface {
 	Delete(g *Graph, u, v uint32, emit Emit)
 }
 
+// SignedEngine is an Engine of a Signed graph. Insert adds a positive
+// edge; InsertSigned adds one of the sign neg (the graph lacks the edge,
+// so it cannot tell the sign). Delete reads the sign from the graph.
+type SignedEngine interface {
+	Engine
+	InsertSigned(g *Graph, u, v uint32, neg bool, emit Emit)
+}
+
 // Recounter computes every node's orbit vector from scratch. It is a code
 // path separate from any Engine, used to verify it.
 type Recounter interface {

@@ -9,21 +9,34 @@ import (
 // Nodes are dense uint32 ids 0..NumNodes()-1. For Undirected graphs Out(u)
 // holds the neighbours of u and In is unused. For Directed graphs Out(u)
 // holds the successors (u→w) and In(u) the predecessors (w→u); Neighbors(u)
-// is their union, computed on demand.
+// is their union, computed on demand. Signed graphs are Undirected graphs
+// whose pairs also carry a sign: Out(u) holds every neighbour and Neg(u)
+// those joined by a negative edge.
 //
 // Multiplicities of 1 are stored only as the bitmap bit; multiplicities
-// above 1 are kept in a side map, so a simple graph costs no map entry.
+// above 1 are kept in a side map, so a simple graph costs no map entry. A
+// signed pair keeps a positive multiplicity p and a negative one n: the
+// side map holds the multiplicity of the pair's own sign minus one (n − 1
+// for a negative pair, p − 1 for a positive one), and a negative pair with
+// p > 0 keeps p in a second map, so a pair that only ever had one sign
+// costs what an unsigned one does.
 type Graph struct {
 	kind  Kind
 	out   []*roaring.Bitmap
 	in    []*roaring.Bitmap
-	extra map[uint64]uint32 // multiplicity − 1, only where > 0
-	edges int               // simple edges (undirected) or arcs (directed)
+	neg   []*roaring.Bitmap // Signed: the negative neighbours, a subset of out
+	extra map[uint64]uint32 // multiplicity − 1 of the pair's own sign, only where > 0
+	pos   map[uint64]uint32 // Signed: p of a negative pair, only where > 0
+	edges int               // simple edges (undirected, signed) or arcs (directed)
 }
 
 // NewGraph returns an empty graph of the given kind.
 func NewGraph(kind Kind) *Graph {
-	return &Graph{kind: kind, extra: make(map[uint64]uint32)}
+	g := &Graph{kind: kind, extra: make(map[uint64]uint32)}
+	if kind == Signed {
+		g.pos = make(map[uint64]uint32)
+	}
+	return g
 }
 
 // Kind returns the graph's kind.
@@ -32,7 +45,8 @@ func (g *Graph) Kind() Kind { return g.kind }
 // NumNodes returns the number of node ids in use.
 func (g *Graph) NumNodes() int { return len(g.out) }
 
-// NumEdges returns the number of simple edges (Undirected) or arcs (Directed).
+// NumEdges returns the number of simple edges (Undirected, Signed) or arcs
+// (Directed).
 func (g *Graph) NumEdges() int { return g.edges }
 
 // Grow makes node ids 0..n-1 exist. It never shrinks the graph.
@@ -42,11 +56,14 @@ func (g *Graph) Grow(n int) {
 		if g.kind == Directed {
 			g.in = append(g.in, roaring.New())
 		}
+		if g.kind == Signed {
+			g.neg = append(g.neg, roaring.New())
+		}
 	}
 }
 
 func (g *Graph) key(u, v uint32) uint64 {
-	if g.kind == Undirected && u > v {
+	if g.kind != Directed && u > v {
 		u, v = v, u
 	}
 	return uint64(u)<<32 | uint64(v)
@@ -61,19 +78,35 @@ func (g *Graph) HasEdge(u, v uint32) bool {
 	return g.out[u].Contains(v)
 }
 
-// Multiplicity returns the multiplicity of {u,v} or u→v.
+// Multiplicity returns the multiplicity of {u,v} or u→v; for a Signed
+// graph the sum p + n of both signs' (never above 2^32−1).
 func (g *Graph) Multiplicity(u, v uint32) uint32 {
+	p, n := g.Multiplicities(u, v)
+	return p + n
+}
+
+// Multiplicities returns the positive and negative multiplicity of {u,v}
+// in a Signed graph; for the other kinds the multiplicity and 0.
+func (g *Graph) Multiplicities(u, v uint32) (pos, neg uint32) {
 	if !g.HasEdge(u, v) {
-		return 0
+		return 0, 0
 	}
-	return 1 + g.extra[g.key(u, v)]
+	k := g.key(u, v)
+	own := 1 + g.extra[k]
+	if g.kind == Signed && g.neg[u].Contains(v) {
+		return g.pos[k], own
+	}
+	return own, 0
 }
 
 // Increment adds one to the multiplicity of {u,v} (or u→v), growing the
 // graph to hold both nodes. It reports whether the simple graph changed
 // (multiplicity 0→1). A self-loop is rejected with ErrSelfLoop and changes
-// nothing.
+// nothing. On a Signed graph it is IncrementSigned with a positive sign.
 func (g *Graph) Increment(u, v uint32) (changed bool, err error) {
+	if g.kind == Signed {
+		return g.IncrementSigned(u, v, false)
+	}
 	if u == v {
 		return false, ErrSelfLoop
 	}
@@ -92,8 +125,12 @@ func (g *Graph) Increment(u, v uint32) (changed bool, err error) {
 
 // Decrement subtracts one from the multiplicity of {u,v} (or u→v). It
 // reports whether the simple graph changed (multiplicity 1→0). A remove of
-// an absent edge is rejected with ErrAbsent and changes nothing.
+// an absent edge is rejected with ErrAbsent and changes nothing. On a
+// Signed graph it is DecrementSigned with a positive sign.
 func (g *Graph) Decrement(u, v uint32) (changed bool, err error) {
+	if g.kind == Signed {
+		return g.DecrementSigned(u, v, false)
+	}
 	if u == v {
 		return false, ErrSelfLoop
 	}
@@ -127,7 +164,7 @@ func (g *Graph) Link(u, v uint32) {
 // Unlink removes {u,v} (or u→v) from the simple graph. The edge must be
 // present with multiplicity 1.
 func (g *Graph) Unlink(u, v uint32) {
-	if !g.HasEdge(u, v) || g.extra[g.key(u, v)] != 0 {
+	if !g.HasEdge(u, v) || g.Multiplicity(u, v) != 1 {
 		panic("delta: Unlink of an absent or multiple edge")
 	}
 	g.unlink(u, v)
@@ -135,7 +172,7 @@ func (g *Graph) Unlink(u, v uint32) {
 
 func (g *Graph) link(u, v uint32) {
 	g.out[u].Add(v)
-	if g.kind == Undirected {
+	if g.kind != Directed {
 		g.out[v].Add(u)
 	} else {
 		g.in[v].Add(u)
@@ -145,10 +182,14 @@ func (g *Graph) link(u, v uint32) {
 
 func (g *Graph) unlink(u, v uint32) {
 	g.out[u].Remove(v)
-	if g.kind == Undirected {
+	if g.kind != Directed {
 		g.out[v].Remove(u)
 	} else {
 		g.in[v].Remove(u)
+	}
+	if g.kind == Signed {
+		g.neg[u].Remove(v)
+		g.neg[v].Remove(u)
 	}
 	g.edges--
 }
@@ -160,7 +201,7 @@ func (g *Graph) Out(u uint32) *roaring.Bitmap { return g.out[u] }
 // In returns the predecessors of u in a Directed graph, the neighbours in an
 // Undirected one. The bitmap belongs to the graph.
 func (g *Graph) In(u uint32) *roaring.Bitmap {
-	if g.kind == Undirected {
+	if g.kind != Directed {
 		return g.out[u]
 	}
 	return g.in[u]
@@ -170,7 +211,7 @@ func (g *Graph) In(u uint32) *roaring.Bitmap {
 // Undirected graphs it is Out(u) itself (do not modify it); for Directed
 // graphs a new bitmap.
 func (g *Graph) Neighbors(u uint32) *roaring.Bitmap {
-	if g.kind == Undirected {
+	if g.kind != Directed {
 		return g.out[u]
 	}
 	return roaring.Or(g.out[u], g.in[u])
@@ -184,23 +225,24 @@ func (g *Graph) Adjacent(u, v uint32) bool {
 // Degree returns the number of neighbours (Undirected) or of distinct
 // nodes adjacent in either direction (Directed).
 func (g *Graph) Degree(u uint32) int {
-	if g.kind == Undirected {
+	if g.kind != Directed {
 		return int(g.out[u].GetCardinality())
 	}
 	return int(roaring.Or(g.out[u], g.in[u]).GetCardinality())
 }
 
-// ForEachEdge calls f for every simple edge (u<v, Undirected) or arc
-// (Directed) with its multiplicity, in increasing (u, v) order.
+// ForEachEdge calls f for every simple edge (u<v, Undirected and Signed)
+// or arc (Directed) with its multiplicity (Signed: p + n), in increasing
+// (u, v) order.
 func (g *Graph) ForEachEdge(f func(u, v uint32, mult uint32)) {
 	for u := range g.out {
 		it := g.out[u].Iterator()
 		for it.HasNext() {
 			v := it.Next()
-			if g.kind == Undirected && v < uint32(u) {
+			if g.kind != Directed && v < uint32(u) {
 				continue
 			}
-			f(uint32(u), v, 1+g.extra[g.key(uint32(u), v)])
+			f(uint32(u), v, g.Multiplicity(uint32(u), v))
 		}
 	}
 }
@@ -208,6 +250,16 @@ func (g *Graph) ForEachEdge(f func(u, v uint32, mult uint32)) {
 // Clone returns a deep copy of g.
 func (g *Graph) Clone() *Graph {
 	c := &Graph{kind: g.kind, extra: make(map[uint64]uint32, len(g.extra)), edges: g.edges}
+	if g.kind == Signed {
+		c.pos = make(map[uint64]uint32, len(g.pos))
+		for k, p := range g.pos {
+			c.pos[k] = p
+		}
+		c.neg = make([]*roaring.Bitmap, len(g.neg))
+		for i, b := range g.neg {
+			c.neg[i] = b.Clone()
+		}
+	}
 	c.out = make([]*roaring.Bitmap, len(g.out))
 	for i, b := range g.out {
 		c.out[i] = b.Clone()
@@ -225,17 +277,21 @@ func (g *Graph) Clone() *Graph {
 }
 
 // Links returns how y is joined to x, seen from x: LinkOut|LinkIn for an
-// undirected edge; LinkOut for x→y and LinkIn for y→x in a Directed graph;
-// 0 when they are not adjacent.
+// undirected edge, with LinkNeg added for a negative one in a Signed
+// graph; LinkOut for x→y and LinkIn for y→x in a Directed graph; 0 when
+// they are not adjacent.
 func (g *Graph) Links(x, y uint32) Link {
 	if int(x) >= len(g.out) || int(y) >= len(g.out) {
 		return 0
 	}
-	if g.kind == Undirected {
-		if g.out[x].Contains(y) {
-			return LinkOut | LinkIn
+	if g.kind != Directed {
+		if !g.out[x].Contains(y) {
+			return 0
 		}
-		return 0
+		if g.kind == Signed && g.neg[x].Contains(y) {
+			return LinkOut | LinkIn | LinkNeg
+		}
+		return LinkOut | LinkIn
 	}
 	var l Link
 	if g.out[x].Contains(y) {
@@ -245,4 +301,111 @@ func (g *Graph) Links(x, y uint32) Link {
 		l |= LinkIn
 	}
 	return l
+}
+
+// Neg returns the nodes joined to u by a negative edge in a Signed graph
+// (a subset of Out(u)). The bitmap belongs to the graph. It panics for the
+// other kinds.
+func (g *Graph) Neg(u uint32) *roaring.Bitmap {
+	if g.kind != Signed {
+		panic("delta: Neg of a graph that is not Signed")
+	}
+	return g.neg[u]
+}
+
+// IncrementSigned adds one to the multiplicity of the sign neg of {u,v} in
+// a Signed graph, growing the graph to hold both nodes. It reports whether
+// the signed simple graph changed: the edge appeared, or a first negative
+// unit turned a positive edge negative. A self-loop is rejected with
+// ErrSelfLoop, a sum p + n that would pass 2^32−1 with ErrMultiplicity;
+// both change nothing.
+func (g *Graph) IncrementSigned(u, v uint32, neg bool) (changed bool, err error) {
+	p, n, err := g.NextMultiplicities(u, v, neg, true)
+	if err != nil {
+		return false, err
+	}
+	return g.SetMultiplicities(u, v, p, n), nil
+}
+
+// DecrementSigned subtracts one from the multiplicity of the sign neg of
+// {u,v} in a Signed graph. It reports whether the signed simple graph
+// changed: the edge vanished, or its last negative unit went while
+// positive ones stay (the edge turns positive). A remove of a sign whose
+// multiplicity is zero is rejected with ErrAbsent, even while the other
+// sign keeps the edge, and changes nothing.
+func (g *Graph) DecrementSigned(u, v uint32, neg bool) (changed bool, err error) {
+	p, n, err := g.NextMultiplicities(u, v, neg, false)
+	if err != nil {
+		return false, err
+	}
+	return g.SetMultiplicities(u, v, p, n), nil
+}
+
+// NextMultiplicities returns the multiplicities {u,v} of a Signed graph
+// would have after adding (add) or removing one unit of the sign neg,
+// without changing g, or the error IncrementSigned or DecrementSigned
+// would reject the event with.
+func (g *Graph) NextMultiplicities(u, v uint32, neg, add bool) (pos, negm uint32, err error) {
+	if g.kind != Signed {
+		panic("delta: a signed change of a graph that is not Signed")
+	}
+	if u == v {
+		return 0, 0, ErrSelfLoop
+	}
+	p, n := g.Multiplicities(u, v)
+	m := &p
+	if neg {
+		m = &n
+	}
+	switch {
+	case add && p+n == ^uint32(0):
+		return 0, 0, ErrMultiplicity
+	case add:
+		*m++
+	case *m == 0:
+		return 0, 0, ErrAbsent
+	default:
+		*m--
+	}
+	return p, n, nil
+}
+
+// SetMultiplicities sets the multiplicities of {u,v} (u→v) to pos and neg
+// (neg must be 0 unless g is Signed; pos + neg at most 2^32−1), growing
+// the graph to hold both nodes, and reports whether the simple graph or
+// the pair's sign changed. Both zero removes the pair. u != v.
+func (g *Graph) SetMultiplicities(u, v uint32, pos, neg uint32) (changed bool) {
+	if u == v || (neg > 0 && g.kind != Signed) || uint64(pos)+uint64(neg) > uint64(^uint32(0)) {
+		panic("delta: SetMultiplicities of a self-loop, of a sign on an unsigned graph, or above 2^32−1")
+	}
+	g.Grow(int(max(u, v)) + 1)
+	k := g.key(u, v)
+	before := g.Links(u, v)
+	present := pos+neg > 0
+	switch has := g.out[u].Contains(v); {
+	case present && !has:
+		g.link(u, v)
+	case !present && has:
+		g.unlink(u, v)
+	}
+	delete(g.extra, k)
+	own := pos
+	if g.kind == Signed {
+		delete(g.pos, k)
+		if neg > 0 {
+			g.neg[u].Add(v)
+			g.neg[v].Add(u)
+			own = neg
+			if pos > 0 {
+				g.pos[k] = pos
+			}
+		} else {
+			g.neg[u].Remove(v)
+			g.neg[v].Remove(u)
+		}
+	}
+	if own > 1 {
+		g.extra[k] = own - 1
+	}
+	return g.Links(u, v) != before
 }

@@ -11,6 +11,10 @@ const (
 	// Directed graphs: each arc u→v has its own multiplicity; u→v and v→u
 	// together are a reciprocal pair. Graphlets are weakly connected.
 	Directed
+	// Signed graphs: {u,v} keeps a positive and a negative multiplicity;
+	// it is an edge while either is > 0, negative while the negative one
+	// is > 0 (one open dispute marks the relation), positive otherwise.
+	Signed
 )
 
 // String returns the kind's name as used on the command line and in files.
@@ -20,6 +24,8 @@ func (k Kind) String() string {
 		return "undirected"
 	case Directed:
 		return "directed"
+	case Signed:
+		return "signed"
 	}
 	return fmt.Sprintf("Kind(%d)", uint8(k))
 }
@@ -31,6 +37,8 @@ func ParseKind(s string) (Kind, error) {
 		return Undirected, nil
 	case "directed":
 		return Directed, nil
+	case "signed":
+		return Signed, nil
 	}
-	return 0, fmt.Errorf("unknown graph kind %q (want undirected or directed)", s)
+	return 0, fmt.Errorf("unknown graph kind %q (want undirected, directed or signed)", s)
 }

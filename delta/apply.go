@@ -1,0 +1,43 @@
+package delta
+
+// ApplySigned adds (add) or removes one unit of the sign neg of the pair
+// {u,v} of the Signed graph g and keeps c's records in step with it (c may
+// be nil: the graph alone). c is called only when the signed simple graph
+// changes, as Counter requires: Insert(neg) while g lacks uv when the edge
+// appears, Delete while g has uv when it vanishes, and for a change of sign
+// of an edge that stays (a first negative unit on a positive edge, the
+// last negative unit going while positive ones stay) Delete with the old
+// sign and then Insert with the new one, so a counter sees a sign flip as
+// the two changes it is.
+//
+// A rejected event (ErrSelfLoop, ErrAbsent for a sign whose multiplicity
+// is zero, ErrMultiplicity) changes nothing and is returned as it is. Any
+// other error is c's, an invariant violation: g is left as it was before
+// the event and the caller must stop trusting c. changed reports whether
+// the signed simple graph changed.
+func ApplySigned(g *Graph, c Counter, u, v uint32, neg, add bool) (changed bool, err error) {
+	p, n, err := g.NextMultiplicities(u, v, neg, add)
+	if err != nil {
+		return false, err
+	}
+	p0, n0 := g.Multiplicities(u, v)
+	was, now := p0+n0 > 0, p+n > 0
+	if c == nil || (was == now && (n0 > 0) == (n > 0)) {
+		return g.SetMultiplicities(u, v, p, n), nil
+	}
+	g.Grow(int(max(u, v)) + 1)
+	if was {
+		if err := c.Delete(g, u, v); err != nil {
+			return false, err
+		}
+		g.SetMultiplicities(u, v, 0, 0)
+	}
+	if now {
+		if err := c.Insert(g, u, v, n > 0); err != nil {
+			g.SetMultiplicities(u, v, p0, n0)
+			return false, err
+		}
+	}
+	g.SetMultiplicities(u, v, p, n)
+	return true, nil
+}
