@@ -27,8 +27,11 @@ type Catalog struct {
 type Graphlet struct {
 	ID    int      `json:"id"`
 	Nodes int      `json:"nodes"`
-	Edges [][2]int `json:"edges"` // edges i<j (undirected) or arcs i→j (directed)
-	Name  string   `json:"name"`
+	Edges [][2]int `json:"edges"` // edges i<j (undirected, signed) or arcs i→j (directed)
+	// Neg[i] reports whether Edges[i] is a negative tie (signed catalogs
+	// only).
+	Neg  []bool `json:"neg,omitempty"`
+	Name string `json:"name"`
 	// Orbits holds the orbit id of each position 0..Nodes−1.
 	Orbits []int `json:"orbits"`
 	// Code is the canonical adjacency code: the least code over all
@@ -66,20 +69,21 @@ type table struct {
 
 const maxK = 5
 
-var cache [2][maxK + 1]struct {
+var cache [3][maxK + 1]struct {
 	once sync.Once
 	c    *Catalog
 }
 
 // New returns the catalog of the kind's graphlets on 2..maxNodes nodes.
-// Supported: Undirected with maxNodes 2..5, Directed with maxNodes 2..4.
+// Supported: Undirected with maxNodes 2..5, Directed and Signed with
+// maxNodes 2..4.
 // Catalogs are deterministic and cached; the same pointer is returned for
 // the same arguments.
 func New(kind delta.Kind, maxNodes int) (*Catalog, error) {
 	limit := 5
 	switch kind {
 	case delta.Undirected:
-	case delta.Directed:
+	case delta.Directed, delta.Signed:
 		limit = 4
 	default:
 		return nil, fmt.Errorf("catalog: unknown graph kind %v", kind)
@@ -100,7 +104,9 @@ func (c *Catalog) NumOrbits() int { return len(c.Orbits) }
 // when the code is not (weakly) connected, and orbits[i], the orbit id of
 // tuple position i (−1 for disconnected codes and for i ≥ k). Lookup is one
 // table read; the array belongs to the catalog. k must be 2..MaxNodes and
-// code below 2^bits with bits = k(k−1)/2 (undirected) or k(k−1) (directed).
+// code below 2^bits with bits = k(k−1)/2 (undirected) or k(k−1) (directed,
+// signed). A signed code with a sign bit whose pair has no edge is not a
+// graph: Lookup reports it as −1.
 func (c *Catalog) Lookup(k int, code uint32) (graphlet int, orbits *[5]int16) {
 	if k < 2 || k > c.MaxNodes {
 		panic("catalog: Lookup node count out of range")
@@ -114,6 +120,7 @@ func (c *Catalog) Lookup(k int, code uint32) (graphlet int, orbits *[5]int16) {
 
 // class is one isomorphism class of connected k-node codes while building.
 type class struct {
+	kind    delta.Kind
 	k       int
 	code    uint32  // canonical code
 	out, in []int   // per position degrees of the canonical code
@@ -137,7 +144,7 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		codes[k] = make([]perCode, n)
 		byCanon := map[uint32]*class{}
 		for code := 0; code < n; code++ {
-			if !connected(arcs, k, uint32(code)) {
+			if !connected(arcs, k, uint32(code)) || !signsOnEdges(kind, arcs, uint32(code)) {
 				continue
 			}
 			best, bp := ^uint32(0), -1
@@ -148,7 +155,7 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 			}
 			codes[k][code] = perCode{best, perms[bp]}
 			if byCanon[best] == nil {
-				cl := &class{k: k, code: best}
+				cl := &class{kind: kind, k: k, code: best}
 				cl.out, cl.in = degrees(kind, arcs, k, best)
 				for _, p := range perms {
 					if permute(kind, arcs, best, p) == best {
@@ -170,8 +177,11 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		sortOrbits(kind, cl)
 		g := Graphlet{ID: id, Nodes: cl.k, Code: cl.code, Orbits: make([]int, cl.k)}
 		for _, a := range arcsOf(kind, cl.k) {
-			if cl.code>>a.bit&1 != 0 {
+			if cl.code>>a.bit&1 != 0 && !a.neg {
 				g.Edges = append(g.Edges, [2]int{a.i, a.j})
+				if kind == delta.Signed {
+					g.Neg = append(g.Neg, cl.code>>(a.bit+1)&1 != 0)
+				}
 			}
 		}
 		for _, pos := range cl.orbits {
@@ -198,7 +208,7 @@ func build(kind delta.Kind, maxNodes int) *Catalog {
 		arcs := arcsOf(kind, k)
 		for code := range codes[k] {
 			t.orbits[code] = [5]int16{-1, -1, -1, -1, -1}
-			if !connected(arcs, k, uint32(code)) {
+			if !connected(arcs, k, uint32(code)) || !signsOnEdges(kind, arcs, uint32(code)) {
 				t.graphlet[code] = -1
 				continue
 			}
@@ -250,8 +260,9 @@ func positionClasses(k int, autos [][]int) [][]int {
 }
 
 // sortClasses orders graphlets: by node count, then edge (arc) count, then,
-// for undirected graphs, by maximum degree and by the degree sequence
-// (descending, compared lexicographically), and last by canonical code.
+// for undirected and signed graphs, by maximum degree and by the degree
+// sequence (descending, compared lexicographically), for signed graphs
+// then by the number of negative ties, and last by canonical code.
 func sortClasses(kind delta.Kind, cls []*class) {
 	sort.Slice(cls, func(a, b int) bool {
 		x, y := cls[a], cls[b]
@@ -261,7 +272,7 @@ func sortClasses(kind delta.Kind, cls []*class) {
 		if ex, ey := sum(x.out), sum(y.out); ex != ey {
 			return ex < ey
 		}
-		if kind == delta.Undirected {
+		if kind != delta.Directed {
 			dx, dy := descending(x.out), descending(y.out)
 			if dx[0] != dy[0] {
 				return dx[0] < dy[0]
@@ -270,19 +281,27 @@ func sortClasses(kind delta.Kind, cls []*class) {
 				return c < 0
 			}
 		}
+		if nx, ny := sum(x.in), sum(y.in); kind == delta.Signed && nx != ny {
+			return nx < ny
+		}
 		return x.code < y.code
 	})
 }
 
 // sortOrbits orders the orbits of one graphlet. Undirected: by degree, then
 // by the ascending list of neighbour degrees (compared lexicographically),
-// then by least position. Directed: by out-degree, then in-degree, then
-// least position.
+// then by least position. Signed: by degree, then negative degree, then as
+// undirected. Directed: by out-degree, then in-degree, then least
+// position.
 func sortOrbits(kind delta.Kind, cl *class) {
 	key := func(o []int) []int {
 		p := o[0]
-		if kind == delta.Directed {
+		switch kind {
+		case delta.Directed:
 			return []int{cl.out[p], cl.in[p], p}
+		case delta.Signed:
+			nb := neighbourDegrees(cl, p)
+			return append(append([]int{cl.out[p], cl.in[p]}, nb...), p)
 		}
 		nb := neighbourDegrees(cl, p)
 		return append(append([]int{cl.out[p]}, nb...), p)
@@ -293,11 +312,11 @@ func sortOrbits(kind delta.Kind, cl *class) {
 }
 
 // neighbourDegrees returns the ascending degrees of the neighbours of
-// position p in an undirected class.
+// position p in an undirected or signed class.
 func neighbourDegrees(cl *class, p int) []int {
 	var nb []int
 	for q := 0; q < cl.k; q++ {
-		if q != p && cl.code>>PairBit(p, q)&1 != 0 {
+		if q != p && cl.code>>bitFor(cl.kind, p, q, false)&1 != 0 {
 			nb = append(nb, cl.out[q])
 		}
 	}

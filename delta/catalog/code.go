@@ -26,20 +26,55 @@ func ArcBit(i, j int) uint {
 	return 2*p + 1
 }
 
+// SignedBits returns the bits of the signed adjacency code that hold the
+// pair of tuple positions i and j (i != j, either order): with
+// p = PairBit(i, j), bit 2p says the pair is an edge and bit 2p+1 that the
+// edge is negative. A code with bit 2p+1 set and bit 2p clear is not a
+// graph. The layout is prefix-compatible like PairBit's, and it is
+// ArcBit's: the edge bit is where ArcBit(a, b) is for a < b, the sign bit
+// where ArcBit(b, a) is.
+func SignedBits(i, j int) (edge, neg uint) {
+	p := PairBit(i, j)
+	return 2 * p, 2*p + 1
+}
+
+// SignedCode returns the signed adjacency code of a tuple from its edges
+// (either order) and their signs (neg[i] for edges[i]), as tuple
+// positions. Positions must be distinct and below 5.
+func SignedCode(edges [][2]int, neg []bool) uint32 {
+	if len(neg) != len(edges) {
+		panic("catalog: SignedCode with a sign count other than the edge count")
+	}
+	var code uint32
+	for i, e := range edges {
+		if e[0] >= maxK || e[1] >= maxK {
+			panic("catalog: SignedCode position out of range")
+		}
+		eb, nb := SignedBits(e[0], e[1])
+		code |= 1 << eb
+		if neg[i] {
+			code |= 1 << nb
+		}
+	}
+	return code
+}
+
 // codeBits returns the number of code bits of a k-node tuple: k(k−1)/2 for
-// undirected graphs, k(k−1) for directed ones.
+// undirected graphs, k(k−1) for directed and signed ones.
 func codeBits(kind delta.Kind, k int) int {
-	if kind == delta.Directed {
+	if kind != delta.Undirected {
 		return k * (k - 1)
 	}
 	return k * (k - 1) / 2
 }
 
 // arc is one code bit and the ordered pair of positions it joins. For
-// undirected codes each bit is listed once with i < j.
+// undirected codes each bit is listed once with i < j; for signed codes
+// each pair's edge bit and then its sign bit (neg), with i < j.
 type arc struct {
 	bit  uint
 	i, j int
+	neg  bool
 }
 
 // arcsOf lists the code bits of a k-node tuple in bit order.
@@ -47,34 +82,61 @@ func arcsOf(kind delta.Kind, k int) []arc {
 	var out []arc
 	for b := 1; b < k; b++ {
 		for a := 0; a < b; a++ {
-			if kind == delta.Directed {
-				out = append(out, arc{ArcBit(a, b), a, b}, arc{ArcBit(b, a), b, a})
-			} else {
-				out = append(out, arc{PairBit(a, b), a, b})
+			switch kind {
+			case delta.Directed:
+				out = append(out, arc{ArcBit(a, b), a, b, false}, arc{ArcBit(b, a), b, a, false})
+			case delta.Signed:
+				eb, nb := SignedBits(a, b)
+				out = append(out, arc{eb, a, b, false}, arc{nb, a, b, true})
+			default:
+				out = append(out, arc{PairBit(a, b), a, b, false})
 			}
 		}
 	}
 	return out
 }
 
-// bitFor returns the code bit of the edge or arc i→j for the kind.
-func bitFor(kind delta.Kind, i, j int) uint {
-	if kind == delta.Directed {
+// bitFor returns the code bit of the edge or arc i→j for the kind; for a
+// signed code the edge bit, or the sign bit when neg.
+func bitFor(kind delta.Kind, i, j int, neg bool) uint {
+	switch kind {
+	case delta.Directed:
 		return ArcBit(i, j)
+	case delta.Signed:
+		eb, nb := SignedBits(i, j)
+		if neg {
+			return nb
+		}
+		return eb
 	}
 	return PairBit(i, j)
 }
 
 // permute returns the code of the tuple relabelled by p: position i of the
-// old tuple becomes position p[i], so edge (i,j) becomes (p[i],p[j]).
+// old tuple becomes position p[i], so edge (i,j) becomes (p[i],p[j]) with
+// its sign.
 func permute(kind delta.Kind, arcs []arc, code uint32, p []int) uint32 {
 	var out uint32
 	for _, a := range arcs {
 		if code>>a.bit&1 != 0 {
-			out |= 1 << bitFor(kind, p[a.i], p[a.j])
+			out |= 1 << bitFor(kind, p[a.i], p[a.j], a.neg)
 		}
 	}
 	return out
+}
+
+// signsOnEdges reports whether every sign bit of a code sits on an edge
+// (always true for unsigned kinds).
+func signsOnEdges(kind delta.Kind, arcs []arc, code uint32) bool {
+	if kind != delta.Signed {
+		return true
+	}
+	for _, a := range arcs {
+		if a.neg && code>>a.bit&1 != 0 && code>>(a.bit-1)&1 == 0 {
+			return false
+		}
+	}
+	return true
 }
 
 // connected reports whether the k-node code is (weakly) connected.
@@ -97,11 +159,21 @@ func connected(arcs []arc, k int, code uint32) bool {
 }
 
 // degrees returns, per position, the out-degree and in-degree of a code
-// (for undirected codes both are the degree).
+// (for undirected codes both are the degree; for signed codes out is the
+// degree and in the number of negative ties).
 func degrees(kind delta.Kind, arcs []arc, k int, code uint32) (out, in []int) {
 	out, in = make([]int, k), make([]int, k)
 	for _, a := range arcs {
 		if code>>a.bit&1 == 0 {
+			continue
+		}
+		if kind == delta.Signed {
+			d := out
+			if a.neg {
+				d = in
+			}
+			d[a.i]++
+			d[a.j]++
 			continue
 		}
 		out[a.i]++
@@ -115,15 +187,16 @@ func degrees(kind delta.Kind, arcs []arc, k int, code uint32) (out, in []int) {
 }
 
 // Code returns the adjacency code of a tuple from its edges (undirected,
-// either order) or arcs i→j (directed), given as tuple positions. Positions
-// must be distinct and below 5.
+// either order) or arcs i→j (directed), given as tuple positions; for a
+// signed catalog the edges are positive (see SignedCode). Positions must
+// be distinct and below 5.
 func Code(kind delta.Kind, edges [][2]int) uint32 {
 	var code uint32
 	for _, e := range edges {
 		if e[0] >= maxK || e[1] >= maxK {
 			panic("catalog: Code position out of range")
 		}
-		code |= 1 << bitFor(kind, e[0], e[1])
+		code |= 1 << bitFor(kind, e[0], e[1], false)
 	}
 	return code
 }

@@ -15,9 +15,12 @@ import (
 func nameAll(c *Catalog, cls []*class) {
 	shapes := make([]string, len(cls))
 	for i, cl := range cls {
-		if c.Kind == delta.Directed {
+		switch c.Kind {
+		case delta.Directed:
 			shapes[i] = directedShape(cl)
-		} else {
+		case delta.Signed:
+			shapes[i] = signedShape(cl)
+		default:
 			shapes[i] = undirectedShape(cl.k, cl.code)
 		}
 	}
@@ -44,9 +47,12 @@ func nameAll(c *Catalog, cls []*class) {
 		}
 		roles := make([]string, len(cl.orbits))
 		for j, pos := range cl.orbits {
-			if c.Kind == delta.Directed {
+			switch c.Kind {
+			case delta.Directed:
 				roles[j] = directedRole(cl, pos[0])
-			} else {
+			case delta.Signed:
+				roles[j] = signedRole(cl, pos[0])
+			default:
 				roles[j] = undirectedRole(cl, pos[0])
 			}
 		}
@@ -56,7 +62,7 @@ func nameAll(c *Catalog, cls []*class) {
 			switch {
 			case len(cl.orbits) == 1 && c.Kind == delta.Undirected:
 				o.Name = shapes[i]
-			case c.Kind == delta.Directed:
+			case c.Kind != delta.Undirected:
 				o.Name = roles[j] + " of " + article(shapes[i]) + shapes[i]
 			default:
 				o.Name = roles[j] + " of " + shapes[i]
@@ -324,4 +330,130 @@ func joinInts(xs []int) string {
 		parts[i] = strconv.Itoa(x)
 	}
 	return strings.Join(parts, "-")
+}
+
+// signedUnderlying returns the undirected code of a signed code: its
+// edges without their signs.
+func signedUnderlying(k int, code uint32) uint32 {
+	var u uint32
+	for b := 1; b < k; b++ {
+		for a := 0; a < b; a++ {
+			if eb, _ := SignedBits(a, b); code>>eb&1 != 0 {
+				u |= 1 << PairBit(a, b)
+			}
+		}
+	}
+	return u
+}
+
+// signedShape names a signed class: "positive tie" and "negative tie" on
+// two nodes, else the underlying undirected shape as "all-positive
+// <shape>", "all-negative <shape>" or "<shape> with <n> negative
+// tie(s)", and for a shape with a cycle whether it is balanced or
+// unbalanced.
+func signedShape(cl *class) string {
+	base := undirectedShape(cl.k, signedUnderlying(cl.k, cl.code))
+	m, n := sum(cl.out)/2, sum(cl.in)/2
+	var name string
+	switch {
+	case cl.k == 2 && n == 0:
+		return "positive tie"
+	case cl.k == 2:
+		return "negative tie"
+	case n == 0:
+		name = "all-positive " + base
+	case n == m:
+		name = "all-negative " + base
+	case n == 1:
+		name = base + " with 1 negative tie"
+	default:
+		name = fmt.Sprintf("%s with %d negative ties", base, n)
+	}
+	switch {
+	case m < cl.k: // a tree: no cycle to balance
+	case balanced(cl):
+		name += " (balanced)"
+	default:
+		name += " (unbalanced)"
+	}
+	return name
+}
+
+// balanced reports whether a connected signed class is balanced in the
+// sense of Cartwright & Harary 1956: its nodes split into two camps with
+// every positive tie inside a camp and every negative tie between the
+// camps (equivalently, every cycle has an even number of negative ties).
+func balanced(cl *class) bool {
+	camp := []int{0, -1, -1, -1, -1}
+	for changed := true; changed; {
+		changed = false
+		for b := 1; b < cl.k; b++ {
+			for a := 0; a < b; a++ {
+				eb, nb := SignedBits(a, b)
+				if cl.code>>eb&1 == 0 {
+					continue
+				}
+				side := int(cl.code >> nb & 1)
+				switch {
+				case camp[a] >= 0 && camp[b] >= 0:
+					if camp[a]^camp[b] != side {
+						return false
+					}
+				case camp[a] >= 0:
+					camp[b], changed = camp[a]^side, true
+				case camp[b] >= 0:
+					camp[a], changed = camp[b]^side, true
+				}
+			}
+		}
+	}
+	return true
+}
+
+// signedRole names position p of a signed class by its own ties: "end"
+// on two nodes, "any node" when the graphlet has one orbit, else "node on
+// a negative tie", "node between two negative ties", "node between a
+// positive and a negative tie", "node with two positive ties and a
+// negative tie" …, followed by the neighbours' degrees when the ties do
+// not tell the orbits of the graphlet apart.
+func signedRole(cl *class, p int) string {
+	if cl.k == 2 {
+		return "end"
+	}
+	if len(cl.orbits) == 1 {
+		return "any node"
+	}
+	d, n := cl.out[p], cl.in[p]
+	var role string
+	switch {
+	case d == 1 && n == 0:
+		role = "node on a positive tie"
+	case d == 1:
+		role = "node on a negative tie"
+	case d == 2 && n == 1:
+		role = "node between a positive and a negative tie"
+	case d == 2:
+		role = "node between " + ties(d-n, "positive") + ties(n, "negative")
+	case n == 0 || n == d:
+		role = "node with " + ties(d-n, "positive") + ties(n, "negative")
+	default:
+		role = "node with " + ties(d-n, "positive") + " and " + ties(n, "negative")
+	}
+	for _, o := range cl.orbits {
+		if q := o[0]; q != p && cl.out[q] == d && cl.in[q] == n {
+			return role + ", next to degrees " + joinInts(neighbourDegrees(cl, p))
+		}
+	}
+	return role
+}
+
+// ties says "a positive tie", "two negative ties" …; nothing for none.
+func ties(n int, sign string) string {
+	switch n {
+	case 0:
+		return ""
+	case 1:
+		return "a " + sign + " tie"
+	}
+	return []string{"", "", "two", "three", "four"}[n] + " " + sign + " ties"
 }
