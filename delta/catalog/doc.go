@@ -10,21 +10,25 @@
 // The induced subgraph on an ordered tuple (x0, …, x_{k−1}) is one integer.
 // Undirected: the edge between positions a < b is bit b(b−1)/2 + a
 // (PairBit). Directed: with pair index p = b(b−1)/2 + a, the arc a→b is bit
-// 2p and b→a is bit 2p+1 (ArcBit). Both layouts are prefix-compatible: the
+// 2p and b→a is bit 2p+1 (ArcBit). Signed: bit 2p says the pair is an
+// edge and bit 2p+1 that it is negative (SignedBits); a sign bit off an
+// edge is no graph. All layouts are prefix-compatible: the
 // code of x0..x_{k−2} is the low bits of the code of x0..x_{k−1}, so an
 // enumerator can extend a tuple by OR-ing in the new node's bits. Lookup
 // maps a code to its graphlet and the orbit of each tuple position in one
 // table read (tables cover all 2^bits codes: 1024 for undirected k = 5,
-// 4096 for directed k = 4).
+// 4096 for directed and signed k = 4).
 //
 // # Numbering
 //
 // Graphlets are ordered by node count, then edge (arc) count; undirected
-// graphlets then by maximum degree and by the descending degree sequence;
-// last by canonical code. Orbits are numbered graphlet by graphlet; inside
-// a graphlet undirected orbits are ordered by degree, then by the
-// ascending list of neighbour degrees, and directed ones by out-degree,
-// then in-degree; last by least canonical position.
+// and signed graphlets then by maximum degree and by the descending degree
+// sequence, signed ones then by their number of negative ties; last by
+// canonical code. Orbits are numbered graphlet by graphlet; inside a
+// graphlet undirected orbits are ordered by degree, then by the ascending
+// list of neighbour degrees, signed ones by degree, then negative degree,
+// then as undirected ones, and directed ones by out-degree, then
+// in-degree; last by least canonical position.
 //
 // For undirected graphlets on 2–4 nodes the rule reproduces the published
 // numbering of Pržulj 2007 (Bioinformatics 23(2), e177–e183): 0 edge; 1 end
@@ -46,7 +50,13 @@
 // published columns.
 // Directed numbering is the project's own (there is no published one for
 // digraphs with reciprocal arcs); totals are 15 graphlets / 33 orbits on
-// 2–3 nodes and 214 / 730 on 2–4, from our enumeration. Because node count
+// 2–3 nodes and 214 / 730 on 2–4, from our enumeration. Signed graphlets
+// are connected graphs whose edges are positive or negative, up to
+// sign-preserving isomorphism, with orbits as sign-preserving automorphism
+// classes; the numbering is the project's own: 9 graphlets / 15 orbits on
+// 2–3 nodes and 62 / 151 on 2–4, from our enumeration (the graphlet
+// counts 2, 7, 53 per node count are checked by Burnside's lemma over the
+// undirected graphlets). Because node count
 // comes first, a catalog on 2..k−1 nodes is a prefix of the one on 2..k.
 //
 // # Names
@@ -58,7 +68,14 @@
 // centre, tail end, degree-d node, with neighbour degrees where needed).
 // Directed ones speak of payments: "payer of a one-way arc", "both sides
 // of a reciprocal pair", "middle of a directed 3-path", "3 nodes, 2 arcs:
-// out-star". Where the rule gives two equal names a form letter "(form a)",
+// out-star". Signed ones say the sign of the ties: graphlets "positive
+// tie", "all-negative triangle (unbalanced)", "4-cycle with 2 negative
+// ties (balanced)" (balanced in the sense of Cartwright & Harary 1956,
+// said for every shape with a cycle), and orbits the node's own ties:
+// "node between two negative ties of an all-negative 3-path", "any node
+// of an all-negative triangle (unbalanced)", with the neighbours' degrees
+// where the ties do not tell a graphlet's orbits apart.
+// Where the rule gives two equal names a form letter "(form a)",
 // "(form b)" is appended in numbering order, so names are unique.
 //
 // Every orbit also has a Short name. A directed one is read from the
@@ -67,7 +84,7 @@
 // reciprocal pair) and then the payments among the others ("A pays B; C
 // two-way with B"); a test reads every short name back into arcs and
 // checks that the catalog classifies them as the orbit named. Undirected
-// orbits keep their Name as Short.
+// and signed orbits keep their Name as Short.
 //
 // The package is not for counting: see delta/brute for the reference
 // enumerator and the engines in delta/… for incremental counting.
