@@ -8,6 +8,7 @@ require (
 	github.com/dgraph-io/ristretto/v2 v2.2.0
 	github.com/nats-io/nats-server/v2 v2.15.2
 	github.com/nats-io/nats.go v1.55.0
+	github.com/nats-io/nkeys v0.4.16
 	github.com/parquet-go/parquet-go v0.32.0
 	golang.org/x/image v0.48.0
 	golang.org/x/term v0.48.0
@@ -30,7 +31,6 @@ require (
 	github.com/minio/highwayhash v1.0.4 // indirect
 	github.com/mschoch/smat v0.2.0 // indirect
 	github.com/nats-io/jwt/v2 v2.8.2 // indirect
-	github.com/nats-io/nkeys v0.4.16 // indirect
 	github.com/nats-io/nuid v1.0.1 // indirect
 	github.com/parquet-go/bitpack v1.0.0 // indirect
 	github.com/parquet-go/jsonlite v1.0.0 // indirect

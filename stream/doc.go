@@ -97,5 +97,6 @@
 // ordered consumer; the stream sequence is the event's log position (seq)
 // and its Line. A message that does not decode is returned as a
 // *MessageError with its sequence and reading goes on. StartEmbedded runs
-// a server in-process, for tests and single-machine use.
+// a server in-process, for tests and single-machine use: open on loopback
+// only, or admitting the holder of an nkey generated on first start.
 package stream
