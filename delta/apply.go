@@ -4,7 +4,8 @@ package delta
 // {u,v} of the Signed graph g and keeps c's records in step with it (c may
 // be nil: the graph alone). c is called only when the signed simple graph
 // changes, as Counter requires: Insert(neg) while g lacks uv when the edge
-// appears, Delete while g has uv when it vanishes, and for a change of sign
+// appears, Delete while g has uv (shown with multiplicity 1 of its sign)
+// when it vanishes, and for a change of sign
 // of an edge that stays (a first negative unit on a positive edge, the
 // last negative unit going while positive ones stay) Delete with the old
 // sign and then Insert with the new one, so a counter sees a sign flip as
@@ -27,7 +28,14 @@ func ApplySigned(g *Graph, c Counter, u, v uint32, neg, add bool) (changed bool,
 	}
 	g.Grow(int(max(u, v)) + 1)
 	if was {
+		// The counter sees the pair as a simple edge of its old sign.
+		if n0 > 0 {
+			g.SetMultiplicities(u, v, 0, 1)
+		} else {
+			g.SetMultiplicities(u, v, 1, 0)
+		}
 		if err := c.Delete(g, u, v); err != nil {
+			g.SetMultiplicities(u, v, p0, n0)
 			return false, err
 		}
 		g.SetMultiplicities(u, v, 0, 0)

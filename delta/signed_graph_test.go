@@ -216,8 +216,8 @@ func (c *callRecorder) Insert(g *Graph, u, v uint32, neg bool) error {
 }
 
 func (c *callRecorder) Delete(g *Graph, u, v uint32) error {
-	if !g.HasEdge(u, v) {
-		panic("Delete with the edge absent")
+	if !g.HasEdge(u, v) || g.Multiplicity(u, v) != 1 {
+		panic("Delete with the edge absent or multiple")
 	}
 	c.calls += "d"
 	return nil

@@ -109,15 +109,27 @@ func (w *walker) inOrNextTo(y uint32) bool {
 func (w *walker) joinCode(k int, x uint32) uint32 {
 	var code uint32
 	for i, z := range w.nodes[:k] {
-		if w.c.Kind == delta.Directed {
+		switch w.c.Kind {
+		case delta.Directed:
 			if w.g.HasEdge(z, x) {
 				code |= 1 << catalog.ArcBit(i, k)
 			}
 			if w.g.HasEdge(x, z) {
 				code |= 1 << catalog.ArcBit(k, i)
 			}
-		} else if w.g.HasEdge(z, x) {
-			code |= 1 << catalog.PairBit(i, k)
+		case delta.Signed:
+			eb, nb := catalog.SignedBits(i, k)
+			l := w.g.Links(z, x)
+			if l != 0 {
+				code |= 1 << eb
+			}
+			if l&delta.LinkNeg != 0 {
+				code |= 1 << nb
+			}
+		default:
+			if w.g.HasEdge(z, x) {
+				code |= 1 << catalog.PairBit(i, k)
+			}
 		}
 	}
 	return code

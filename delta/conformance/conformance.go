@@ -151,6 +151,10 @@ func (rp *replay) step(r *rand.Rand, e event, nodes int) {
 func (rp *replay) apply(e event) {
 	t, g := rp.t, rp.g
 	t.Helper()
+	if g.Kind() == delta.Signed {
+		rp.applySigned(e)
+		return
+	}
 	g.Grow(int(max(e.u, e.v)) + 1)
 	before := g.NumEdges()
 	var changed bool
@@ -203,6 +207,10 @@ func verb(e event) string {
 // nothing: the right error, the same edge count and multiplicity, and no
 // engine call (the vectors are compared at the next checkpoint).
 func (rp *replay) refuse(e event) {
+	if rp.g.Kind() == delta.Signed {
+		rp.refuseSigned(e)
+		return
+	}
 	edges, mult := rp.g.NumEdges(), rp.g.Multiplicity(e.u, e.v)
 	var err error
 	if e.add {
@@ -253,6 +261,9 @@ func (rp *replay) checkpoint() {
 	}
 	if rp.s.Recount != nil {
 		rp.compare("recount", rp.s.Recount.Recount(rp.g), want)
+	}
+	if rp.c.Kind == delta.Signed {
+		rp.checkUnsigned(want)
 	}
 	rp.queueCheckpoint(rp.v.Clone())
 }

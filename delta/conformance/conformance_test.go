@@ -27,7 +27,18 @@ func (e recompute) Insert(g *delta.Graph, u, v uint32, emit delta.Emit) {
 }
 
 func (e recompute) Delete(g *delta.Graph, u, v uint32, emit delta.Emit) {
-	e.across(g, emit, func() { g.Unlink(u, v) }, func() { g.Link(u, v) })
+	p, n := g.Multiplicities(u, v)
+	e.across(g, emit, func() { g.Unlink(u, v) }, func() { g.SetMultiplicities(u, v, p, n) })
+}
+
+// InsertSigned makes recompute a delta.SignedEngine: the edge is linked
+// with its sign.
+func (e recompute) InsertSigned(g *delta.Graph, u, v uint32, neg bool, emit delta.Emit) {
+	p, n := uint32(1), uint32(0)
+	if neg {
+		p, n = 0, 1
+	}
+	e.across(g, emit, func() { g.SetMultiplicities(u, v, p, n) }, func() { g.Unlink(u, v) })
 }
 
 // across emits brute(after change) − brute(before) and undoes the change.
@@ -63,7 +74,7 @@ func TestSuiteOnRecompute(t *testing.T) {
 	for _, tc := range []struct {
 		kind delta.Kind
 		k    int
-	}{{delta.Undirected, 3}, {delta.Undirected, 4}, {delta.Undirected, 5}, {delta.Directed, 3}, {delta.Directed, 4}} {
+	}{{delta.Undirected, 3}, {delta.Undirected, 4}, {delta.Undirected, 5}, {delta.Directed, 3}, {delta.Directed, 4}, {delta.Signed, 3}, {delta.Signed, 4}} {
 		t.Run(fmt.Sprintf("%v-%d", tc.kind, tc.k), func(t *testing.T) {
 			Run(t, Subject{Name: "recompute", Engine: recompute{mustCatalog(t, tc.kind, tc.k)}})
 		})
@@ -79,6 +90,14 @@ type dropOrbit struct {
 
 func (e dropOrbit) Insert(g *delta.Graph, u, v uint32, emit delta.Emit) {
 	e.recompute.Insert(g, u, v, func(x uint32, o int, d int64) {
+		if o != e.orbit {
+			emit(x, o, d)
+		}
+	})
+}
+
+func (e dropOrbit) InsertSigned(g *delta.Graph, u, v uint32, neg bool, emit delta.Emit) {
+	e.recompute.InsertSigned(g, u, v, neg, func(x uint32, o int, d int64) {
 		if o != e.orbit {
 			emit(x, o, d)
 		}
@@ -148,6 +167,8 @@ func TestSuiteCatchesWrongEngines(t *testing.T) {
 		{"drops triangle changes", dropOrbit{recompute{mustCatalog(t, delta.Undirected, 4)}, 3}, "orbit 3 (triangle)"},
 		{"drops 4-cycle changes", dropOrbit{recompute{mustCatalog(t, delta.Undirected, 4)}, 8}, "orbit 8 (4-cycle)"},
 		{"drops a directed orbit", dropOrbit{recompute{mustCatalog(t, delta.Directed, 3)}, 19}, "orbit 19"},
+		{"drops an unbalanced signed triangle", dropOrbit{recompute{mustCatalog(t, delta.Signed, 3)}, 10}, "orbit 10 (node between two positive ties of a triangle with 1 negative tie (unbalanced))"},
+		{"drops a signed 4-cycle", dropOrbit{recompute{mustCatalog(t, delta.Signed, 4)}, 47}, "orbit 47"},
 		{"leaves the edge linked", leaky{recompute{mustCatalog(t, delta.Undirected, 3)}}, "did not restore the graph"},
 	}
 	for _, tc := range cases {
@@ -204,6 +225,11 @@ func TestReferenceChecksFail(t *testing.T) {
 		{delta.Directed, 3, 0, 0, 1, "networkx DiGraph.degree"},
 		{delta.Directed, 3, 1, 19, 3, "networkx.triadic_census"},
 		{delta.Directed, 3, 1, 32, 3, "igraph motifs_randesu"},
+		{delta.Signed, 3, 4, 1, 1, "negative degree"},
+		{delta.Signed, 3, 0, 0, 1, "positive degree"},
+		{delta.Signed, 3, 1, 10, 1, "unbalanced triangles"},
+		{delta.Signed, 3, 3, 12, 2, "balanced triangles"},
+		{delta.Signed, 4, 3, 41, 4, "igraph motifs_randesu"},
 	}
 	// One Python process answers every case; each case's checks then run
 	// against its own recorder.
@@ -217,10 +243,16 @@ func TestReferenceChecksFail(t *testing.T) {
 		// A 4-cycle 0-1-2-3 with the chord 0-2 and arcs back 2→1 and 1→0
 		// when directed; node 4 pays 0.
 		for _, e := range [][2]uint32{{0, 1}, {1, 2}, {2, 3}, {3, 0}, {0, 2}, {2, 1}, {1, 0}, {4, 0}} {
-			if tc.kind == delta.Undirected && e[0] > e[1] && rp.g.HasEdge(e[1], e[0]) {
+			if tc.kind != delta.Directed && e[0] > e[1] && rp.g.HasEdge(e[1], e[0]) {
 				continue
 			}
 			rp.g.Link(e[0], e[1])
+		}
+		if tc.kind == delta.Signed {
+			// The chord and node 4's tie are negative: both triangles
+			// are unbalanced.
+			rp.g.SetMultiplicities(0, 2, 0, 1)
+			rp.g.SetMultiplicities(4, 0, 0, 1)
 		}
 		v := brute.Count(rp.g, c)
 		v.Set(uint32(tc.node), tc.orbit, v.Get(uint32(tc.node), tc.orbit)+tc.by)
@@ -245,6 +277,42 @@ func TestReferenceChecksFail(t *testing.T) {
 		<-done
 		if failed := recs[i].failed; len(failed) == 0 || !strings.Contains(failed[0], tc.want) {
 			t.Errorf("%v k=%d, node %d orbit %d raised by %d: failures %q, want one citing %s", tc.kind, tc.k, tc.node, tc.orbit, tc.by, failed, tc.want)
+		}
+	}
+}
+
+// TestUnsignedFoldCatches feeds checkUnsigned signed vectors wrong in one
+// count: raised (the unsigned sums no longer match the undirected brute
+// count), or moved to another signed orbit of the same shape (they still
+// match, which is caught only while no tie is negative).
+func TestUnsignedFoldCatches(t *testing.T) {
+	c := mustCatalog(t, delta.Signed, 4)
+	for _, tc := range []struct {
+		from, to int
+		negative bool
+		want     string
+	}{{-1, 12, true, "undirected brute"}, {9, 12, true, ""}, {9, 12, false, "no negative tie"}} {
+		rec := &recorder{TB: t}
+		rp := newReplay(rec, Subject{Name: "perturbed"}, c, "hand graph", 5, &references{})
+		for _, e := range [][2]uint32{{0, 1}, {1, 2}, {2, 0}, {2, 3}} {
+			rp.g.Link(e[0], e[1])
+		}
+		if tc.negative {
+			rp.g.SetMultiplicities(2, 3, 0, 1)
+		}
+		v := brute.Count(rp.g, c)
+		if tc.from >= 0 {
+			v.Set(0, tc.from, v.Get(0, tc.from)-1)
+		}
+		v.Set(0, tc.to, v.Get(0, tc.to)+1)
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			rp.checkUnsigned(v)
+		}()
+		<-done
+		if failed := len(rec.failed) > 0; failed != (tc.want != "") || (failed && !strings.Contains(rec.failed[0], tc.want)) {
+			t.Errorf("orbit %d → %d: failures %q, want %q", tc.from, tc.to, rec.failed, tc.want)
 		}
 	}
 }

@@ -11,6 +11,21 @@
 // igraph motif censuses on final graphs, and a stream of networkx's karate
 // club graph (undirected).
 //
+// Signed kinds run every undirected shape with signs drawn, an
+// all-positive stream, sign flips of present pairs, removes of one sign
+// while the other keeps the pair, and a hub of disputes; rejected events
+// include removes of a sign whose multiplicity is zero while the other
+// sign keeps the edge. Events go through delta.ApplySigned, so a sign flip
+// reaches the counter as a Delete and an Insert. Their outside references
+// are networkx's positive and negative degrees and balanced and
+// unbalanced triangles per node (Heider 1946; Cartwright & Harary 1956)
+// from networkx.enumerate_all_cliques, igraph's motif census of the graph
+// without its signs against the signed graphlets summed by unsigned
+// graphlet, and, at every checkpoint, the undirected brute count of the
+// graph without its signs against the signed orbits summed by unsigned
+// orbit (with every sign positive, the signed counts are the undirected
+// ones).
+//
 // It needs Python 3 with networkx and igraph (see delta/internal/pyref);
 // without them the suite fails, it never skips.
 //

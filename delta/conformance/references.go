@@ -54,6 +54,10 @@ func (rp *replay) queue(check func()) {
 func (rp *replay) queueCheckpoint(v *delta.Vectors) {
 	gr := pyref.FromDelta(rp.g)
 	cut := rp.cut
+	if rp.c.Kind == delta.Signed {
+		rp.queueSigned(cut, gr, v)
+		return
+	}
 	deg := rp.ref.batch.Degrees(gr)
 	if rp.c.Kind == delta.Undirected {
 		tri := rp.ref.batch.Triangles(gr)
@@ -183,6 +187,10 @@ func (rp *replay) countGraphlets(nodes int) int {
 // final graph for sizes 3 up to MaxNodes (igraph has directed classes up
 // to 4 nodes, undirected up to 6).
 func (rp *replay) queueMotifs(v *delta.Vectors) {
+	if rp.c.Kind == delta.Signed {
+		rp.queueSignedMotifs(v)
+		return
+	}
 	gr := pyref.FromDelta(rp.g)
 	for size := 3; size <= rp.c.MaxNodes; size++ {
 		ms := rp.ref.batch.Motifs(gr, size)
@@ -235,13 +243,13 @@ func karate(t testing.TB, s Subject, c *catalog.Catalog, ref *references) {
 	r := rand.New(rand.NewPCG(seed("karate club"), uint64(c.MaxNodes)))
 	rp := newReplay(t, s, c, "karate club", kg.Nodes, ref)
 	for _, e := range kg.Edges {
-		rp.step(r, event{true, e[0], e[1]}, kg.Nodes)
+		rp.step(r, event{true, e[0], e[1], false}, kg.Nodes)
 	}
 	rp.checkpoint()
 	order := r.Perm(len(kg.Edges))
 	for _, i := range order[:len(order)/2] {
 		e := kg.Edges[i]
-		rp.step(r, event{false, e[0], e[1]}, kg.Nodes)
+		rp.step(r, event{false, e[0], e[1], false}, kg.Nodes)
 	}
 	rp.checkpoint()
 	rp.finish()

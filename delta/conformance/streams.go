@@ -6,10 +6,12 @@ import (
 	"orbitwatch/delta"
 )
 
-// event is one edge event: add or remove of {u,v} (arc u→v when directed).
+// event is one edge event: add or remove of {u,v} (arc u→v when
+// directed), of the negative sign when neg (Signed graphs only).
 type event struct {
 	add  bool
 	u, v uint32
+	neg  bool
 }
 
 // stream is one seeded event-stream shape. next returns event i given the
@@ -54,16 +56,19 @@ func existing(r *rand.Rand, g *delta.Graph) (uint32, uint32, bool) {
 func addOrRemove(r *rand.Rand, g *delta.Graph, n int, pAdd float64) event {
 	if r.Float64() >= pAdd {
 		if u, v, ok := existing(r, g); ok {
-			return event{false, u, v}
+			return event{false, u, v, false}
 		}
 	}
 	u, v := pair(r, n)
-	return event{true, u, v}
+	return event{true, u, v, false}
 }
 
 // streams returns the shapes run for a kind; counts are halved in short
 // mode.
 func streams(kind delta.Kind, short bool) []stream {
+	if kind == delta.Signed {
+		return signedStreams(short)
+	}
 	scale := func(n int) int {
 		if short {
 			return n / 2
@@ -109,9 +114,9 @@ func repeatedPairs(events int) stream {
 		}
 		p := pool[r.IntN(len(pool))]
 		if r.Float64() < 0.55 || g.Multiplicity(p[0], p[1]) == 0 {
-			return event{true, p[0], p[1]}
+			return event{true, p[0], p[1], false}
 		}
-		return event{false, p[0], p[1]}
+		return event{false, p[0], p[1], false}
 	}}
 }
 
@@ -128,9 +133,9 @@ func hub(name string, n, events int, pOut float64) stream {
 			u, v = x, 0
 		}
 		if r.Float64() < 0.7 || g.Multiplicity(u, v) == 0 {
-			return event{true, u, v}
+			return event{true, u, v, false}
 		}
-		return event{false, u, v}
+		return event{false, u, v, false}
 	}}
 }
 
@@ -152,7 +157,7 @@ func rebuild(build int) stream {
 		if !ok {
 			return addOrRemove(r, g, 12, 1)
 		}
-		return event{false, u, v}
+		return event{false, u, v, false}
 	}}
 }
 
@@ -163,12 +168,12 @@ func reciprocalPairs(events int) stream {
 		u, v, ok := existing(r, g)
 		switch p := r.Float64(); {
 		case ok && p < 0.5:
-			return event{true, v, u}
+			return event{true, v, u, false}
 		case ok && p < 0.8:
-			return event{false, u, v}
+			return event{false, u, v, false}
 		}
 		a, b := pair(r, 12)
-		return event{true, a, b}
+		return event{true, a, b, false}
 	}}
 }
 
@@ -178,17 +183,17 @@ func oneDirectionRemoves(events int) stream {
 	return stream{"one-direction removes", 12, events, func(r *rand.Rand, g *delta.Graph, i int) event {
 		if i < events/3 {
 			if u, v, ok := existing(r, g); ok && i%2 == 1 {
-				return event{true, v, u}
+				return event{true, v, u, false}
 			}
 			a, b := pair(r, 12)
-			return event{true, a, b}
+			return event{true, a, b, false}
 		}
 		u, v, ok := existing(r, g)
 		if ok && g.HasEdge(v, u) && r.Float64() < 0.6 {
-			return event{false, u, v}
+			return event{false, u, v, false}
 		}
 		if ok && r.Float64() < 0.5 {
-			return event{true, v, u}
+			return event{true, v, u, false}
 		}
 		return addOrRemove(r, g, 12, 0.6)
 	}}
@@ -197,13 +202,16 @@ func oneDirectionRemoves(events int) stream {
 // rejected returns an event the graph must refuse: a self-loop add or
 // remove, or a remove of a pair (arc) whose multiplicity is zero.
 func rejected(r *rand.Rand, g *delta.Graph, n int) event {
+	if g.Kind() == delta.Signed {
+		return rejectedSigned(r, g, n)
+	}
 	if r.IntN(3) != 0 {
 		for try := 0; try < 100; try++ {
 			if u, v := pair(r, n); g.Multiplicity(u, v) == 0 {
-				return event{false, u, v}
+				return event{false, u, v, false}
 			}
 		}
 	}
 	x := uint32(r.IntN(n))
-	return event{r.IntN(2) == 0, x, x}
+	return event{r.IntN(2) == 0, x, x, false}
 }

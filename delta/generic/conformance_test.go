@@ -19,6 +19,7 @@ func TestConformance(t *testing.T) {
 	}{
 		{delta.Directed, 3}, {delta.Directed, 4},
 		{delta.Undirected, 3}, {delta.Undirected, 4}, {delta.Undirected, 5},
+		{delta.Signed, 3}, {delta.Signed, 4},
 	} {
 		cat := mustCatalog(t, c.kind, c.k)
 		for _, s := range []struct {

@@ -1,6 +1,7 @@
 // Package generic counts graphlet orbits for any graph kind and graphlet
-// size that a catalog.Catalog describes (undirected 2–5 nodes, directed 2–4
-// nodes), by enumerating node sets rather than by kind-specific formulas.
+// size that a catalog.Catalog describes (undirected 2–5 nodes, directed and
+// signed 2–4 nodes), by enumerating node sets rather than by kind-specific
+// formulas.
 //
 // It offers three things:
 //
@@ -20,7 +21,10 @@
 //
 // Directed graphs count weakly connected graphlets; an arc u→v changes
 // alone, and v→u, when present, is part of the induced subgraph on both
-// sides of the change, so a reciprocal pair appears or dissolves.
+// sides of the change, so a reciprocal pair appears or dissolves. Signed
+// graphs carry each edge's sign in the code; the engines are
+// delta.SignedEngines (InsertSigned adds a negative edge), and a sign flip
+// is a delete and an insert.
 //
 // It is not the fastest path for undirected 2–4 node counts (delta/undirected
 // has the orbit equations; BenchmarkUndirected4 runs both on one graph) and

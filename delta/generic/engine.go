@@ -62,8 +62,8 @@ func NewEngine(cat *catalog.Catalog) delta.Engine {
 	return &front{t: t, r: e}
 }
 
-func (e *engine) run(g *delta.Graph, u, v uint32, sign int64, emit delta.Emit) {
-	code, ext := e.seed(g, u, v, e.ext[2][:0])
+func (e *engine) run(g *delta.Graph, u, v uint32, sign int64, neg bool, emit delta.Emit) {
+	code, ext := e.seed(g, u, v, neg, e.ext[2][:0])
 	e.ext[2] = ext
 	e.add(e.t.all(2, code), 1, 0, maxNodes)
 	switch e.t.k {

@@ -30,8 +30,8 @@ func NewEnumerator(cat *catalog.Catalog) delta.Engine {
 // run enumerates the sets around uv; sign is +1 for an insert, −1 for a
 // delete. The enumeration never depends on whether uv is present, because
 // u and v are in every set.
-func (e *enumerator) run(g *delta.Graph, u, v uint32, sign int64, emit delta.Emit) {
-	code, ext := e.seed(g, u, v, e.ext[2][:0])
+func (e *enumerator) run(g *delta.Graph, u, v uint32, sign int64, neg bool, emit delta.Emit) {
+	code, ext := e.seed(g, u, v, neg, e.ext[2][:0])
 	e.ext[2] = ext
 	e.t.emitSet(2, code, &e.nodes, sign, emit)
 	if e.t.k > 2 {

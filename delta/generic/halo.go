@@ -8,8 +8,9 @@ import (
 	"orbitwatch/delta"
 )
 
-// Layout of halo.mask: bit q says S[q]→x (undirected: S[q]—x), bit
-// inShift+q says x→S[q], and member says x is in S.
+// Layout of halo.mask: bit q says S[q]→x (undirected, signed: S[q]—x),
+// bit inShift+q says x→S[q] (signed: the edge S[q]—x is negative), and
+// member says x is in S.
 const (
 	inShift  = maxNodes
 	posMask  = 1<<maxNodes - 1
@@ -75,8 +76,14 @@ func (h *halo) join(g *delta.Graph, q int, s uint32, ext []uint32) []uint32 {
 		}
 		h.mask[x] |= bit
 	}
-	if g.Kind() == delta.Directed {
-		list = load(&h.it, list, g.In(s))
+	if k := g.Kind(); k != delta.Undirected {
+		second := g.In(s)
+		if k == delta.Signed {
+			// Every negative neighbour is a neighbour already marked
+			// above, so none joins ext here.
+			second = g.Neg(s)
+		}
+		list = load(&h.it, list, second)
 		bit <<= inShift
 		for _, x := range list[h.nOut[q]:] {
 			if h.mask[x] == 0 {
@@ -111,12 +118,18 @@ func (h *halo) codeAt(p int, x uint32) uint32 {
 }
 
 // seed joins u and v as S[0] and S[1] and returns the code of {u,v}
-// without the changing edge, and the nodes joined to u or v.
-func (h *halo) seed(g *delta.Graph, u, v uint32, ext []uint32) (uint32, []uint32) {
+// without the changing edge, and the nodes joined to u or v. In a Signed
+// graph the code keeps the sign bit of the changing edge (read from g
+// for a delete, set by neg for an insert), which selects the tables of a
+// negative change.
+func (h *halo) seed(g *delta.Graph, u, v uint32, neg bool, ext []uint32) (uint32, []uint32) {
 	h.reserve(g.NumNodes())
 	h.mask[v] |= member
 	ext = h.join(g, 0, u, ext)
 	code := h.codeAt(1, v) &^ h.t.edgeBit
+	if neg {
+		code |= h.t.signBit
+	}
 	ext = h.join(g, 1, v, ext)
 	return code, ext
 }

@@ -168,15 +168,26 @@ func (s *esu) grow(size int, code uint32, ext []uint32) {
 func (s *esu) bits(p int, w uint32) uint32 {
 	var code uint32
 	for i, y := range s.set[:p] {
-		if s.g.Kind() == delta.Directed {
+		switch s.g.Kind() {
+		case delta.Directed:
 			if s.g.HasEdge(y, w) {
 				code |= 1 << catalog.ArcBit(i, p)
 			}
 			if s.g.HasEdge(w, y) {
 				code |= 1 << catalog.ArcBit(p, i)
 			}
-		} else if s.g.HasEdge(y, w) {
-			code |= 1 << catalog.PairBit(i, p)
+		case delta.Signed:
+			if l := s.g.Links(y, w); l != 0 {
+				eb, nb := catalog.SignedBits(i, p)
+				code |= 1 << eb
+				if l&delta.LinkNeg != 0 {
+					code |= 1 << nb
+				}
+			}
+		default:
+			if s.g.HasEdge(y, w) {
+				code |= 1 << catalog.PairBit(i, p)
+			}
 		}
 	}
 	return code
@@ -200,7 +211,7 @@ func (s *esu) count(size int, code uint32) {
 // in a buffer that the next call reuses.
 func (s *esu) neighbours(x uint32) []uint32 {
 	s.out = load(&s.it, s.out[:0], s.g.Out(x))
-	if s.g.Kind() == delta.Undirected {
+	if s.g.Kind() != delta.Directed {
 		return s.out
 	}
 	s.in = load(&s.it, s.in[:0], s.g.In(x))

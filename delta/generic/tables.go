@@ -29,13 +29,20 @@ type change struct {
 // contributes only +1 entries. The changes of the newest member, position
 // m−1, come first and end at mid[m][code].
 //
-// outBits[p][mask] is the code of the arcs q→p (undirected: edges {q,p})
-// for every position q in mask; inBits[p][mask] the code of the arcs p→q.
+// For a Signed graph the code keeps the sign bit of the changing edge:
+// the entries of a code with it are those of a negative edge appearing
+// (the code without the edge drops it too), so one table serves both
+// signs.
+//
+// outBits[p][mask] is the code of the arcs q→p (undirected, signed: edges
+// {q,p}) for every position q in mask; inBits[p][mask] the code of the
+// arcs p→q (signed: the sign bits of the edges {q,p}).
 type tables struct {
 	kind    delta.Kind
 	k       int
 	orbits  int
 	edgeBit uint32 // code bit of u→v, or of {u,v}
+	signBit uint32 // Signed: code bit of {u,v} being negative; else 0
 	start   [maxNodes + 1][]uint32
 	mid     [maxNodes + 1][]uint32
 	changes [maxNodes + 1][]change
@@ -51,14 +58,25 @@ func newTables(cat *catalog.Catalog) *tables {
 		panic("generic: catalog size outside 2..5")
 	}
 	t := &tables{kind: cat.Kind, k: k, orbits: cat.NumOrbits()}
-	directed := cat.Kind == delta.Directed
+	directed, signed := cat.Kind == delta.Directed, cat.Kind == delta.Signed
 	bit := func(i, j int) uint32 {
-		if directed {
+		switch {
+		case directed:
 			return 1 << catalog.ArcBit(i, j)
+		case signed:
+			eb, _ := catalog.SignedBits(i, j)
+			return 1 << eb
 		}
 		return 1 << catalog.PairBit(i, j)
 	}
+	negBit := func(i, j int) uint32 {
+		_, nb := catalog.SignedBits(i, j)
+		return 1 << nb
+	}
 	t.edgeBit = bit(0, 1)
+	if signed {
+		t.signBit = negBit(0, 1)
+	}
 	for p := 0; p < maxNodes; p++ {
 		for mask := 0; mask < 1<<maxNodes; mask++ {
 			for q := 0; q < maxNodes; q++ {
@@ -69,12 +87,15 @@ func newTables(cat *catalog.Catalog) *tables {
 				if directed {
 					t.inBits[p][mask] |= bit(p, q)
 				}
+				if signed {
+					t.inBits[p][mask] |= negBit(q, p)
+				}
 			}
 		}
 	}
 	for m := 2; m <= k; m++ {
 		bits := m * (m - 1) / 2
-		if directed {
+		if directed || signed {
 			bits *= 2
 		}
 		n := uint32(1) << bits
@@ -87,7 +108,7 @@ func newTables(cat *catalog.Catalog) *tables {
 				continue
 			}
 			gWith, with := cat.Lookup(m, code|t.edgeBit)
-			gWithout, without := cat.Lookup(m, code)
+			gWithout, without := cat.Lookup(m, code&^t.signBit)
 			if gWith < 0 {
 				continue
 			}

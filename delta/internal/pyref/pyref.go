@@ -79,18 +79,33 @@ func lastLine(s string) string {
 }
 
 // Graph is a graph as the Python side reads it: nodes 0..Nodes−1 (all of
-// them present, isolated or not) and edges i–j or arcs i→j.
+// them present, isolated or not) and edges i–j or arcs i→j; for a signed
+// graph Neg[i] says Edges[i] is negative (the Python side sets the edge
+// attribute sign to −1 or +1).
 type Graph struct {
 	Nodes    int         `json:"n"`
 	Directed bool        `json:"directed"`
 	Edges    [][2]uint32 `json:"edges"`
+	Neg      []bool      `json:"neg,omitempty"`
 }
 
-// FromDelta copies the simple graph of g.
+// FromDelta copies the simple graph of g, with its signs when g is
+// Signed.
 func FromDelta(g *delta.Graph) Graph {
 	r := Graph{Nodes: g.NumNodes(), Directed: g.Kind() == delta.Directed, Edges: [][2]uint32{}}
-	g.ForEachEdge(func(u, v uint32, _ uint32) { r.Edges = append(r.Edges, [2]uint32{u, v}) })
+	g.ForEachEdge(func(u, v uint32, _ uint32) {
+		r.Edges = append(r.Edges, [2]uint32{u, v})
+		if g.Kind() == delta.Signed {
+			r.Neg = append(r.Neg, g.Links(u, v)&delta.LinkNeg != 0)
+		}
+	})
 	return r
+}
+
+// Unsigned returns g without its signs.
+func (g Graph) Unsigned() Graph {
+	g.Neg = nil
+	return g
 }
 
 // Batch collects calls to run in one Python process. Add calls with Call or
