@@ -22,8 +22,7 @@ import (
 // write lock and a query a read lock, so a query sees every Set before it
 // or none of one.
 type Index struct {
-	m       *Metric
-	workers int
+	m *Metric
 
 	mu   sync.RWMutex
 	data []float32
@@ -38,11 +37,9 @@ type Neighbor struct {
 	Distance float64
 }
 
-// NewIndex returns an empty Index of signatures under m, scanning with
-// runtime.GOMAXPROCS goroutines.
-func NewIndex(m *Metric) *Index {
-	return &Index{m: m, workers: numWorkers()}
-}
+// NewIndex returns an empty Index of signatures under m. Queries scan
+// with runtime.GOMAXPROCS goroutines.
+func NewIndex(m *Metric) *Index { return &Index{m: m} }
 
 func numWorkers() int { return max(1, runtime.GOMAXPROCS(0)) }
 
@@ -193,7 +190,7 @@ func (ix *Index) Nearest(v []uint64, k int, filter func(node uint32) bool) []Nei
 	q := ix.m.Signature(nil, v)
 	ix.mu.RLock()
 	defer ix.mu.RUnlock()
-	workers := min(ix.workers, (ix.rows+chunk-1)/chunk)
+	workers := min(numWorkers(), (ix.rows+chunk-1)/chunk)
 	heaps := make([]topK, max(workers, 1))
 	var next atomic.Int64
 	scan := func(h *topK) {
