@@ -25,7 +25,7 @@ func runServe(args []string) int {
 	fs := flag.NewFlagSet("serve", flag.ContinueOnError)
 	var wf workerFlags
 	wf.register(fs)
-	listen := fs.String("nats-listen", "127.0.0.1:4222", "client address of the embedded NATS server (port 0: any free port)")
+	listen := fs.String("nats-listen", "127.0.0.1:4222", "client address of the embedded NATS server (port 0: any free port); it admits holders of DATA/"+natsKeyFile+" only")
 	if err := fs.Parse(args); err != nil {
 		return 2
 	}
@@ -33,14 +33,20 @@ func runServe(args []string) int {
 		fmt.Fprintln(os.Stderr, "orbitwatch serve: --data DIR is required")
 		return 2
 	}
+	if code := wf.checkAPI("serve"); code != 0 {
+		return code
+	}
 	state := filepath.Join(wf.data, "state")
-	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(wf.data, "nats"), Listen: *listen})
+	// The key is made on first start and kept beside the stores: publish
+	// and worker reach this server with --nkey DATA/nats-user.nk.
+	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(wf.data, "nats"), Listen: *listen, NKeyFile: filepath.Join(wf.data, natsKeyFile)})
 	if err != nil {
 		return fail("serve", err)
 	}
 	defer srv.Shutdown()
 	fmt.Printf("orbitwatch serve: NATS %s\n", srv.URL())
-	nf := natsFlags{url: srv.URL()}
+	fmt.Printf("orbitwatch serve: its clients authenticate with --nkey %s\n", srv.NKeyFile())
+	nf := natsFlags{url: srv.URL(), nkey: srv.NKeyFile()}
 	nc, err := nf.connect("serve")
 	if err != nil {
 		return fail("serve", err)
@@ -55,7 +61,8 @@ func runServe(args []string) int {
 func runNATSServer(args []string) int {
 	fs := flag.NewFlagSet("nats-server", flag.ContinueOnError)
 	store := fs.String("store", "", "JetStream store directory")
-	listen := fs.String("listen", "127.0.0.1:4222", "client address")
+	listen := fs.String("listen", "127.0.0.1:4222", "client address (beyond loopback only with --nkey)")
+	nkey := fs.String("nkey", "", "admit only holders of the NATS user nkey in this seed file, made (0600) when missing; default: anyone on loopback")
 	if err := fs.Parse(args); err != nil {
 		return 2
 	}
@@ -63,7 +70,7 @@ func runNATSServer(args []string) int {
 		fmt.Fprintln(os.Stderr, "orbitwatch nats-server: --store DIR is required")
 		return 2
 	}
-	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: *store, Listen: *listen})
+	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: *store, Listen: *listen, NKeyFile: *nkey})
 	if err != nil {
 		return fail("nats-server", err)
 	}

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"orbitwatch/shard"
+	"orbitwatch/shard/alert"
 )
 
 // MetricsContentType is the media type of the Prometheus text exposition
@@ -32,15 +33,22 @@ const otherReason = "other"
 var LatencyBuckets = []float64{0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30}
 
 // Metrics are one worker's counters for the /metrics page. The worker
-// reports batch and cut timings through the shard.Observer methods Batch and Cut
-// (a short bucket search and a few atomic adds, no allocation); event
-// counts, positions, lag and readiness come from its shard.Status (SyncStatus).
+// reports cut timings through the shard.Observer methods Batch and Cut (a
+// short bucket search and a few atomic adds, no allocation); event counts,
+// positions, lag and readiness come from its shard.Status (SyncStatus), the
+// alert webhook's counts from its Stats (SyncWebhook).
 // WriteTo may run concurrently with the updates. The zero value is not
 // usable: call NewMetrics. No metric carries a node id.
 type Metrics struct {
 	applied, expired, checkpoints atomic.Uint64
 	appliedSeq, cutSeq, lag       atomic.Uint64
+	committedSeq                  atomic.Uint64
 	ready                         atomic.Bool
+
+	// The webhook's totals: alerts delivered, failed (out of tries or
+	// refused) and dropped (queue full, or unsent at exit); tries after
+	// the first; alerts waiting now.
+	hookDelivered, hookFailed, hookDropped, hookRetries, hookWaiting atomic.Uint64
 
 	// rejects maps a reason to its counter. Reads go through the atomic
 	// pointer without locking; a new reason copies the map under mu.
@@ -61,26 +69,28 @@ func NewMetrics() *Metrics {
 
 var _ shard.Observer = (*Metrics)(nil)
 
-// Batch records the time one batch took (shard.Observer).
+// Batch records the time from reading the log message that ended a cut to
+// the cut being taken: scored and queued for the store (shard.Observer).
 func (m *Metrics) Batch(d time.Duration) { m.batch.Observe(d) }
 
-// Cut records the time from a batch's last message until its cut was
-// committed on this worker, and counts the checkpoint that committed it
-// (shard.Observer).
+// Cut records the time from reading the log message that ended a cut to
+// the cut being durable, and counts the commit that made it so (one commit
+// may hold several cuts; shard.Observer).
 func (m *Metrics) Cut(d time.Duration) {
 	m.cut.Observe(d)
 	m.checkpoints.Add(1)
 }
 
 // SyncStatus sets the progress gauges and the event counters from a
-// worker's shard.Status, whose counts are totals since the worker started. The
+// worker's shard.Status, whose counts are totals since the log's start. The
 // API calls it at every scrape, so the worker keeps its counts in one place
-// (its shard.Status) and reports only timings here (as shard.Observer).
+// (its Status) and reports only timings here (as shard.Observer).
 func (m *Metrics) SyncStatus(s shard.Status) {
 	m.applied.Store(s.Applied)
 	m.expired.Store(s.Expired)
 	m.appliedSeq.Store(s.AppliedSeq)
 	m.cutSeq.Store(s.CutSeq)
+	m.committedSeq.Store(s.CommittedSeq)
 	m.lag.Store(s.Lag)
 	m.ready.Store(s.Ready)
 	if len(s.Rejected) == 0 {
@@ -98,6 +108,16 @@ func (m *Metrics) SyncStatus(s shard.Status) {
 	for c, n := range sums {
 		c.Store(n)
 	}
+}
+
+// SyncWebhook sets the webhook counters from its Stats (totals since it
+// started). The API calls it at every scrape when it has a webhook.
+func (m *Metrics) SyncWebhook(s alert.WebhookStats) {
+	m.hookDelivered.Store(s.Delivered)
+	m.hookFailed.Store(s.Failed)
+	m.hookDropped.Store(s.Dropped)
+	m.hookRetries.Store(s.Retries)
+	m.hookWaiting.Store(uint64(max(s.Waiting, 0)))
 }
 
 // rejectCounter returns the counter of reason, adding it, or the "other"
@@ -191,22 +211,32 @@ func (m *Metrics) WriteTo(w io.Writer) (int64, error) {
 	for _, r := range reasons {
 		sample(b, "orbitwatch_events_rejected_total", `reason="`+escapeLabel(r)+`"`, rejects[r].Load())
 	}
-	family(b, "orbitwatch_checkpoints_total", "counter", "Checkpoints committed to the store.")
+	family(b, "orbitwatch_checkpoints_total", "counter", "Commits of cuts to the store (one commit may hold several cuts).")
 	sample(b, "orbitwatch_checkpoints_total", "", m.checkpoints.Load())
 	family(b, "orbitwatch_applied_seq", "gauge", "Last log position applied.")
 	sample(b, "orbitwatch_applied_seq", "", m.appliedSeq.Load())
-	family(b, "orbitwatch_cut_seq", "gauge", "Last complete cut (log position).")
+	family(b, "orbitwatch_cut_seq", "gauge", "Last cut taken (log position).")
 	sample(b, "orbitwatch_cut_seq", "", m.cutSeq.Load())
+	family(b, "orbitwatch_committed_seq", "gauge", "Last cut durable in the store (log position): as-of reads and alerts reach it.")
+	sample(b, "orbitwatch_committed_seq", "", m.committedSeq.Load())
 	family(b, "orbitwatch_lag_events", "gauge", "Log positions between the last applied and the end of the log.")
 	sample(b, "orbitwatch_lag_events", "", m.lag.Load())
-	family(b, "orbitwatch_ready", "gauge", "1 once the worker has caught up to the cut it started behind, else 0.")
+	family(b, "orbitwatch_ready", "gauge", "1 once the worker has applied the log up to where it stood when the worker started, else 0.")
 	var ready uint64
 	if m.ready.Load() {
 		ready = 1
 	}
 	sample(b, "orbitwatch_ready", "", ready)
-	histogram(b, "orbitwatch_batch_seconds", "Time to apply one batch of events.", m.batch)
-	histogram(b, "orbitwatch_cut_seconds", "Time from the end of a batch until its cut is complete.", m.cut)
+	family(b, "orbitwatch_webhook_alerts_total", "counter", "Alerts handed to the webhook, by outcome: delivered (a 2xx answer), failed (out of tries or refused), dropped (queue full, or unsent at exit).")
+	sample(b, "orbitwatch_webhook_alerts_total", `outcome="delivered"`, m.hookDelivered.Load())
+	sample(b, "orbitwatch_webhook_alerts_total", `outcome="dropped"`, m.hookDropped.Load())
+	sample(b, "orbitwatch_webhook_alerts_total", `outcome="failed"`, m.hookFailed.Load())
+	family(b, "orbitwatch_webhook_retries_total", "counter", "Webhook tries after the first try of an alert.")
+	sample(b, "orbitwatch_webhook_retries_total", "", m.hookRetries.Load())
+	family(b, "orbitwatch_webhook_queue_alerts", "gauge", "Alerts waiting to be sent to the webhook.")
+	sample(b, "orbitwatch_webhook_queue_alerts", "", m.hookWaiting.Load())
+	histogram(b, "orbitwatch_batch_seconds", "Time from reading the log message that ends a cut to the cut being taken (scored and queued for the store).", m.batch)
+	histogram(b, "orbitwatch_cut_seconds", "Time from reading the log message that ends a cut to the cut being durable in the store.", m.cut)
 	err := b.Flush()
 	return cw.n, err
 }

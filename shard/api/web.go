@@ -14,6 +14,8 @@ var webFiles embed.FS
 // no external fonts). The page reads the API of the same origin
 // (/v1/catalog, /v1/nodes/{id} with /history and /neighbors, /v1/alerts,
 // /v1/status); a node to show is named in the URL fragment, #node=ID.
+// Where the API asks for a bearer token (401), the page asks the user for
+// one and keeps it for the browser tab only (sessionStorage).
 func WebHandler() http.Handler {
 	sub, err := fs.Sub(webFiles, "web")
 	if err != nil {

@@ -15,12 +15,24 @@
     if (text !== undefined) e.textContent = text;
     return e;
   }
+  // A server that admits only holders of a token answers 401; the page
+  // then asks for one and keeps it for this tab only (sessionStorage).
+  const tokenKey = "orbitwatch-token";
   async function getJSON(path) {
-    const r = await fetch(path, {headers: {Accept: "application/json"}});
+    const headers = {Accept: "application/json"};
+    const token = sessionStorage.getItem(tokenKey);
+    if (token) headers.Authorization = "Bearer " + token;
+    const r = await fetch(path, {headers: headers});
     const body = await r.json().catch(() => ({error: r.statusText}));
+    if (r.status === 401) $("token-form").hidden = false;
     if (!r.ok) throw new Error(body.error || r.statusText);
     return body;
   }
+  $("token-form").addEventListener("submit", (e) => {
+    e.preventDefault();
+    sessionStorage.setItem(tokenKey, $("token").value.trim());
+    location.reload();
+  });
   const enc = encodeURIComponent;
   const fmtTime = (t) => t ? t.replace("T", " ").replace(/\.\d+/, "").replace("Z", " UTC") : "—";
   const orbitName = (o) => catalog && catalog.orbits[o] ? catalog.orbits[o].name : "orbit " + o;
@@ -219,10 +231,10 @@
       const s = await getJSON("/v1/status");
       const box = $("status");
       box.replaceChildren();
-      for (const sh of s.shards) {
+      for (const sh of s.workers) {
         if (sh.error) { box.append(el("span", {class: "lag-bad"}, `shard ${sh.shard}: ${sh.error}`)); continue; }
         const span = el("span", {class: "shard-status"});
-        span.append(document.createTextNode(`shard ${sh.shard}/${sh.shards} · cut ${sh.cut_seq} · `));
+        span.append(document.createTextNode(`shard ${sh.shard} of ${sh.shard_count} · cut ${sh.cut_seq} · `));
         span.append(el("span", {class: sh.lag > 5000 ? "lag-bad" : ""}, `lag ${sh.lag}`));
         span.append(document.createTextNode(` · ${sh.applied} events · watermark ${fmtTime(sh.watermark)}` + (sh.ready ? "" : " · catching up")));
         box.append(span);

@@ -1,0 +1,212 @@
+package api
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"net/http"
+	"net/url"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+
+	"orbitwatch/shard"
+	"orbitwatch/storage"
+	"orbitwatch/stream"
+)
+
+// NodeVector is one node's orbit vector at one point of the log: the body
+// of the API's node read and what `orbitwatch query --json` prints, exactly
+// these keys. Seq is the log position read (the last applied event for a
+// read now, the cut for an as-of read); EventTime the event-time watermark
+// there (RFC 3339, UTC), nil (JSON null) when no event before it carried a
+// time. Orbits[i] is the count of orbit i of the catalog for Kind and
+// MaxNodes.
+type NodeVector struct {
+	Node      string     `json:"node"`
+	Kind      string     `json:"kind"`
+	MaxNodes  int        `json:"max_nodes"`
+	Seq       uint64     `json:"seq"`
+	EventTime *time.Time `json:"event_time"`
+	Orbits    []uint64   `json:"orbits"`
+}
+
+// badID says why id cannot name a node, or "" when it can: node ids are
+// valid UTF-8 of at most stream.MaxIDBytes bytes (the decoder refuses
+// others), so such a request is answered without reading anything.
+func badID(id string) string {
+	switch {
+	case id == "":
+		return "no node id in the path (GET /v1/nodes/{id})"
+	case len(id) > stream.MaxIDBytes:
+		return fmt.Sprintf("no node %s: node ids are at most %d bytes", quoted(id), stream.MaxIDBytes)
+	case !utf8.ValidString(id):
+		return fmt.Sprintf("no node %s: node ids are valid UTF-8", quoted(id))
+	}
+	return ""
+}
+
+// timeError says why the value s of query parameter key is not a time;
+// the parser's words quote s in full, the answer at most maxShown bytes
+// of it.
+func timeError(key, s string, err error) string {
+	return fmt.Sprintf("%s %s: %s", key, quoted(s), strings.ReplaceAll(err.Error(), strconv.Quote(s), quoted(s)))
+}
+
+// nodeRequest reads the id and the query of a request about one node,
+// refusing (404, 400) an id no node can have and parameters other than
+// allowed.
+func nodeRequest(w http.ResponseWriter, r *http.Request, allowed ...string) (id string, q url.Values, ok bool) {
+	id = r.PathValue("id")
+	if msg := badID(id); msg != "" {
+		writeError(w, http.StatusNotFound, msg)
+		return "", nil, false
+	}
+	q = r.URL.Query()
+	return id, q, queryKeys(w, q, allowed...)
+}
+
+func (a *api) node(w http.ResponseWriter, r *http.Request) {
+	id, q, ok := nodeRequest(w, r, "at", "seq")
+	if !ok {
+		return
+	}
+	if q.Has("at") && q.Has("seq") {
+		writeError(w, http.StatusBadRequest, "give at or seq, not both")
+		return
+	}
+	req := shard.ReadRequest{Node: id}
+	if q.Has("seq") {
+		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
+		if err != nil || seq == 0 {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("seq %s: want a log sequence number ≥ 1", quoted(q.Get("seq"))))
+			return
+		}
+		req.Seq = seq
+	}
+	if q.Has("at") {
+		at, err := stream.ParseTime(q.Get("at"))
+		if err != nil {
+			writeError(w, http.StatusBadRequest, timeError("at", q.Get("at"), err))
+			return
+		}
+		req.At = at
+	}
+	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+	defer cancel()
+	rep, err := a.v.Read(ctx, req)
+	if err != nil {
+		a.internal(w, "node "+quoted(id), err)
+		return
+	}
+	w.Header().Set(ShardHeader, strconv.Itoa(rep.Shard))
+	switch rep.Status {
+	case http.StatusOK:
+	case http.StatusNotFound, http.StatusGone:
+		// The view's words name the id in full; an answer repeats at most
+		// maxShown bytes of it.
+		writeError(w, rep.Status, strings.ReplaceAll(rep.Error, strconv.Quote(id), quoted(id)))
+		return
+	default:
+		a.internal(w, "node "+quoted(id), fmt.Errorf("status %d: %s", rep.Status, rep.Error))
+		return
+	}
+	writeJSON(w, http.StatusOK, NodeVector{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, EventTime: optTime(rep.EventTime), Orbits: rep.Orbits})
+}
+
+// versionJSON is one entry of a node's history.
+type versionJSON struct {
+	Seq       uint64     `json:"seq"`
+	EventTime *time.Time `json:"event_time"`
+	Orbits    []uint64   `json:"orbits"`
+}
+
+type historyJSON struct {
+	Node     string        `json:"node"`
+	Kind     string        `json:"kind"`
+	MaxNodes int           `json:"max_nodes"`
+	Versions []versionJSON `json:"versions"`
+}
+
+func (a *api) history(w http.ResponseWriter, r *http.Request) {
+	id, q, ok := nodeRequest(w, r, "from", "to", "limit")
+	if !ok {
+		return
+	}
+	limit, ok := queryLimit(w, q, 1000, 100000)
+	if !ok {
+		return
+	}
+	var bound [2]time.Time
+	for i, k := range []string{"from", "to"} {
+		if !q.Has(k) {
+			continue
+		}
+		t, err := stream.ParseTime(q.Get(k))
+		if err != nil {
+			writeError(w, http.StatusBadRequest, timeError(k, q.Get(k), err))
+			return
+		}
+		bound[i] = t
+	}
+	st := a.v.Store()
+	fromSeq, toSeq := uint64(0), st.Seq()
+	if !bound[0].IsZero() {
+		// The version in force at from is the latest cut at or before it.
+		if s, ok := st.SeqAtTime(bound[0]); ok {
+			fromSeq = s
+		}
+	}
+	if !bound[1].IsZero() {
+		toSeq, _ = st.SeqAtTime(bound[1])
+	}
+	vs, err := shard.History(st, a.derive, id, fromSeq, toSeq, limit)
+	switch {
+	case errors.Is(err, storage.ErrUnknownNode):
+		writeError(w, http.StatusNotFound, fmt.Sprintf("no node %s in the stored cuts up to %d", quoted(id), toSeq))
+		return
+	case errors.Is(err, storage.ErrNoCheckpoint):
+		writeError(w, http.StatusNotFound, "no complete cut in the store yet at or before the end of the range")
+		return
+	case errors.Is(err, storage.ErrRetention):
+		writeError(w, http.StatusGone, fmt.Sprintf("the range reaches before the retained history (cuts from %d on are kept)", st.Floor()))
+		return
+	case err != nil:
+		a.internal(w, "the history of "+quoted(id), err)
+		return
+	}
+	out := historyJSON{Node: id, Kind: a.kind, MaxNodes: a.maxNodes, Versions: make([]versionJSON, 0, len(vs))}
+	for _, v := range vs {
+		out.Versions = append(out.Versions, versionJSON{Seq: v.Seq, EventTime: optTime(v.Watermark), Orbits: v.Vector})
+	}
+	writeJSON(w, http.StatusOK, out)
+}
+
+func (a *api) neighbors(w http.ResponseWriter, r *http.Request) {
+	id, q, ok := nodeRequest(w, r, "limit")
+	if !ok {
+		return
+	}
+	limit, ok := queryLimit(w, q, 24, shard.MaxNeighbors)
+	if !ok {
+		return
+	}
+	nr, ok := a.v.(shard.NeighborReader)
+	if !ok {
+		writeError(w, http.StatusNotImplemented, "this worker does not read its adjacency")
+		return
+	}
+	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
+	defer cancel()
+	nb, err := nr.Neighbors(ctx, id, limit)
+	if err != nil {
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("the neighbours of %s were not read in time; try again", quoted(id)))
+		return
+	}
+	if !nb.Found {
+		writeError(w, http.StatusNotFound, strings.ReplaceAll(nb.Error, strconv.Quote(id), quoted(id)))
+		return
+	}
+	writeJSON(w, http.StatusOK, nb)
+}

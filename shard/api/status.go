@@ -1,0 +1,194 @@
+package api
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"net/http"
+	"net/url"
+	"runtime/debug"
+	"sync"
+	"time"
+)
+
+// workerJSON is one worker's entry of /v1/status. Each name has one
+// meaning: shard is a shard's number, shard_count how many there are.
+type workerJSON struct {
+	Shard      int    `json:"shard"`
+	ShardCount int    `json:"shard_count"`
+	Version    string `json:"version,omitempty"`
+	// AppliedSeq is the last log position applied (reads now see it);
+	// CutSeq the last cut taken, CommittedSeq the last one durable (as-of
+	// reads and alerts reach it).
+	AppliedSeq    uint64            `json:"applied_seq"`
+	CutSeq        uint64            `json:"cut_seq"`
+	CommittedSeq  uint64            `json:"committed_seq"`
+	StreamLastSeq uint64            `json:"stream_last_seq"`
+	Lag           uint64            `json:"lag"`
+	Ready         bool              `json:"ready"`
+	Applied       uint64            `json:"applied"`
+	Expired       uint64            `json:"expired"`
+	Rejected      map[string]uint64 `json:"rejected"`
+	Watermark     *time.Time        `json:"watermark"`
+	StartedAt     *time.Time        `json:"started_at"`
+	CommittedAt   *time.Time        `json:"committed_at"`
+	// AlertsPublished counts the alerts this worker published.
+	AlertsPublished uint64 `json:"alerts_published"`
+	// Error is set, and the rest empty, when a peer did not answer.
+	Error string `json:"error,omitempty"`
+}
+
+// statusJSON is the body of /v1/status: the answering worker's version,
+// shard and shard count, then one entry per worker, its own first, the
+// peers after it in shard order.
+type statusJSON struct {
+	Version    string       `json:"version"`
+	Shard      int          `json:"shard"`
+	ShardCount int          `json:"shard_count"`
+	Workers    []workerJSON `json:"workers"`
+}
+
+func (a *api) self() workerJSON {
+	s := a.v.Status()
+	rej := s.Rejected
+	if rej == nil {
+		rej = map[string]uint64{}
+	}
+	return workerJSON{
+		Shard: s.Shard, ShardCount: s.Shards, Version: a.opts.Version,
+		AppliedSeq: s.AppliedSeq, CutSeq: s.CutSeq, CommittedSeq: s.CommittedSeq,
+		StreamLastSeq: s.StreamLastSeq, Lag: s.Lag, Ready: s.Ready,
+		Applied: s.Applied, Expired: s.Expired, Rejected: rej,
+		Watermark: optTime(s.Watermark), StartedAt: optTime(s.StartedAt), CommittedAt: optTime(s.CommittedAt),
+		AlertsPublished: s.AlertsPublished,
+	}
+}
+
+func (a *api) status(w http.ResponseWriter, r *http.Request) {
+	q := r.URL.Query()
+	if !queryKeys(w, q, "local") {
+		return
+	}
+	local := q.Get("local")
+	if local != "" && local != "true" && local != "false" {
+		writeError(w, http.StatusBadRequest, fmt.Sprintf("local %s: want true or false", quoted(local)))
+		return
+	}
+	self := a.self()
+	out := statusJSON{Version: a.opts.Version, Shard: self.Shard, ShardCount: self.ShardCount, Workers: []workerJSON{self}}
+	if local != "true" && len(a.opts.Peers) > 0 {
+		peers := make([]workerJSON, len(a.opts.Peers))
+		var wg sync.WaitGroup
+		for i, p := range a.opts.Peers {
+			if i == self.Shard || p == "" {
+				continue
+			}
+			wg.Go(func() { peers[i] = a.peerStatus(r.Context(), i, p) })
+		}
+		wg.Wait()
+		for i, p := range peers {
+			if i == self.Shard || a.opts.Peers[i] == "" {
+				continue
+			}
+			if p.Error == "" && p.Shard != i {
+				p = workerJSON{Shard: i, Error: fmt.Sprintf("peer %s says it is shard %d, not %d", a.opts.Peers[i], p.Shard, i)}
+			}
+			out.Workers = append(out.Workers, p)
+		}
+	}
+	writeJSON(w, http.StatusOK, out)
+}
+
+// peerStatus asks the worker of shard i at base for its own entry.
+func (a *api) peerStatus(ctx context.Context, i int, base string) workerJSON {
+	fail := func(err error) workerJSON {
+		return workerJSON{Shard: i, Error: fmt.Sprintf("peer %s: %v", base, err)}
+	}
+	ctx, cancel := context.WithTimeout(ctx, a.opts.Timeout)
+	defer cancel()
+	u, err := url.JoinPath(base, "/v1/status")
+	if err != nil {
+		return fail(err)
+	}
+	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?local=true", nil)
+	if err != nil {
+		return fail(err)
+	}
+	if a.opts.PeerToken != "" {
+		req.Header.Set("Authorization", "Bearer "+a.opts.PeerToken)
+	}
+	resp, err := a.opts.PeerClient.Do(req)
+	if err != nil {
+		return fail(err)
+	}
+	defer resp.Body.Close()
+	if resp.StatusCode != http.StatusOK {
+		return fail(fmt.Errorf("status %s", resp.Status))
+	}
+	var st statusJSON
+	if err := json.NewDecoder(io.LimitReader(resp.Body, 1<<20)).Decode(&st); err != nil {
+		return fail(fmt.Errorf("decoding its status: %w", err))
+	}
+	if len(st.Workers) != 1 {
+		return fail(fmt.Errorf("it reported %d workers for a local status, want 1", len(st.Workers)))
+	}
+	return st.Workers[0]
+}
+
+func (a *api) healthz(w http.ResponseWriter, r *http.Request) {
+	writeJSON(w, http.StatusOK, map[string]string{"status": "alive"})
+}
+
+func (a *api) readyz(w http.ResponseWriter, r *http.Request) {
+	s := a.v.Status()
+	if !s.Ready {
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: applied up to %d, log at %d (lag %d)", s.AppliedSeq, s.StreamLastSeq, s.Lag))
+		return
+	}
+	writeJSON(w, http.StatusOK, map[string]any{"ready": true, "applied_seq": s.AppliedSeq, "lag": s.Lag})
+}
+
+func (a *api) metrics(w http.ResponseWriter, r *http.Request) {
+	a.opts.Metrics.SyncStatus(a.v.Status())
+	if a.opts.Webhook != nil {
+		a.opts.Metrics.SyncWebhook(a.opts.Webhook.Stats())
+	}
+	w.Header().Set("Content-Type", MetricsContentType)
+	if r.Method == http.MethodHead {
+		return
+	}
+	a.opts.Metrics.WriteTo(w)
+}
+
+// BuildVersion is the version of the running binary as the Go tool
+// recorded it: the main module's version ("(devel)" for a build from a
+// working tree) and, when known, the commit it was built from, with
+// "+dirty" when the tree had changes.
+func BuildVersion() string {
+	bi, ok := debug.ReadBuildInfo()
+	if !ok {
+		return "unknown"
+	}
+	v := bi.Main.Version
+	if v == "" {
+		v = "(devel)"
+	}
+	var rev string
+	dirty := false
+	for _, s := range bi.Settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.modified":
+			dirty = s.Value == "true"
+		}
+	}
+	if rev != "" {
+		v += " " + rev[:min(len(rev), 12)]
+		if dirty {
+			v += "+dirty"
+		}
+	}
+	return v
+}
