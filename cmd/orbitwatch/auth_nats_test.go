@@ -68,7 +68,7 @@ func TestServeNATSNeedsItsKey(t *testing.T) {
 	deadline := time.Now().Add(60 * time.Second)
 	for {
 		var st struct {
-			Workers []struct {
+			Shards []struct {
 				AppliedSeq uint64 `json:"applied_seq"`
 			}
 		}
@@ -77,7 +77,7 @@ func TestServeNATSNeedsItsKey(t *testing.T) {
 			err = json.NewDecoder(resp.Body).Decode(&st)
 			resp.Body.Close()
 		}
-		if err == nil && len(st.Workers) == 1 && st.Workers[0].AppliedSeq >= last {
+		if err == nil && len(st.Shards) == 1 && st.Shards[0].AppliedSeq >= last {
 			break
 		}
 		if time.Now().After(deadline) {

@@ -399,9 +399,9 @@ func TestAPIAlerts(t *testing.T) {
 // statusBody decodes /v1/status strictly: the top keys and each worker's.
 func statusBody(t *testing.T, body []byte) (statusJSON, []map[string]json.RawMessage) {
 	t.Helper()
-	m := decodeStrict(t, body, "version", "shard", "shard_count", "workers")
+	m := decodeStrict(t, body, "version", "shard", "shard_count", "shards")
 	var raw []map[string]json.RawMessage
-	if err := json.Unmarshal(m["workers"], &raw); err != nil {
+	if err := json.Unmarshal(m["shards"], &raw); err != nil {
 		t.Fatal(err)
 	}
 	var st statusJSON

@@ -189,8 +189,8 @@ func TestGuardTokens(t *testing.T) {
 		{call{path: "/v1/status", token: "not-a-token-at-all-but-long-enough"}, 401, "not one this server admits"},
 		{call{path: "/v1/status", header: map[string]string{"Authorization": "Basic " + readToken}}, 401, "must be Bearer"},
 		{call{path: "/v1/status", header: map[string]string{"Authorization": "Bearer"}}, 401, "must be Bearer"},
-		{call{path: "/v1/status", token: readToken}, 200, `"workers"`},
-		{call{path: "/v1/status", header: map[string]string{"Authorization": "bearer " + readToken}}, 200, `"workers"`},
+		{call{path: "/v1/status", token: readToken}, 200, `"shards"`},
+		{call{path: "/v1/status", header: map[string]string{"Authorization": "bearer " + readToken}}, 200, `"shards"`},
 		{call{path: nodePath(idSlash), token: readToken}, 200, `"orbits"`},
 		{call{path: nodePath(idSlash), token: adminToken}, 200, `"orbits"`},
 		{call{path: "/healthz"}, 200, "alive"},
@@ -342,8 +342,8 @@ func TestGuardClientCertificates(t *testing.T) {
 	}{
 		{"no certificate", client(nil), call{path: "/v1/status"}, 401, "or a client certificate"},
 		{"no certificate", client(nil), call{path: "/healthz"}, 200, "alive"},
-		{"no certificate, token", client(nil), call{path: "/v1/status", token: readToken}, 200, "workers"},
-		{"viewer", client(&viewer), call{path: "/v1/status"}, 200, "workers"},
+		{"no certificate, token", client(nil), call{path: "/v1/status", token: readToken}, 200, "shards"},
+		{"viewer", client(&viewer), call{path: "/v1/status"}, 200, "shards"},
 		{"viewer", client(&viewer), call{method: "POST", path: "/v1/test-write", body: []byte("{}")}, 403, "cert:viewer has the read role"},
 		{"ops-desk", client(&admin), call{method: "POST", path: "/v1/test-write", body: []byte("{}")}, 200, `{"name":"ops-desk","role":"admin"}`},
 	} {
@@ -374,13 +374,13 @@ func TestGuardClientCertificates(t *testing.T) {
 	h := New(v, Options{Peers: []string{base, s2.URL()}, PeerClient: s.PeerClient(5 * time.Second)})
 	_, _, body := get(t, h, "/v1/status")
 	st, _ := statusBody(t, body)
-	if len(st.Workers) != 2 || st.Workers[1].Error != "" || st.Workers[1].Shard != 1 || st.Workers[1].ShardCount != 2 {
+	if len(st.Shards) != 2 || st.Shards[1].Error != "" || st.Shards[1].Shard != 1 || st.Shards[1].ShardCount != 2 {
 		t.Errorf("status with a TLS peer: %s", body)
 	}
 	// A plain client cannot: the peer refuses it.
 	h = New(v, Options{Peers: []string{base, s2.URL()}})
 	_, _, body = get(t, h, "/v1/status")
-	if st, _ := statusBody(t, body); len(st.Workers) != 2 || st.Workers[1].Error == "" {
+	if st, _ := statusBody(t, body); len(st.Shards) != 2 || st.Shards[1].Error == "" {
 		t.Errorf("status with a TLS peer and no certificate: %s", body)
 	}
 }
@@ -408,16 +408,16 @@ func TestPeerStatusWithTokens(t *testing.T) {
 	h := New(views[0], Options{Peers: peers, PeerToken: readToken, Timeout: 2 * time.Second})
 	_, _, body := get(t, h, "/v1/status")
 	st, _ := statusBody(t, body)
-	if len(st.Workers) != 4 {
+	if len(st.Shards) != 4 {
 		t.Fatalf("status: %s", body)
 	}
-	if w := st.Workers[1]; w.Error != "" || w.Shard != 1 || w.AppliedSeq != 11 {
+	if w := st.Shards[1]; w.Error != "" || w.Shard != 1 || w.AppliedSeq != 11 {
 		t.Errorf("peer 1: %+v", w)
 	}
-	if w := st.Workers[2]; w.Shard != 2 || !strings.Contains(w.Error, "says it is shard 1, not 2") {
+	if w := st.Shards[2]; w.Shard != 2 || !strings.Contains(w.Error, "says it is shard 1, not 2") {
 		t.Errorf("peer 2: %+v", w)
 	}
-	if w := st.Workers[3]; w.Shard != 3 || !strings.Contains(w.Error, "peer "+deadURL) {
+	if w := st.Shards[3]; w.Shard != 3 || !strings.Contains(w.Error, "peer "+deadURL) {
 		t.Errorf("peer 3: %+v", w)
 	}
 	if _, _, body := get(t, h, "/v1/status?local=true"); strings.Count(string(body), `"shard":`) != 2 {
@@ -425,8 +425,8 @@ func TestPeerStatusWithTokens(t *testing.T) {
 	}
 	h = New(views[0], Options{Peers: peers, Timeout: 2 * time.Second})
 	_, _, body = get(t, h, "/v1/status")
-	if st, _ := statusBody(t, body); !strings.Contains(st.Workers[1].Error, "401") {
-		t.Errorf("peer behind tokens, no token: %+v", st.Workers[1])
+	if st, _ := statusBody(t, body); !strings.Contains(st.Shards[1].Error, "401") {
+		t.Errorf("peer behind tokens, no token: %+v", st.Shards[1])
 	}
 }
 

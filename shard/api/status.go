@@ -12,8 +12,9 @@ import (
 	"time"
 )
 
-// workerJSON is one worker's entry of /v1/status. Each name has one
-// meaning: shard is a shard's number, shard_count how many there are.
+// workerJSON is one worker's entry of /v1/status, the list "shards". Each
+// name has one meaning: shards is that list, shard a shard's number,
+// shard_count how many there are.
 type workerJSON struct {
 	Shard      int    `json:"shard"`
 	ShardCount int    `json:"shard_count"`
@@ -40,13 +41,13 @@ type workerJSON struct {
 }
 
 // statusJSON is the body of /v1/status: the answering worker's version,
-// shard and shard count, then one entry per worker, its own first, the
-// peers after it in shard order.
+// shard and shard count, then one entry per shard's worker, its own first,
+// the peers after it in shard order.
 type statusJSON struct {
 	Version    string       `json:"version"`
 	Shard      int          `json:"shard"`
 	ShardCount int          `json:"shard_count"`
-	Workers    []workerJSON `json:"workers"`
+	Shards     []workerJSON `json:"shards"`
 }
 
 func (a *api) self() workerJSON {
@@ -76,7 +77,7 @@ func (a *api) status(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	self := a.self()
-	out := statusJSON{Version: a.opts.Version, Shard: self.Shard, ShardCount: self.ShardCount, Workers: []workerJSON{self}}
+	out := statusJSON{Version: a.opts.Version, Shard: self.Shard, ShardCount: self.ShardCount, Shards: []workerJSON{self}}
 	if local != "true" && len(a.opts.Peers) > 0 {
 		peers := make([]workerJSON, len(a.opts.Peers))
 		var wg sync.WaitGroup
@@ -94,7 +95,7 @@ func (a *api) status(w http.ResponseWriter, r *http.Request) {
 			if p.Error == "" && p.Shard != i {
 				p = workerJSON{Shard: i, Error: fmt.Sprintf("peer %s says it is shard %d, not %d", a.opts.Peers[i], p.Shard, i)}
 			}
-			out.Workers = append(out.Workers, p)
+			out.Shards = append(out.Shards, p)
 		}
 	}
 	writeJSON(w, http.StatusOK, out)
@@ -130,10 +131,10 @@ func (a *api) peerStatus(ctx context.Context, i int, base string) workerJSON {
 	if err := json.NewDecoder(io.LimitReader(resp.Body, 1<<20)).Decode(&st); err != nil {
 		return fail(fmt.Errorf("decoding its status: %w", err))
 	}
-	if len(st.Workers) != 1 {
-		return fail(fmt.Errorf("it reported %d workers for a local status, want 1", len(st.Workers)))
+	if len(st.Shards) != 1 {
+		return fail(fmt.Errorf("it reported %d shards for a local status, want 1", len(st.Shards)))
 	}
-	return st.Workers[0]
+	return st.Shards[0]
 }
 
 func (a *api) healthz(w http.ResponseWriter, r *http.Request) {

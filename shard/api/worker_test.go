@@ -195,10 +195,10 @@ func TestAPIOverWorker(t *testing.T) {
 	}
 
 	var stj statusJSON
-	if code := getJSON("/v1/status", &stj); code != 200 || len(stj.Workers) != 1 {
+	if code := getJSON("/v1/status", &stj); code != 200 || len(stj.Shards) != 1 {
 		t.Fatalf("status: %d %+v", code, stj)
 	}
-	if wj := stj.Workers[0]; wj.Shard != 0 || wj.ShardCount != 2 || wj.AppliedSeq != 800 || wj.CommittedSeq != lastCut || !wj.Ready || wj.Applied != 800 || stj.Version != "test" {
+	if wj := stj.Shards[0]; wj.Shard != 0 || wj.ShardCount != 2 || wj.AppliedSeq != 800 || wj.CommittedSeq != lastCut || !wj.Ready || wj.Applied != 800 || stj.Version != "test" {
 		t.Errorf("status: %+v", stj)
 	}
 	if code, _ := do(t, client, base, call{path: "/readyz"}); code != 200 {

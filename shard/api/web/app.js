@@ -231,7 +231,7 @@
       const s = await getJSON("/v1/status");
       const box = $("status");
       box.replaceChildren();
-      for (const sh of s.workers) {
+      for (const sh of s.shards) {
         if (sh.error) { box.append(el("span", {class: "lag-bad"}, `shard ${sh.shard}: ${sh.error}`)); continue; }
         const span = el("span", {class: "shard-status"});
         span.append(document.createTextNode(`shard ${sh.shard} of ${sh.shard_count} · cut ${sh.cut_seq} · `));
