@@ -1,5 +1,7 @@
 package delta
 
+import "strconv"
+
 // Counter keeps one kind's per-node records under simple-graph changes and
 // derives a node's orbit vector from its own record and its neighbours'
 // when the vector is read (DESIGN.md §7). A record holds the quantities
@@ -91,3 +93,16 @@ type Source interface {
 	// Linked returns how y is joined to x (0: not at all).
 	Linked(x, y uint32) (Link, error)
 }
+
+// RecordError is a stored record that does not decode or does not agree
+// with the stored adjacency (Restore) — a damaged or foreign store.
+type RecordError struct {
+	Node uint32
+	Err  error
+}
+
+func (e *RecordError) Error() string {
+	return "record of node " + strconv.FormatUint(uint64(e.Node), 10) + ": " + e.Err.Error()
+}
+
+func (e *RecordError) Unwrap() error { return e.Err }

@@ -41,7 +41,7 @@ func startWorkers(t *testing.T, c *cluster, n int) []*worker {
 		w := &worker{out: &lockedBuffer{}, done: make(chan struct{})}
 		w.cmd = exec.Command(bin, "worker", "--nats", strings.Join(c.clients[:], ","), "--replicas", "3",
 			"--stream", testStream, "--subject", testSubject, "--shard", strconv.Itoa(i), "--shards", strconv.Itoa(n),
-			"--data", filepath.Join(t.TempDir(), "data"), "--http", "127.0.0.1:0", "--batch", "128")
+			"--data", filepath.Join(t.TempDir(), "data"), "--http", "127.0.0.1:0", "--cut-every", "1m")
 		w.cmd.Stdout, w.cmd.Stderr = w.out, w.out
 		if err := w.cmd.Start(); err != nil {
 			t.Fatal(err)
@@ -103,10 +103,10 @@ func (w *worker) waitFor(t *testing.T, i int, re *regexp.Regexp) string {
 
 // shardLine is the part of a /v1/status entry this test reads.
 type shardLine struct {
-	Shard  int    `json:"shard"`
-	CutSeq uint64 `json:"cut_seq"`
-	Ready  bool   `json:"ready"`
-	Error  string `json:"error"`
+	Shard      int    `json:"shard"`
+	AppliedSeq uint64 `json:"applied_seq"`
+	Ready      bool   `json:"ready"`
+	Error      string `json:"error"`
 }
 
 func getJSON(base, path string, v any) (int, error) {
@@ -125,24 +125,25 @@ func getJSON(base, path string, v any) (int, error) {
 	return resp.StatusCode, nil
 }
 
-// waitCut waits until every worker reports a complete cut at seq.
-func waitCut(t *testing.T, ws []*worker, seq uint64) {
+// waitApplied waits until every worker has applied the log exactly up to
+// seq (its reads answer there).
+func waitApplied(t *testing.T, ws []*worker, seq uint64) {
 	t.Helper()
-	waitCutFrom(t, ws, seq, true)
+	waitAppliedFrom(t, ws, seq, true)
 }
 
-// waitCutFrom waits until every worker's cut is at least seq, and exactly
-// seq when exact.
-func waitCutFrom(t *testing.T, ws []*worker, seq uint64, exact bool) {
+// waitAppliedFrom waits until every worker has applied the log up to at
+// least seq, and exactly seq when exact.
+func waitAppliedFrom(t *testing.T, ws []*worker, seq uint64, exact bool) {
 	t.Helper()
 	deadline := time.Now().Add(120 * time.Second)
 	for i, w := range ws {
 		for {
 			var st struct{ Shards []shardLine }
 			_, err := getJSON(w.api, "/v1/status?local=true", &st)
-			if err == nil && len(st.Shards) == 1 && st.Shards[0].CutSeq >= seq {
-				if exact && st.Shards[0].CutSeq != seq {
-					t.Fatalf("worker %d cut at %d, beyond the %d events of the log", i, st.Shards[0].CutSeq, seq)
+			if err == nil && len(st.Shards) == 1 && st.Shards[0].AppliedSeq >= seq {
+				if exact && st.Shards[0].AppliedSeq != seq {
+					t.Fatalf("worker %d applied up to %d, beyond the %d events of the log", i, st.Shards[0].AppliedSeq, seq)
 				}
 				break
 			}
@@ -158,7 +159,7 @@ func waitCutFrom(t *testing.T, ws []*worker, seq uint64, exact bool) {
 					getJSON(x.api, "/v1/status?local=true", &full)
 					all = append(all, string(full))
 				}
-				t.Fatalf("worker %d: cut %+v (%v), want %d; statuses:\n%s", i, st.Shards, err, seq, strings.Join(all, "\n"))
+				t.Fatalf("worker %d: applied %+v (%v), want %d; statuses:\n%s", i, st.Shards, err, seq, strings.Join(all, "\n"))
 			}
 			time.Sleep(50 * time.Millisecond)
 		}
@@ -220,8 +221,8 @@ func replayMatrix(t *testing.T, log string) map[string][]uint64 {
 }
 
 // checkAgainstReplay reads every node of the replay's matrix from each
-// worker's API (a worker forwards what another shard owns) and demands
-// replay's vector at the final cut.
+// worker's API (every worker answers every node, from its own state) and
+// demands replay's vector at the last applied position.
 func checkAgainstReplay(t *testing.T, ws []*worker, want map[string][]uint64, seq uint64) {
 	t.Helper()
 	nodes := slices.Sorted(func(yield func(string) bool) {

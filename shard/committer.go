@@ -28,6 +28,10 @@ type Committer struct {
 	// OnCommit, when set before the first Put, hears of every group made
 	// durable (from the committer's goroutine).
 	OnCommit func(group []*storage.Checkpoint)
+	// KeepHistory, when set before the first Put, lets the store discard
+	// versions older than this much event time before each group's last
+	// watermark (storage.Store.SetDiscardBefore).
+	KeepHistory time.Duration
 }
 
 // NewCommitter starts a committer for st that holds at most maxQueued
@@ -111,6 +115,11 @@ func (c *Committer) run() {
 		c.mu.Unlock()
 		t0 := time.Now()
 		err := c.st.Commit(group...)
+		if last := group[len(group)-1]; err == nil && c.KeepHistory > 0 && !last.Watermark.IsZero() {
+			if seq, ok := c.st.SeqAtTime(last.Watermark.Add(-c.KeepHistory)); ok {
+				err = c.st.SetDiscardBefore(seq)
+			}
+		}
 		took := time.Since(t0)
 		if err == nil && c.OnCommit != nil {
 			c.OnCommit(group)

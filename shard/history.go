@@ -2,6 +2,7 @@ package shard
 
 import (
 	"errors"
+	"fmt"
 
 	"orbitwatch/delta"
 	"orbitwatch/storage"
@@ -82,6 +83,10 @@ func StateAt(st *storage.Store, c *Counting, seq uint64) (*Applier, storage.Chec
 	defer src.Close()
 	set := st.Settings()
 	a, err := Restore(c, set.Window, Cuts{}, &storage.State{Seq: state.Seq, Watermark: state.Watermark, Dict: state.Dict, Graph: state.Graph}, src)
+	var re *delta.RecordError
+	if errors.As(err, &re) && int(re.Node) < state.Dict.Len() {
+		return nil, storage.CheckpointInfo{}, fmt.Errorf("checkpoint %d: the stored record of node %q %w", state.Seq, state.Dict.Name(re.Node), re.Err)
+	}
 	if err != nil {
 		return nil, storage.CheckpointInfo{}, err
 	}

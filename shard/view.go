@@ -48,7 +48,7 @@ type Status struct {
 	Ready bool
 	// Applied counts accepted events, Expired window expiries; Rejected
 	// counts rejected events and malformed bus messages by reason (all up
-	// to CommittedSeq).
+	// to AppliedSeq).
 	Applied, Expired uint64
 	Rejected         map[string]uint64
 	// Watermark is the event-time watermark at CommittedSeq.

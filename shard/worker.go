@@ -482,6 +482,12 @@ func (w *Worker) Status() Status {
 		st.Rejected[k] = n
 	}
 	w.statMu.Unlock()
+	// The counts are those of the last applied event: the applier holds its
+	// lock for at most one batch of messages.
+	w.mu.RLock()
+	live := w.stats()
+	w.mu.RUnlock()
+	st.Applied, st.Expired, st.Rejected = live.Applied, live.Expired, live.Rejected
 	st.AppliedSeq = w.appliedSeq.Load()
 	st.CutSeq = w.cutSeq.Load()
 	st.StreamLastSeq = max(w.streamLast.Load(), st.AppliedSeq)

@@ -48,7 +48,7 @@ func runBackfill(args []string) int {
 	noAlerts := fs.Bool("no-alerts", false, "evaluate no alert rules")
 	data := fs.String("data", "", "data directory (created when missing)")
 	windowFlag := fs.String("window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
-	keepFlag := fs.String("keep-history", "", "keep checkpoint versions this far back in event time, e.g. 90d (default: all)")
+	keepFlag := fs.String("keep-history", "", "keep checkpoint versions this far back in event time, e.g. 90d (default: all; never less than the alert rules' look-back)")
 	if err := fs.Parse(args); err != nil {
 		return 2
 	}
@@ -107,7 +107,8 @@ func runBackfill(args []string) int {
 	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer cancel()
 	com := shard.NewCommitter(st, 64)
-	b := &backfill{st: st, com: com, applier: a, stage: stage, records: records, keep: keep}
+	com.KeepHistory = keepFor(keep, stage)
+	b := &backfill{st: st, com: com, applier: a, stage: stage, records: records}
 	a.OnCut = b.cut
 	rep := progress.New(os.Stderr, total, "backfill")
 	in := &ingest{
@@ -167,13 +168,21 @@ type backfill struct {
 	applier *shard.Applier
 	stage   *shard.AlertStage
 	records []inputRecord
-	keep    time.Duration
 
 	cuts, recordsWritten, alerts uint64 // written by this run
 }
 
+// keepFor is the history to keep for --keep-history keep (0: all): never
+// less than the alert rules' look-back, whose baselines are read from it.
+func keepFor(keep time.Duration, stage *shard.AlertStage) time.Duration {
+	if keep > 0 && stage != nil {
+		keep = max(keep, stage.Evaluator().Config().Lookback)
+	}
+	return keep
+}
+
 // cut takes one cut: the alert stage scores it, the input records go with
-// it, and the committer writes it; retention follows the watermark.
+// it, and the committer writes it.
 func (b *backfill) cut(cp *storage.Checkpoint) error {
 	blob, err := json.Marshal(b.records)
 	if err != nil {
@@ -192,13 +201,6 @@ func (b *backfill) cut(cp *storage.Checkpoint) error {
 	}
 	b.cuts++
 	b.recordsWritten += uint64(len(cp.Records))
-	if b.keep > 0 && !cp.Watermark.IsZero() {
-		if seq, ok := b.st.SeqAtTime(cp.Watermark.Add(-b.keep)); ok {
-			if err := b.st.SetDiscardBefore(seq); err != nil {
-				return err
-			}
-		}
-	}
 	return nil
 }
 

@@ -68,23 +68,42 @@ func writeLog(t testing.TB, path string, n int, seed uint64) {
 	}
 }
 
+// stored is a data directory's latest checkpoint: its state, restored
+// from the stored records (shard.StateAt holds them to the stored
+// adjacency), every node's vector by name, and the list of checkpoints.
+type stored struct {
+	a       *shard.Applier
+	cut     storage.CheckpointInfo
+	vectors map[string][]uint64
+	cps     []storage.CheckpointInfo
+}
+
 // loadVectors reads a data directory's latest checkpoint as node → vector.
-func loadVectors(t testing.TB, dir string) (map[string][]uint64, *storage.State) {
+func loadVectors(t testing.TB, dir string) (map[string][]uint64, stored) {
 	t.Helper()
 	st, err := storage.OpenReadOnly(dir)
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer st.Close()
-	state, err := st.Load()
+	set := st.Settings()
+	c, err := shard.NewCounting(set.Kind, set.MaxNodes)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, cut, err := shard.StateAt(st, c, st.Seq())
+	if err != nil {
+		t.Fatal(err)
+	}
+	vec, err := a.Vectors()
 	if err != nil {
 		t.Fatal(err)
 	}
 	out := map[string][]uint64{}
-	for x := 0; x < state.Dict.Len(); x++ {
-		out[state.Dict.Name(uint32(x))] = append([]uint64(nil), state.Vectors.Row(uint32(x))...)
+	for x, name := range a.Names() {
+		out[name] = append([]uint64(nil), vec.Row(uint32(x))...)
 	}
-	return out, state
+	return out, stored{a: a, cut: cut, vectors: out, cps: st.Checkpoints()}
 }
 
 func sameVectors(t testing.TB, what string, got, want map[string][]uint64) {
@@ -173,11 +192,16 @@ func TestBackfillSurvivesSIGKILL(t *testing.T) {
 	}
 	got, gotState := loadVectors(t, crashed)
 	sameVectors(t, "after crashes vs uninterrupted", got, want)
-	if gotState.Seq != uint64(events) || wantState.Seq != uint64(events) {
-		t.Fatalf("seq %d / %d, want %d", gotState.Seq, wantState.Seq, events)
+	if gotState.cut.Seq != uint64(events) || wantState.cut.Seq != uint64(events) {
+		t.Fatalf("seq %d / %d, want %d", gotState.cut.Seq, wantState.cut.Seq, events)
 	}
-	if gotState.Graph.NumEdges() != wantState.Graph.NumEdges() {
-		t.Fatalf("edges %d, want %d", gotState.Graph.NumEdges(), wantState.Graph.NumEdges())
+	if gotState.a.Graph().NumEdges() != wantState.a.Graph().NumEdges() {
+		t.Fatalf("edges %d, want %d", gotState.a.Graph().NumEdges(), wantState.a.Graph().NumEdges())
+	}
+	// Cuts are a function of the log: the killed and resumed runs stored
+	// the same cuts as the uninterrupted one.
+	if fmt.Sprint(gotState.cps) != fmt.Sprint(wantState.cps) {
+		t.Fatalf("cuts after crashes %v,\nuninterrupted %v", gotState.cps, wantState.cps)
 	}
 
 	// The static recount of the stored graph is the independent reference.
@@ -185,9 +209,13 @@ func TestBackfillSurvivesSIGKILL(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	rec := c.Recount.Recount(gotState.Graph)
-	if node, orbit, a, b, ok := gotState.Vectors.FirstDiff(rec); !ok {
-		t.Fatalf("stored vs recount: node %q orbit %d: %d vs %d", gotState.Dict.Name(node), orbit, a, b)
+	rec := c.Recount.Recount(gotState.a.Graph())
+	vec, err := gotState.a.Vectors()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if node, orbit, a, b, ok := vec.FirstDiff(rec); !ok {
+		t.Fatalf("stored vs recount: node %q orbit %d: %d vs %d", gotState.a.Names()[node], orbit, a, b)
 	}
 
 	// A rerun of a finished backfill applies nothing; so does a renamed copy.
@@ -274,7 +302,7 @@ func TestBackfillWindowRejectsLate(t *testing.T) {
 		t.Fatalf("exit %d\n%s", code, out)
 	}
 	rj, _ := os.ReadFile(rejects)
-	if !strings.Contains(string(rj), "3,late") || !strings.Contains(string(rj), "4,missing ts") {
+	if !strings.Contains(string(rj), "4,late") || !strings.Contains(string(rj), "5,missing ts") {
 		t.Fatalf("rejects file:\n%s", rj)
 	}
 	got, _ := loadVectors(t, filepath.Join(dir, "d"))
@@ -286,17 +314,22 @@ func TestBackfillWindowRejectsLate(t *testing.T) {
 
 // TestBackfillKeepHistory: with --keep-history the retention floor follows
 // the watermark, so checkpoints older than the kept span can no longer be
-// read, while those inside it read exactly as without retention.
+// read, while those inside it read exactly as without retention; with
+// alert rules the kept span is never shorter than their look-back.
 func TestBackfillKeepHistory(t *testing.T) {
 	dir := t.TempDir()
 	log := filepath.Join(dir, "log.csv")
 	writeLog(t, log, 6000, 4) // event times one second apart: 6000 s in all
 	kept := filepath.Join(dir, "kept")
 	all := filepath.Join(dir, "all")
-	for _, d := range []string{kept, all} {
-		args := []string{"backfill", "--data", d, "--input", log, "--checkpoint-every", "500"}
-		if d == kept {
+	alerted := filepath.Join(dir, "alerted")
+	for _, d := range []string{kept, all, alerted} {
+		args := []string{"backfill", "--data", d, "--input", log, "--checkpoint-every", "500", "--no-alerts"}
+		switch d {
+		case kept:
 			args = append(args, "--keep-history", "30m")
+		case alerted:
+			args = append(args[:len(args)-1], "--keep-history", "30m")
 		}
 		if out, code := run(t, args...); code != 0 {
 			t.Fatalf("backfill: exit %d\n%s", code, out)
@@ -309,20 +342,30 @@ func TestBackfillKeepHistory(t *testing.T) {
 		}
 		return st
 	}
-	sk, sa := open(kept), open(all)
+	sk, sa, sl := open(kept), open(all), open(alerted)
 	defer sk.Close()
 	defer sa.Close()
+	defer sl.Close()
+	// The built-in rules look back an hour: 6000 s − 3600 s = 2400 s,
+	// whose checkpoint is at seq 2000.
+	if sl.Floor() != 2000 {
+		t.Fatalf("retention floor with alert rules %d, want 2000 (an hour's look-back kept)", sl.Floor())
+	}
 	// The last watermark is 6000 s in; 30 minutes back is 4200 s, so the
 	// floor is the checkpoint at seq 4000 (its watermark 4000 s ≤ 4200 s).
 	if sk.Floor() != 4000 || sa.Floor() != 0 {
 		t.Fatalf("retention floor %d (kept) / %d (all), want 4000 / 0", sk.Floor(), sa.Floor())
 	}
-	if _, _, _, err := sk.VectorAt("hub-0", 3500); !errors.Is(err, storage.ErrRetention) {
+	c, err := shard.NewCounting(delta.Undirected, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := shard.DeriveStored(sk, c.New(), "hub-0", 3500); !errors.Is(err, storage.ErrRetention) {
 		t.Fatalf("read below the floor: %v, want ErrRetention", err)
 	}
 	for _, seq := range []uint64{4000, 5000, 6000} {
-		a, _, _, err1 := sk.VectorAt("hub-0", seq)
-		b, _, _, err2 := sa.VectorAt("hub-0", seq)
+		a, _, err1 := shard.DeriveStored(sk, c.New(), "hub-0", seq)
+		b, _, err2 := shard.DeriveStored(sa, c.New(), "hub-0", seq)
 		if err1 != nil || err2 != nil {
 			t.Fatalf("seq %d: %v / %v", seq, err1, err2)
 		}

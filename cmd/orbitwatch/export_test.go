@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"fmt"
 	"io"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -15,8 +14,11 @@ import (
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
 
+	"orbitwatch/bench/gen"
 	"orbitwatch/delta"
+	"orbitwatch/shard"
 	"orbitwatch/storage"
+	"orbitwatch/stream"
 )
 
 func TestExportCSVEqualsCountAndReplay(t *testing.T) {
@@ -172,34 +174,29 @@ func TestExportParquetEqualsCSV(t *testing.T) {
 	}
 }
 
-// TestExportParquetFullUint64 commits counts above the int64 range and
-// reads them back: they travel as INT64 bits with the unsigned logical
-// type, never as negative numbers.
+// TestExportParquetFullUint64 writes counts above the int64 range through
+// the Parquet writer export uses and reads them back: they travel as INT64
+// bits with the unsigned logical type, never as negative numbers.
 func TestExportParquetFullUint64(t *testing.T) {
-	data := filepath.Join(t.TempDir(), "data")
-	st, err := storage.Open(data, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	out := filepath.Join(t.TempDir(), "m.parquet")
+	huge := []uint64{1<<63 + 5, 1<<64 - 1, 1 << 63}
+	big := make([]uint64, 15)
+	copy(big, huge)
+	small := make([]uint64, 15)
+	small[14] = 7
+	err := createAtomic(out, func(w io.Writer) error {
+		m := newMatrixParquet(w, 15)
+		if err := m.row("acct-big", big); err != nil {
+			return err
+		}
+		if err := m.row("acct-small", small); err != nil {
+			return err
+		}
+		return m.close()
+	})
 	if err != nil {
 		t.Fatal(err)
 	}
-	dict := storage.NewDict()
-	dict.Intern("acct-big")
-	dict.Intern("acct-small")
-	g := delta.NewGraph(delta.Undirected)
-	g.Grow(2)
-	vec := delta.NewVectors(2, 15)
-	huge := []uint64{1<<63 + 5, 1<<64 - 1, 1 << 63}
-	for o, c := range huge {
-		vec.Set(0, o, c)
-	}
-	vec.Set(1, 14, 7)
-	if err := st.Commit(&storage.Checkpoint{Seq: 1, Dict: dict, Graph: g, Vectors: vec, Nodes: []uint32{0, 1}}); err != nil {
-		t.Fatal(err)
-	}
-	if err := st.Close(); err != nil {
-		t.Fatal(err)
-	}
-	out := filepath.Join(t.TempDir(), "m.parquet")
-	mustRunCmd(t, "export", "--data", data, "--format", "parquet", "--out", out)
 	order, rows := readParquet(t, out, 15)
 	if strings.Join(order, ",") != "acct-big,acct-small" {
 		t.Fatalf("rows %q", order)
@@ -238,53 +235,56 @@ func TestExportFlags(t *testing.T) {
 	}
 }
 
-// benchStore commits one checkpoint of n nodes with seeded vectors of
-// counts up to 2^20 (no graph: export reads vectors only).
-func benchStore(b *testing.B, n int) *storage.Store {
+// benchState is a Barabási–Albert graph of n nodes (m = 5) committed in
+// one cut and loaded back as export loads it.
+func benchState(b *testing.B, n int) *shard.Applier {
 	b.Helper()
-	dir := filepath.Join(b.TempDir(), "data")
-	st, err := storage.Open(dir, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	c, err := shard.NewCounting(delta.Undirected, 4)
 	if err != nil {
 		b.Fatal(err)
 	}
-	dict := storage.NewDict()
-	g := delta.NewGraph(delta.Undirected)
-	vec := delta.NewVectors(n, 15)
-	nodes := make([]uint32, n)
-	r := rand.New(rand.NewPCG(7, 7))
-	for x := 0; x < n; x++ {
-		dict.Intern(fmt.Sprintf("acct-%07d", x))
-		for o := 0; o < 15; o++ {
-			vec.Set(uint32(x), o, r.Uint64N(1<<20))
+	st, err := storage.Open(filepath.Join(b.TempDir(), "data"), storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	a := shard.NewApplier(c, 0, shard.Cuts{})
+	a.OnCut = func(cp *storage.Checkpoint) error { return st.Commit(cp) }
+	for i, e := range gen.BarabasiAlbert(n, 5, 7) {
+		ev := stream.Event{Op: stream.OpAdd, Src: fmt.Sprintf("acct-%07d", e.U), Dst: fmt.Sprintf("acct-%07d", e.V)}
+		if err := a.Apply(uint64(i+1), ev); err != nil {
+			b.Fatal(err)
 		}
-		nodes[x] = uint32(x)
 	}
-	g.Grow(n)
-	if err := st.Commit(&storage.Checkpoint{Seq: 1, Dict: dict, Graph: g, Vectors: vec, Nodes: nodes}); err != nil {
+	if err := a.Cut(); err != nil {
 		b.Fatal(err)
 	}
-	if err := st.Close(); err != nil {
-		b.Fatal(err)
-	}
-	ro, err := storage.OpenReadOnly(dir)
+	loaded, _, err := shard.StateAt(st, c, st.Seq())
 	if err != nil {
 		b.Fatal(err)
 	}
-	b.Cleanup(func() { ro.Close() })
-	return ro
+	return loaded
 }
 
-// benchmarkExport measures the export walk (Badger read, encoding, no
-// file system) in nodes per second.
+// benchmarkExport measures the export walk (a vector derived for every
+// node, encoding, no file system) in nodes per second, after the state is
+// loaded.
 func benchmarkExport(b *testing.B, newWriter func(w io.Writer) matrixWriter) {
 	const n = 50000
-	st := benchStore(b, n)
+	a := benchState(b, n)
 	b.ReportAllocs()
 	b.ResetTimer()
+	var vec []uint64
 	for b.Loop() {
 		m := newWriter(io.Discard)
-		if _, err := st.ForEachAt(1, func(node string, vec []uint64) error { return m.row(node, vec) }); err != nil {
-			b.Fatal(err)
+		for x, name := range a.Names() {
+			var err error
+			if vec, err = a.Vector(uint32(x), vec); err != nil {
+				b.Fatal(err)
+			}
+			if err := m.row(name, vec); err != nil {
+				b.Fatal(err)
+			}
 		}
 		if err := m.close(); err != nil {
 			b.Fatal(err)

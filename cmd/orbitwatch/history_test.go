@@ -17,7 +17,7 @@ import (
 	"orbitwatch/bench/plot"
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
-	"orbitwatch/storage"
+	"orbitwatch/shard"
 )
 
 // historyCSV runs history --csv and returns its header and rows.
@@ -68,7 +68,49 @@ func allOrbits(n int) []int {
 	return ids
 }
 
-func TestHistoryListsEveryCheckpointInRange(t *testing.T) {
+// listedSeqs returns the seqs of history rows and holds them to what
+// history promises: checkpoints in want (the range), in order; the last of
+// the range among them; and every one at which the node's degree (orbit 0)
+// differs from the checkpoint before it, because its own record changed
+// there.
+func listedSeqs(t *testing.T, f *fixture, node string, rows [][]string, want []uint64) []uint64 {
+	t.Helper()
+	var got []uint64
+	for _, r := range rows {
+		s, err := strconv.ParseUint(r[0], 10, 64)
+		if err != nil {
+			t.Fatalf("row %q: %v", r, err)
+		}
+		got = append(got, s)
+	}
+	var exists []uint64
+	for _, s := range want {
+		if _, ok := readRowsAt(t, f, s)[node]; ok {
+			exists = append(exists, s)
+		}
+	}
+	if len(got) == 0 || len(exists) == 0 || got[len(got)-1] != exists[len(exists)-1] {
+		t.Fatalf("node %q: rows at %v, want the range's last checkpoint %v among them", node, got, exists)
+	}
+	j := 0
+	for i, s := range exists {
+		for j < len(got) && got[j] < s {
+			t.Fatalf("node %q: row at %d is not a checkpoint of the range %v", node, got[j], exists)
+		}
+		listed := j < len(got) && got[j] == s
+		if listed {
+			j++
+		}
+		if i > 0 && !listed {
+			if readRowsAt(t, f, exists[i-1])[node][0] != readRowsAt(t, f, s)[node][0] {
+				t.Fatalf("node %q: its degree changed at %d but history does not list it (rows %v)", node, s, got)
+			}
+		}
+	}
+	return got
+}
+
+func TestHistoryListsChangesInRange(t *testing.T) {
 	f := newFixture(t, 21, true, 100)
 	wm := func(n uint64) time.Time { return watermarkAt(t, f.lines, n) }
 	node := "acct-000003"
@@ -80,21 +122,23 @@ func TestHistoryListsEveryCheckpointInRange(t *testing.T) {
 	if strings.Join(header, ",") != wantHeader {
 		t.Errorf("header %q, want %q", strings.Join(header, ","), wantHeader)
 	}
-	checkHistoryRows(t, f, node, allOrbits(15), rows, f.seqs)
+	all := listedSeqs(t, f, node, rows, f.seqs)
+	checkHistoryRows(t, f, node, allOrbits(15), rows, all)
 
-	// --from exactly at checkpoint 200, --to just before 400: 200 and 300.
+	// --from exactly at checkpoint 200, --to just before 400: within 200
+	// and 300.
 	_, rows = historyCSV(t, "--data", f.data, "--node", node,
 		"--from", wm(200).Format(time.RFC3339), "--to", wm(400).Add(-time.Second).Format(time.RFC3339))
-	checkHistoryRows(t, f, node, allOrbits(15), rows, []uint64{200, 300})
+	checkHistoryRows(t, f, node, allOrbits(15), rows, listedSeqs(t, f, node, rows, []uint64{200, 300}))
 	// --from alone, as Unix seconds just after 300's watermark.
 	_, rows = historyCSV(t, "--data", f.data, "--node", node, "--from", strconv.FormatInt(wm(300).Unix()+1, 10))
-	checkHistoryRows(t, f, node, allOrbits(15), rows, f.seqs[3:])
+	checkHistoryRows(t, f, node, allOrbits(15), rows, listedSeqs(t, f, node, rows, f.seqs[3:]))
 
 	header, rows = historyCSV(t, "--data", f.data, "--node", node, "--orbits", "8,0,3")
 	if strings.Join(header, ",") != "seq,event_time,8,0,3" {
 		t.Errorf("--orbits 8,0,3: header %q", strings.Join(header, ","))
 	}
-	checkHistoryRows(t, f, node, []int{8, 0, 3}, rows, f.seqs)
+	checkHistoryRows(t, f, node, []int{8, 0, 3}, rows, all)
 
 	// A node that first appears after checkpoint 100 is listed from the
 	// checkpoint where it exists.
@@ -110,24 +154,18 @@ func TestHistoryListsEveryCheckpointInRange(t *testing.T) {
 	if late == "" {
 		t.Fatal("fixture: every node exists at checkpoint 100")
 	}
-	var since []uint64
-	for _, s := range f.seqs {
-		if _, ok := readRowsAt(t, f, s)[late]; ok {
-			since = append(since, s)
-		}
-	}
 	_, rows = historyCSV(t, "--data", f.data, "--node", late)
-	checkHistoryRows(t, f, late, allOrbits(15), rows, since)
+	checkHistoryRows(t, f, late, allOrbits(15), rows, listedSeqs(t, f, late, rows, f.seqs))
 
 	// The table has the same rows.
 	r := mustRunCmd(t, "history", "--data", f.data, "--node", node, "--orbits", "0,3")
 	lines := strings.Split(strings.TrimSuffix(r.stdout, "\n"), "\n")
-	if len(lines) != 1+len(f.seqs) || !strings.Contains(lines[0], "seq") || !strings.Contains(lines[0], "event time") {
+	if len(lines) != 1+len(all) || !strings.Contains(lines[0], "seq") || !strings.Contains(lines[0], "event time") {
 		t.Fatalf("table:\n%s", r.stdout)
 	}
-	vec := readRowsAt(t, f, f.seqs[1])[node]
-	if got := strings.Fields(lines[2]); strings.Join(got, " ") != fmt.Sprintf("%d %s %d %d", f.seqs[1], wm(f.seqs[1]).Format(time.RFC3339Nano), vec[0], vec[3]) {
-		t.Errorf("table row for seq %d: %q", f.seqs[1], lines[2])
+	vec := readRowsAt(t, f, all[1])[node]
+	if got := strings.Fields(lines[2]); strings.Join(got, " ") != fmt.Sprintf("%d %s %d %d", all[1], wm(all[1]).Format(time.RFC3339Nano), vec[0], vec[3]) {
+		t.Errorf("table row for seq %d: %q", all[1], lines[2])
 	}
 
 	for _, c := range []struct {
@@ -202,12 +240,14 @@ func svgText(t *testing.T, path string) (texts map[string][]string, paths map[st
 
 // topOrbits is the default choice, computed from replay CSVs: the
 // n orbits with the largest counts at the last checkpoint (lower id first
-// on ties) among those non-zero at some checkpoint, in id order.
+// on ties) among those non-zero at some listed checkpoint, in id order.
 func topOrbits(f *fixture, t *testing.T, node string, n int) []int {
+	_, rows := historyCSV(t, "--data", f.data, "--node", node)
+	seqs := listedSeqs(t, f, node, rows, f.seqs)
 	final := readRowsAt(t, f, f.seqs[len(f.seqs)-1])[node]
 	var ids []int
 	for o := range final {
-		for _, s := range f.seqs {
+		for _, s := range seqs {
 			if v, ok := readRowsAt(t, f, s)[node]; ok && v[o] > 0 {
 				ids = append(ids, o)
 				break
@@ -299,18 +339,18 @@ func TestHistoryPlots(t *testing.T) {
 }
 
 func TestLargestOrbits(t *testing.T) {
-	v := func(c ...uint64) storage.Version { return storage.Version{Vector: c} }
+	v := func(c ...uint64) shard.Version { return shard.Version{Vector: c} }
 	for _, c := range []struct {
 		name string
-		vers []storage.Version
+		vers []shard.Version
 		k    int
 		want []int
 	}{
-		{"largest final counts, in id order", []storage.Version{v(1, 9, 0, 5, 7)}, 2, []int{1, 4}},
-		{"ties go to the lower id", []storage.Version{v(3, 3, 3, 1)}, 2, []int{0, 1}},
-		{"zero at the end but not before still counts", []storage.Version{v(0, 0, 4), v(1, 0, 0)}, 3, []int{0, 2}},
-		{"never non-zero is left out", []storage.Version{v(0, 2, 0), v(0, 1, 0)}, 6, []int{1}},
-		{"all zero keeps orbit 0", []storage.Version{v(0, 0, 0)}, 6, []int{0}},
+		{"largest final counts, in id order", []shard.Version{v(1, 9, 0, 5, 7)}, 2, []int{1, 4}},
+		{"ties go to the lower id", []shard.Version{v(3, 3, 3, 1)}, 2, []int{0, 1}},
+		{"zero at the end but not before still counts", []shard.Version{v(0, 0, 4), v(1, 0, 0)}, 3, []int{0, 2}},
+		{"never non-zero is left out", []shard.Version{v(0, 2, 0), v(0, 1, 0)}, 6, []int{1}},
+		{"all zero keeps orbit 0", []shard.Version{v(0, 0, 0)}, 6, []int{0}},
 	} {
 		if got := largestOrbits(c.vers, c.k); fmt.Sprint(got) != fmt.Sprint(c.want) {
 			t.Errorf("%s: %v, want %v", c.name, got, c.want)

@@ -118,9 +118,9 @@ func paymentsLog(t *testing.T, dir string, seed uint64, timed bool) (string, []l
 }
 
 // buildStore applies the log at path to a new store in dir the way backfill
-// does: sequence = data line number, a checkpoint after every `every` lines
-// and at the last line, each committing the touched nodes and the changed
-// pairs. It returns the checkpoint sequences.
+// does, without the command: sequence = data record number, a cut after
+// every `every` records and at the last one, each committed with its
+// records and changed pairs. It returns the cut sequences.
 func buildStore(t *testing.T, dir, path string, kind delta.Kind, maxNodes int, every uint64) []uint64 {
 	t.Helper()
 	c, err := shard.NewCounting(kind, maxNodes)
@@ -136,24 +136,11 @@ func buildStore(t *testing.T, dir, path string, kind delta.Kind, maxNodes int, e
 			t.Fatal(err)
 		}
 	}()
-	a := shard.NewApplier(c, 0)
-	dict := storage.NewDict()
-	var pairs [][2]uint32
+	a := shard.NewApplier(c, 0, shard.Cuts{Lines: every})
 	var seqs []uint64
-	var seq uint64
-	commit := func() {
-		names := a.Names()
-		for _, n := range names[dict.Len():] {
-			dict.Intern(n)
-		}
-		cp := &storage.Checkpoint{Seq: seq, Watermark: a.Watermark(), Dict: dict, Graph: a.Graph(),
-			Edges: pairs, Vectors: a.Vectors(), Nodes: a.Touched()}
-		if err := st.Commit(cp); err != nil {
-			t.Fatalf("commit %d: %v", seq, err)
-		}
-		seqs = append(seqs, seq)
-		a.ResetTouched()
-		pairs = pairs[:0]
+	a.OnCut = func(cp *storage.Checkpoint) error {
+		seqs = append(seqs, cp.Seq)
+		return st.Commit(cp)
 	}
 	r, err := stream.Open(path, stream.Options{})
 	if err != nil {
@@ -168,24 +155,14 @@ func buildStore(t *testing.T, dir, path string, kind delta.Kind, maxNodes int, e
 		if err != nil {
 			t.Fatalf("reading %s: %v", path, err)
 		}
-		seq = uint64(ev.Line)
-		err = a.Apply(seq, ev)
+		err = a.Apply(uint64(ev.Line), ev)
 		var rj *shard.Reject
-		switch {
-		case errors.As(err, &rj):
-		case err != nil:
+		if err != nil && !errors.As(err, &rj) {
 			t.Fatalf("line %d: %v", ev.Line, err)
-		default:
-			u, _ := a.Lookup(ev.Src)
-			v, _ := a.Lookup(ev.Dst)
-			pairs = append(pairs, [2]uint32{u, v})
-		}
-		if seq%every == 0 {
-			commit()
 		}
 	}
-	if len(seqs) == 0 || seqs[len(seqs)-1] != seq {
-		commit()
+	if err := a.Cut(); err != nil {
+		t.Fatal(err)
 	}
 	return seqs
 }

@@ -12,7 +12,6 @@ import (
 	badger "github.com/dgraph-io/badger/v4"
 
 	"orbitwatch/delta"
-	"orbitwatch/shard"
 	"orbitwatch/storage"
 )
 
@@ -22,7 +21,7 @@ func TestVerifyPassesOnGoodStores(t *testing.T) {
 	for _, store := range []string{f.data, f.direct} {
 		r := mustRunCmd(t, "verify", "--data", store)
 		want := "verify: checkpoint " + strconv.FormatUint(last, 10) + " ("
-		if !strings.HasPrefix(r.stdout, want) || strings.Count(r.stdout, "\n") != 1 || !strings.Contains(r.stdout, "every stored vector equals the static recount") {
+		if !strings.HasPrefix(r.stdout, want) || strings.Count(r.stdout, "\n") != 1 || !strings.Contains(r.stdout, "every vector derived from the stored records equals the static recount") {
 			t.Errorf("%s: summary %q", store, r.stdout)
 		}
 		if !strings.Contains(r.stderr, "verify phases: done, 3 events") {
@@ -60,18 +59,26 @@ func reopen(t *testing.T, dir string) (*storage.Store, *storage.State) {
 	return st, state
 }
 
-// corrupt commits, as the next checkpoint, the latest state with one count
-// of node changed by +1, through storage.Commit.
-func corrupt(t *testing.T, dir, node string, orbit int) {
+// corrupt commits, as the next checkpoint, the latest state with node's
+// record changed: its first count (the degree) raised by one.
+func corrupt(t *testing.T, dir, node string) {
 	t.Helper()
 	st, state := reopen(t, dir)
 	x, ok := state.Dict.Lookup(node)
 	if !ok {
 		t.Fatalf("fixture: node %q not in the store", node)
 	}
-	state.Vectors.Set(x, orbit, state.Vectors.Get(x, orbit)+1)
-	err := st.Commit(&storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Dict: state.Dict,
-		Graph: state.Graph, Vectors: state.Vectors, Nodes: []uint32{x}})
+	src, err := st.SourceAt(state.Seq)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec, err := src.Record(x)
+	src.Close()
+	if err != nil || len(rec) == 0 || rec[0] >= 0x7f {
+		t.Fatalf("fixture: record of %q is %x (%v)", node, rec, err)
+	}
+	bad := append([]byte{rec[0] + 1}, rec[1:]...)
+	err = st.Commit(&storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Records: []storage.RecordChange{{Node: x, Data: bad}}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -80,25 +87,21 @@ func corrupt(t *testing.T, dir, node string, orbit int) {
 	}
 }
 
-func TestVerifyFailsOnAWrongVector(t *testing.T) {
+// TestVerifyFailsOnAWrongRecord: a record that disagrees with the stored
+// adjacency fails verify, naming the node.
+func TestVerifyFailsOnAWrongRecord(t *testing.T) {
 	f := newFixture(t, 42, true, 100)
-	for _, c := range []struct {
-		node  string
-		orbit int
-	}{
-		{"acct-000005", 0},
-		{`shop "corner", east`, 11},
-	} {
+	for _, node := range []string{"acct-000005", `shop "corner", east`} {
 		dir := filepath.Join(t.TempDir(), "data")
 		if err := os.CopyFS(dir, os.DirFS(f.data)); err != nil {
 			t.Fatal(err)
 		}
 		mustRunCmd(t, "verify", "--data", dir)
-		corrupt(t, dir, c.node, c.orbit)
+		corrupt(t, dir, node)
 		r := runCmd(t, "verify", "--data", dir)
-		want := "node " + strconv.Quote(c.node) + " orbit " + strconv.Itoa(c.orbit) + ":"
+		want := "record of node " + strconv.Quote(node)
 		if r.code != 1 || !strings.Contains(r.stderr, want) || r.stdout != "" {
-			t.Errorf("corrupted %q orbit %d: exit %d, stdout %q, stderr %q; want exit 1 naming %q", c.node, c.orbit, r.code, r.stdout, r.stderr, want)
+			t.Errorf("corrupted %q: exit %d, stdout %q, stderr %q; want exit 1 naming %q", node, r.code, r.stdout, r.stderr, want)
 		}
 	}
 }
@@ -211,74 +214,5 @@ func TestReadSideRefusesBadDirectories(t *testing.T) {
 	}
 	if ents, _ := os.ReadDir(filepath.Dir(out)); len(ents) != 0 {
 		t.Errorf("failed commands left files: %v", ents)
-	}
-}
-
-// shardStore rewrites a copy of a backfill store as shard `part` of 2
-// would hold it: the full graph, vectors only for the nodes it owns
-// (shard.OwnerOf), zero for the rest, and the worker record naming the
-// shard; with record false the record is left out.
-func shardStore(t *testing.T, from string, part int, record bool) string {
-	t.Helper()
-	dir := filepath.Join(t.TempDir(), "data")
-	if err := os.CopyFS(dir, os.DirFS(from)); err != nil {
-		t.Fatal(err)
-	}
-	st, state := reopen(t, dir)
-	set := st.Settings()
-	var nodes []uint32
-	for x := 0; x < state.Dict.Len(); x++ {
-		if shard.OwnerOf(state.Dict.Name(uint32(x)), 2) != part {
-			for o := 0; o < set.NumOrbits; o++ {
-				state.Vectors.Set(uint32(x), o, 0)
-			}
-			nodes = append(nodes, uint32(x))
-		}
-	}
-	cp := &storage.Checkpoint{Seq: state.Seq + 1, Watermark: state.Watermark, Dict: state.Dict,
-		Graph: state.Graph, Vectors: state.Vectors, Nodes: nodes}
-	if record {
-		cp.Blobs = map[string][]byte{"worker": []byte(`{"shard":` + strconv.Itoa(part) + `,"shards":2,"batch":100,"cut":1,"origins":[1,1],"shuffle_next":1}`)}
-	}
-	if err := st.Commit(cp); err != nil {
-		t.Fatal(err)
-	}
-	if err := st.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return dir
-}
-
-func TestVerifyChecksOnlyOwnedNodesOfAShard(t *testing.T) {
-	f := newFixture(t, 44, true, 100)
-	for part := 0; part < 2; part++ {
-		dir := shardStore(t, f.data, part, true)
-		r := mustRunCmd(t, "verify", "--data", dir)
-		if !strings.Contains(r.stdout, "(those shard "+strconv.Itoa(part)+" of 2 owns)") {
-			t.Errorf("shard %d: summary %q", part, r.stdout)
-		}
-		// Corrupting an owned node fails; the others are not held.
-		var mine, other string
-		order, _ := readMatrix(t, f.replayCSV(f.seqs[len(f.seqs)-1]))
-		for _, x := range order {
-			if shard.OwnerOf(x, 2) == part && mine == "" {
-				mine = x
-			}
-			if shard.OwnerOf(x, 2) != part && other == "" {
-				other = x
-			}
-		}
-		corrupt(t, dir, other, 1)
-		mustRunCmd(t, "verify", "--data", dir)
-		corrupt(t, dir, mine, 1)
-		r = runCmd(t, "verify", "--data", dir)
-		if want := "node " + strconv.Quote(mine) + " orbit 1:"; r.code != 1 || !strings.Contains(r.stderr, want) {
-			t.Errorf("shard %d with owned %q corrupted: exit %d, stderr %q", part, mine, r.code, r.stderr)
-		}
-	}
-	// The same zeroed vectors without the worker record are wrong.
-	dir := shardStore(t, f.data, 0, false)
-	if r := runCmd(t, "verify", "--data", dir); r.code != 1 || !strings.Contains(r.stderr, "differ from the recount") {
-		t.Errorf("zeroed vectors without a worker record: exit %d, stderr %q", r.code, r.stderr)
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math/rand/v2"
@@ -22,7 +23,9 @@ import (
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
 
+	"orbitwatch/delta"
 	"orbitwatch/shard"
+	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
@@ -110,12 +113,13 @@ func (c *child) kill() {
 
 // shardStatus is the part of the API's /v1/status line the tests read.
 type shardStatus struct {
-	Shard      int               `json:"shard"`
-	CutSeq     uint64            `json:"cut_seq"`
-	AppliedSeq uint64            `json:"applied_seq"`
-	Applied    uint64            `json:"applied"`
-	Rejected   map[string]uint64 `json:"rejected"`
-	Ready      bool              `json:"ready"`
+	Shard        int               `json:"shard"`
+	CutSeq       uint64            `json:"cut_seq"`
+	CommittedSeq uint64            `json:"committed_seq"`
+	AppliedSeq   uint64            `json:"applied_seq"`
+	Applied      uint64            `json:"applied"`
+	Rejected     map[string]uint64 `json:"rejected"`
+	Ready        bool              `json:"ready"`
 }
 
 func localStatus(t *testing.T, base string) (shardStatus, error) {
@@ -131,13 +135,13 @@ func localStatus(t *testing.T, base string) (shardStatus, error) {
 	return body.Shards[0], nil
 }
 
-// waitCut polls a worker's API until its cut reaches seq.
-func waitCut(t *testing.T, c *child, base string, seq uint64) shardStatus {
+// waitStatus polls a worker's API until done holds for its status.
+func waitStatus(t *testing.T, c *child, base, what string, done func(shardStatus) bool) shardStatus {
 	t.Helper()
 	deadline := time.Now().Add(90 * time.Second)
 	for {
 		st, err := localStatus(t, base)
-		if err == nil && st.CutSeq >= seq {
+		if err == nil && done(st) {
 			return st
 		}
 		select {
@@ -146,10 +150,23 @@ func waitCut(t *testing.T, c *child, base string, seq uint64) shardStatus {
 		default:
 		}
 		if time.Now().After(deadline) {
-			t.Fatalf("cut %d (%v), want %d:\n%s", st.CutSeq, err, seq, c.output())
+			t.Fatalf("%s did not happen: status %+v (%v):\n%s", what, st, err, c.output())
 		}
 		time.Sleep(20 * time.Millisecond)
 	}
+}
+
+// waitApplied polls a worker's API until it has applied the log up to seq:
+// its reads then see everything up to there.
+func waitApplied(t *testing.T, c *child, base string, seq uint64) shardStatus {
+	t.Helper()
+	return waitStatus(t, c, base, fmt.Sprintf("applying up to %d", seq), func(s shardStatus) bool { return s.AppliedSeq >= seq })
+}
+
+// waitCommitted polls a worker's API until its cut at seq is durable.
+func waitCommitted(t *testing.T, c *child, base string, seq uint64) shardStatus {
+	t.Helper()
+	return waitStatus(t, c, base, fmt.Sprintf("committing the cut at %d", seq), func(s shardStatus) bool { return s.CommittedSeq >= seq })
 }
 
 // jsConnect connects to url for the rest of the test.
@@ -208,18 +225,123 @@ func replayFinal(t *testing.T, inputs ...string) (map[string][]uint64, uint64) {
 	return rows, applied
 }
 
-// ownedVectors reads the vectors a stopped worker's data directory holds
-// for the nodes its shard owns.
-func ownedVectors(t *testing.T, dir string, i, n int) map[string][]uint64 {
+// workerCuts is the cut spacing the tests give workers: their logs have an
+// event a second, so a cut holds about sixty.
+const workerCuts = "1m"
+
+// published is what a stream holds after the tests publish files with
+// publishFile or the publish command: every line that decodes, in order,
+// at stream sequences 1, 2, … (raw messages are added by the caller).
+func published(t *testing.T, paths ...string) []stream.Event {
 	t.Helper()
-	all, _ := loadVectors(t, dir)
-	out := map[string][]uint64{}
-	for name, v := range all {
-		if shard.OwnerOf(name, n) == i {
-			out[name] = v
+	var out []stream.Event
+	for _, path := range paths {
+		r, err := stream.Open(path, stream.Options{})
+		if err != nil {
+			t.Fatal(err)
 		}
+		for {
+			ev, err := r.Next()
+			if err == io.EOF {
+				break
+			}
+			if err == nil {
+				out = append(out, ev)
+			}
+		}
+		r.Close()
 	}
 	return out
+}
+
+// expectation is what a worker following a stream must hold: every
+// node's vector at the end, and, in its store, the cuts the log makes
+// with workerCuts and every node's vector at the last of them.
+type expectation struct {
+	final   map[string][]uint64
+	cuts    []uint64
+	atLast  map[string][]uint64
+	applied uint64
+}
+
+// expect applies log (nil entries are malformed messages) at stream
+// sequences 1, 2, … in one applier with the workers' cuts.
+func expect(t *testing.T, log []*stream.Event) expectation {
+	t.Helper()
+	c, err := shard.NewCounting(delta.Undirected, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	every, _ := time.ParseDuration(workerCuts)
+	a := shard.NewApplier(c, 0, shard.Cuts{Every: every})
+	var e expectation
+	a.OnCut = func(cp *storage.Checkpoint) error {
+		e.cuts = append(e.cuts, cp.Seq)
+		e.atLast = vectorsOf(t, a)
+		return nil
+	}
+	for i, ev := range log {
+		seq := uint64(i + 1)
+		var err error
+		if ev == nil {
+			err = a.RejectLine(seq, "malformed bus message")
+		} else {
+			err = a.Apply(seq, *ev)
+		}
+		var rj *shard.Reject
+		if err != nil && !errors.As(err, &rj) {
+			t.Fatal(err)
+		}
+	}
+	e.final, e.applied = vectorsOf(t, a), a.Stats().Applied
+	return e
+}
+
+func vectorsOf(t *testing.T, a *shard.Applier) map[string][]uint64 {
+	t.Helper()
+	vec, err := a.Vectors()
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := map[string][]uint64{}
+	for x, name := range a.Names() {
+		out[name] = append([]uint64(nil), vec.Row(uint32(x))...)
+	}
+	return out
+}
+
+// pointers turns events into a log of non-nil entries.
+func pointers(evs []stream.Event) []*stream.Event {
+	out := make([]*stream.Event, len(evs))
+	for i := range evs {
+		out[i] = &evs[i]
+	}
+	return out
+}
+
+// readAllNodes reads every node of want from a worker's API (now).
+func readAllNodes(t *testing.T, base string, want map[string][]uint64) map[string][]uint64 {
+	t.Helper()
+	got := map[string][]uint64{}
+	for id := range want {
+		r, code := getNode(t, base, id)
+		if code != http.StatusOK || r.Node != id {
+			t.Fatalf("node %q: status %d, %+v", id, code, r)
+		}
+		got[id] = r.Orbits
+	}
+	return got
+}
+
+// checkStored holds a stopped worker's data directory to the expectation:
+// its last cut and every node's vector there.
+func checkStored(t *testing.T, what, dir string, e expectation) {
+	t.Helper()
+	got, st := loadVectors(t, dir)
+	if st.cut.Seq != e.cuts[len(e.cuts)-1] {
+		t.Fatalf("%s: last cut at %d, want %d", what, st.cut.Seq, e.cuts[len(e.cuts)-1])
+	}
+	sameVectors(t, what, got, e.atLast)
 }
 
 // startWorker starts `orbitwatch worker` for shard i of n and returns it
@@ -227,7 +349,7 @@ func ownedVectors(t *testing.T, dir string, i, n int) map[string][]uint64 {
 func startWorker(t *testing.T, url, name string, i, n int, data string, extra ...string) (*child, string) {
 	t.Helper()
 	args := append([]string{"worker", "--nats", url, "--stream", name, "--subject", strings.ToLower(name) + ".events",
-		"--shard", strconv.Itoa(i), "--shards", strconv.Itoa(n), "--data", data, "--http", "127.0.0.1:0", "--batch", "128"}, extra...)
+		"--shard", strconv.Itoa(i), "--shards", strconv.Itoa(n), "--data", data, "--http", "127.0.0.1:0", "--cut-every", workerCuts}, extra...)
 	c := startChild(t, args...)
 	return c, c.waitFor(t, "HTTP API ")
 }
@@ -311,9 +433,10 @@ func startEmbedded(t *testing.T) *stream.Embedded {
 
 // TestThreeWorkersEqualOne runs one worker process on one deployment and
 // three on another, both fed the same log with malformed messages in the
-// middle: the three shards' owned vectors together are exactly the one
-// worker's, both are replay's, and every malformed message is rejected,
-// counted and kept on the rejects stream.
+// middle: every worker answers every node with replay's vector, holds in
+// its store the cuts of one applier over the same messages, passes
+// verify, and every malformed message is rejected, counted and kept once
+// on the rejects stream.
 func TestThreeWorkersEqualOne(t *testing.T) {
 	dir := t.TempDir()
 	a, b := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
@@ -322,57 +445,54 @@ func TestThreeWorkersEqualOne(t *testing.T) {
 	want, applied := replayFinal(t, a, b)
 	srv := startEmbedded(t)
 	junk := [][]byte{[]byte("{\"src\":\"acct-1\"}"), {0x01, 0x07}, []byte("hello"), {0x02}}
+	log := pointers(published(t, a))
+	for range junk {
+		log = append(log, nil)
+	}
+	log = append(log, pointers(published(t, b))...)
+	e := expect(t, log)
+	sameVectors(t, "the expectation vs replay", e.final, want)
 
-	one, oneURL := startWorker(t, srv.URL(), "ONE", 0, 1, filepath.Join(dir, "one"))
-	var three []*child
-	var threeURL []string
-	for i := range 3 {
-		c, u := startWorker(t, srv.URL(), "THREE", i, 3, filepath.Join(dir, fmt.Sprint("three-", i)))
-		three, threeURL = append(three, c), append(threeURL, u)
+	type worker struct {
+		c    *child
+		base string
+		data string
+	}
+	var ws []worker
+	for _, d := range []struct {
+		name string
+		n    int
+	}{{"ONE", 1}, {"THREE", 3}} {
+		for i := range d.n {
+			data := filepath.Join(dir, fmt.Sprint(d.name, "-", i))
+			c, u := startWorker(t, srv.URL(), d.name, i, d.n, data)
+			ws = append(ws, worker{c, u, data})
+		}
 	}
 	for _, name := range []string{"ONE", "THREE"} {
 		publishFile(t, srv.URL(), name, a, 0)
 		publishRaw(t, srv.URL(), name, junk)
 		publishFile(t, srv.URL(), name, b, 0)
 	}
-	check := func(c *child, base string, last uint64) shardStatus {
-		st := waitCut(t, c, base, last)
-		if st.Applied != applied {
-			t.Fatalf("shard %d applied %d events, replay %d", st.Shard, st.Applied, applied)
+	for _, w := range ws {
+		st := waitApplied(t, w.c, w.base, uint64(len(log)))
+		if st.Applied != applied || st.Rejected["malformed bus message"] != uint64(len(junk)) {
+			t.Fatalf("shard %d: status %+v, want %d applied and %d malformed", st.Shard, st, applied, len(junk))
 		}
-		if st.Rejected["malformed bus message"] != uint64(len(junk)) {
-			t.Fatalf("shard %d counted rejects %v, want %d malformed", st.Shard, st.Rejected, len(junk))
-		}
-		return st
+		sameVectors(t, fmt.Sprintf("worker %s vs replay", w.data), readAllNodes(t, w.base, want), want)
+		waitCommitted(t, w.c, w.base, e.cuts[len(e.cuts)-1])
 	}
-	check(one, oneURL, streamLast(t, srv.URL(), "ONE"))
 	var rejected uint64
-	for i := range three {
-		st := check(three[i], threeURL[i], streamLast(t, srv.URL(), "THREE"))
-		if i == 0 {
-			for _, k := range st.Rejected {
-				rejected += k
-			}
-		}
+	for k, n := range ws[1].c.statusRejected(t, ws[1].base) {
+		_ = k
+		rejected += n
 	}
-	one.stop(t)
-	got := ownedVectors(t, filepath.Join(dir, "one"), 0, 1)
-	sameVectors(t, "one worker vs replay", got, want)
-	union := map[string][]uint64{}
-	for i, c := range three {
-		c.stop(t)
-		for n, v := range ownedVectors(t, filepath.Join(dir, fmt.Sprint("three-", i)), i, 3) {
-			union[n] = v
-		}
-	}
-	sameVectors(t, "three workers vs one", union, got)
-	// verify recounts each shard's stored graph statically and compares
-	// the vectors the shard owns: an independent check of what the
-	// shuffle delivered.
-	for i := range three {
-		out, code := run(t, "verify", "--data", filepath.Join(dir, fmt.Sprint("three-", i)))
-		if code != 0 || !strings.Contains(out, "every stored vector equals the static recount") {
-			t.Fatalf("verify shard %d: exit %d\n%s", i, code, out)
+	for _, w := range ws {
+		w.c.stop(t)
+		checkStored(t, "data directory of "+w.data, w.data, e)
+		out, code := run(t, "verify", "--data", w.data)
+		if code != 0 || !strings.Contains(out, "every vector derived from the stored records equals the static recount") {
+			t.Fatalf("verify %s: exit %d\n%s", w.data, code, out)
 		}
 	}
 
@@ -391,15 +511,27 @@ func TestThreeWorkersEqualOne(t *testing.T) {
 	}
 }
 
+// statusRejected returns the rejects a worker counted by reason.
+func (c *child) statusRejected(t *testing.T, base string) map[string]uint64 {
+	t.Helper()
+	st, err := localStatus(t, base)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st.Rejected
+}
+
 // TestWorkerSurvivesSIGKILL kills worker processes with SIGKILL while the
 // log is being published, restarts them on their data directories, and
-// demands replay's vectors and applied count at the end: nothing lost,
-// nothing counted twice.
+// demands replay's vectors and applied count at the end, and in every
+// store the cuts of an uninterrupted applier: nothing lost, nothing
+// counted twice, no cut moved.
 func TestWorkerSurvivesSIGKILL(t *testing.T) {
 	dir := t.TempDir()
 	log := filepath.Join(dir, "log.csv")
 	writeLog(t, log, 6000, 41)
 	want, applied := replayFinal(t, log)
+	e := expect(t, pointers(published(t, log)))
 	srv := startEmbedded(t)
 	const n = 2
 	data := []string{filepath.Join(dir, "w0"), filepath.Join(dir, "w1")}
@@ -407,8 +539,8 @@ func TestWorkerSurvivesSIGKILL(t *testing.T) {
 	for i := range n {
 		ws[i], urls[i] = startWorker(t, srv.URL(), "KILL", i, n, data[i])
 	}
-	published := make(chan int, 1)
-	go func() { published <- publishFile(t, srv.URL(), "KILL", log, 2000) }()
+	done := make(chan int, 1)
+	go func() { done <- publishFile(t, srv.URL(), "KILL", log, 2000) }()
 	r := rand.New(rand.NewPCG(9, 9))
 	midStream := 0
 	for k := 0; k < 6; k++ {
@@ -416,31 +548,29 @@ func TestWorkerSurvivesSIGKILL(t *testing.T) {
 		i := k % n
 		ws[i].kill()
 		select {
-		case <-published:
-			published <- 0
+		case <-done:
+			done <- 0
 		default:
 			midStream++
 		}
 		ws[i], urls[i] = startWorker(t, srv.URL(), "KILL", i, n, data[i])
 	}
-	<-published
+	<-done
 	if midStream < 3 {
 		t.Fatalf("only %d kills landed while the log was being published", midStream)
 	}
 	last := streamLast(t, srv.URL(), "KILL")
 	for i := range n {
-		if st := waitCut(t, ws[i], urls[i], last); st.Applied != applied {
+		if st := waitApplied(t, ws[i], urls[i], last); st.Applied != applied {
 			t.Fatalf("shard %d applied %d events after its restarts, replay %d", i, st.Applied, applied)
 		}
+		sameVectors(t, "worker killed and restarted vs replay", readAllNodes(t, urls[i], want), want)
+		waitCommitted(t, ws[i], urls[i], e.cuts[len(e.cuts)-1])
 	}
-	union := map[string][]uint64{}
 	for i := range n {
 		ws[i].stop(t)
-		for k, v := range ownedVectors(t, data[i], i, n) {
-			union[k] = v
-		}
+		checkStored(t, "data directory after kills", data[i], e)
 	}
-	sameVectors(t, "workers killed and restarted vs replay", union, want)
 }
 
 func freePort(t *testing.T) string {
@@ -454,17 +584,18 @@ func freePort(t *testing.T) string {
 }
 
 // TestNATSServerRestart kills the NATS server (a child process) with
-// SIGKILL while two workers follow the log being published, starts it
-// again on the same store and port, publishes the whole log again (the
-// events lost with the server are stored now, the others are duplicates)
-// and then more: the workers ride out the outage and end at replay's
-// vectors.
+// SIGKILL while two workers follow a log being published with the publish
+// command, starts it again on the same store and port, and runs publish
+// again until it has stored the whole file (it resumes after the last
+// event stored, in file order), then publishes a second file: the workers
+// ride out the outage and end at replay's vectors and cuts.
 func TestNATSServerRestart(t *testing.T) {
 	dir := t.TempDir()
 	a, b := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
 	writeLog(t, a, 3000, 51)
 	writeLog(t, b, 1500, 52)
 	want, applied := replayFinal(t, a, b)
+	e := expect(t, pointers(published(t, a, b)))
 	addr, store := freePort(t), filepath.Join(dir, "nats")
 	server := startChild(t, "nats-server", "--store", store, "--listen", addr)
 	url := server.waitFor(t, "NATS ")
@@ -474,33 +605,34 @@ func TestNATSServerRestart(t *testing.T) {
 	for i := range n {
 		ws[i], urls[i] = startWorker(t, url, "RESTART", i, n, data[i])
 	}
-	published := make(chan int, 1)
-	go func() { published <- publishFileOr(t, url, "RESTART", a, 3000, func(...any) {}) }()
-	time.Sleep(500 * time.Millisecond)
+	pub := startChild(t, "publish", "--nats", url, "--stream", "RESTART", "--subject", "restart.events", "--input", a)
+	time.Sleep(300 * time.Millisecond)
 	server.kill()
-	select {
-	case <-published:
-		t.Fatal("the log was published before the server was killed")
-	default:
-	}
-	time.Sleep(500 * time.Millisecond)
+	<-pub.done
 	server = startChild(t, "nats-server", "--store", store, "--listen", addr)
 	server.waitFor(t, "NATS ")
-	<-published
-	publishFile(t, url, "RESTART", a, 0)
-	publishFile(t, url, "RESTART", b, 0)
+	for range 5 {
+		if _, code := run(t, "publish", "--nats", url, "--stream", "RESTART", "--subject", "restart.events", "--input", a); code == 0 {
+			break
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
+	if _, code := run(t, "publish", "--nats", url, "--stream", "RESTART", "--subject", "restart.events", "--input", b); code != 0 {
+		t.Fatal("publishing the second file failed")
+	}
 	last := streamLast(t, url, "RESTART")
+	if last != uint64(len(published(t, a, b))) {
+		t.Fatalf("the stream holds %d messages, the files %d events: publish lost or repeated some", last, len(published(t, a, b)))
+	}
 	for i := range n {
-		if st := waitCut(t, ws[i], urls[i], last); st.Applied != applied {
+		if st := waitApplied(t, ws[i], urls[i], last); st.Applied != applied {
 			t.Fatalf("shard %d applied %d events across the restart, replay %d", i, st.Applied, applied)
 		}
+		sameVectors(t, "worker across a server restart vs replay", readAllNodes(t, urls[i], want), want)
+		waitCommitted(t, ws[i], urls[i], e.cuts[len(e.cuts)-1])
 	}
-	union := map[string][]uint64{}
 	for i := range n {
 		ws[i].stop(t)
-		for k, v := range ownedVectors(t, data[i], i, n) {
-			union[k] = v
-		}
+		checkStored(t, "data directory across a server restart", data[i], e)
 	}
-	sameVectors(t, "workers across a server restart vs replay", union, want)
 }

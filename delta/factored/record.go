@@ -163,7 +163,7 @@ func (c *Counter) Restore(g *delta.Graph, src delta.Source) error {
 		}
 		buf = c.AppendRecord(buf[:0], x)
 		if !bytes.Equal(buf, want) {
-			return fmt.Errorf("factored: stored record of node %d does not match the stored adjacency", x)
+			return &delta.RecordError{Node: x, Err: errors.New("does not match the stored adjacency")}
 		}
 	}
 	clear(c.dirty)

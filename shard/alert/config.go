@@ -201,7 +201,7 @@ func DefaultConfig(cat *catalog.Catalog) Config {
 	}
 	cfg := Config{
 		Lookback: DefaultLookback, HalfLife: DefaultHalfLife,
-		MaxPerMinute: DefaultMaxPerMinute, TopOrbits: DefaultTopOrbits,
+		MaxPerMinute: DefaultMaxPerMinute, TopOrbits: min(DefaultTopOrbits, cat.NumOrbits()),
 		Rules: []Rule{gate(Rule{Name: "signature-shift", Kind: Signature, Fire: 0.36, Rearm: 0.26})},
 	}
 	if cat.Kind == delta.Undirected && cat.MaxNodes >= 4 {
