@@ -122,12 +122,12 @@ func (a *Applier) Apply(seq uint64, ev stream.Event) error {
 			return a.after(a.rejectWith(ev, err))
 		}
 		if err == nil && a.window != nil {
-			a.window.push(ev.TS.Add(a.window.width), seq, u, v)
+			a.window.push(ev.TS.Add(a.window.width), seq, u, v, ev.Neg && a.signed())
 		}
 	} else {
-		err = a.decrement(u, v)
+		err = a.decrement(u, v, ev.Neg)
 		if err == nil && a.window != nil {
-			a.window.cancel(u, v)
+			a.window.cancel(u, v, ev.Neg && a.signed())
 		}
 	}
 	if err != nil {
@@ -216,11 +216,17 @@ func (a *Applier) check(ev stream.Event) error {
 		if !ok1 || !ok2 || !a.graph.HasEdge(u, v) {
 			return delta.ErrAbsent
 		}
+		if p, n := a.graph.Multiplicities(u, v); a.signed() && (ev.Neg && n == 0 || !ev.Neg && p == 0) {
+			return delta.ErrAbsent // the other sign keeps the pair
+		}
 	}
 	return nil
 }
 
 func (a *Applier) increment(u, v uint32, neg bool) error {
+	if a.signed() {
+		return a.changeSigned(u, v, neg, true)
+	}
 	if !a.graph.HasEdge(u, v) && a.counter != nil {
 		if err := a.counter.Insert(a.graph, u, v, neg); err != nil {
 			a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
@@ -234,7 +240,10 @@ func (a *Applier) increment(u, v uint32, neg bool) error {
 	return nil
 }
 
-func (a *Applier) decrement(u, v uint32) error {
+func (a *Applier) decrement(u, v uint32, neg bool) error {
+	if a.signed() {
+		return a.changeSigned(u, v, neg, false)
+	}
 	if a.graph.Multiplicity(u, v) == 1 && a.counter != nil {
 		if err := a.counter.Delete(a.graph, u, v); err != nil {
 			a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
@@ -248,6 +257,29 @@ func (a *Applier) decrement(u, v uint32) error {
 	return nil
 }
 
+func (a *Applier) signed() bool { return a.graph.Kind() == delta.Signed }
+
+// changeSigned adds (add) or removes one unit of the sign neg of {u,v} in
+// a Signed graph through delta.ApplySigned, which calls the counter where
+// the signed simple graph changes (a change of the pair's sign as a Delete
+// and an Insert). A rejection is returned as it is; a counter error is a
+// fault.
+func (a *Applier) changeSigned(u, v uint32, neg, add bool) error {
+	var c delta.Counter
+	if a.counter != nil {
+		c = a.counter
+	}
+	if _, err := delta.ApplySigned(a.graph, c, u, v, neg, add); err != nil {
+		if errors.Is(err, delta.ErrMultiplicity) || errors.Is(err, delta.ErrAbsent) || errors.Is(err, delta.ErrSelfLoop) {
+			return err
+		}
+		a.fault = fmt.Errorf("seq %d: %w", a.seq, err)
+		return a.fault
+	}
+	a.pairs = append(a.pairs, [2]uint32{u, v})
+	return nil
+}
+
 // expire applies the window's removes whose expiry the watermark has reached.
 func (a *Applier) expire() error {
 	for {
@@ -255,7 +287,7 @@ func (a *Applier) expire() error {
 		if !ok {
 			return nil
 		}
-		if err := a.decrement(e.u, e.v); err != nil {
+		if err := a.decrement(e.u, e.v, e.neg); err != nil {
 			return fmt.Errorf("seq %d: window expiry of add at seq %d: %w", a.seq, e.seq, err)
 		}
 		a.expired++
@@ -311,7 +343,8 @@ func (a *Applier) checkpoint() *storage.Checkpoint {
 	a.pairs = slices.Compact(a.pairs)
 	cp.Edges = make([]storage.EdgeChange, len(a.pairs))
 	for i, e := range a.pairs {
-		cp.Edges[i] = storage.EdgeChange{U: e[0], V: e[1], Mult: a.graph.Multiplicity(e[0], e[1])}
+		p, n := a.graph.Multiplicities(e[0], e[1])
+		cp.Edges[i] = storage.EdgeChange{U: e[0], V: e[1], Mult: p, Neg: n}
 	}
 	a.pairs = a.pairs[:0]
 	if a.counter != nil {

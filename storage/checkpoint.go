@@ -54,10 +54,13 @@ type KeyedChange struct {
 	Value []byte
 }
 
-// EdgeChange is a pair's new multiplicity.
+// EdgeChange is a pair's new multiplicity; in a Signed store Mult is the
+// positive and Neg the negative multiplicity (Neg is 0 for the other
+// kinds). Both zero deletes the pair.
 type EdgeChange struct {
 	U, V uint32
 	Mult uint32
+	Neg  uint32
 }
 
 // RecordChange is a node's new record.
@@ -165,6 +168,9 @@ func (st *Store) checkShapes(cp *Checkpoint, n int) {
 	for _, e := range cp.Edges {
 		if int(e.U) >= n || int(e.V) >= n || e.U == e.V {
 			panic("storage: checkpoint edge with an unknown node or a self-loop")
+		}
+		if e.Neg > 0 && st.settings.Kind != delta.Signed {
+			panic("storage: a negative multiplicity in a store that is not signed")
 		}
 	}
 	for _, r := range append(cp.Records[:len(cp.Records):len(cp.Records)], cp.Scored...) {
@@ -292,15 +298,21 @@ func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info 
 		next++
 	}
 	directed := st.settings.Kind == delta.Directed
+	signed := st.settings.Kind == delta.Signed
 	for _, e := range cp.Edges {
+		// A signed pair's value is both multiplicities; the other kinds
+		// keep the single one.
 		val = binary.AppendUvarint(val[:0], uint64(e.Mult))
+		if signed {
+			val = binary.AppendUvarint(val, uint64(e.Neg))
+		}
 		pairs := [2][3]uint32{{pEdge, e.U, e.V}, {pEdge, e.V, e.U}}
 		if directed {
 			pairs[1] = [3]uint32{pInArc, e.V, e.U}
 		}
 		for _, p := range pairs {
 			key = appendPairKey(key[:0], byte(p[0]), p[1], p[2])
-			if err := w.put(key, val, e.Mult == 0); err != nil {
+			if err := w.put(key, val, e.Mult == 0 && e.Neg == 0); err != nil {
 				return 0, err
 			}
 		}

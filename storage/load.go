@@ -36,7 +36,8 @@ func (st *Store) Load() (*State, error) {
 
 // LoadAt returns the latest complete checkpoint with Seq ≤ seq: its
 // dictionary, its graph (every stored multiplicity, by repeated
-// Increment; one node per dictionary entry) and its blobs.
+// Increment; a signed pair's two multiplicities set at once; one node per
+// dictionary entry) and its blobs.
 func (st *Store) LoadAt(seq uint64) (*State, error) {
 	cut, err := st.cutAt(seq)
 	if err != nil {
@@ -103,6 +104,16 @@ func loadEdges(txn *badger.Txn, s *State, n int) error {
 			return fmt.Errorf("corrupt edge key %x", key)
 		}
 		u, v := binary.BigEndian.Uint32(key[1:]), binary.BigEndian.Uint32(key[5:])
+		if s.Graph.Kind() == delta.Signed {
+			pos, neg, err := signedMultiplicities(val)
+			if err != nil || pos+neg == 0 || pos+neg > 1<<32-1 || int(u) >= n || int(v) >= n || u == v {
+				return fmt.Errorf("corrupt signed edge record %x = %x", key, val)
+			}
+			if u < v {
+				s.Graph.SetMultiplicities(u, v, uint32(pos), uint32(neg))
+			}
+			return nil
+		}
 		m, err := getUvarint(val, "edge")
 		if err != nil || m == 0 || m > 1<<32-1 || int(u) >= n || int(v) >= n || u == v {
 			return fmt.Errorf("corrupt edge record %x = %x", key, val)
@@ -131,4 +142,18 @@ func loadBlobs(txn *badger.Txn, s *State, _ int) error {
 		s.Blobs[string(key[1:])] = append([]byte{}, val...)
 		return nil
 	})
+}
+
+// signedMultiplicities decodes a signed pair's value: the positive and
+// the negative multiplicity as two uvarints.
+func signedMultiplicities(b []byte) (pos, neg uint64, err error) {
+	pos, n := binary.Uvarint(b)
+	if n > 0 {
+		var m int
+		neg, m = binary.Uvarint(b[n:])
+		if m > 0 && n+m == len(b) {
+			return pos, neg, nil
+		}
+	}
+	return 0, 0, fmt.Errorf("signed edge record is not two uvarints (%d bytes)", len(b))
 }

@@ -30,7 +30,7 @@ type Settings struct {
 var settingsMagic = []byte("orbitwatch storage v1\x00")
 
 func (s Settings) validate() error {
-	if s.Kind != delta.Undirected && s.Kind != delta.Directed {
+	if s.Kind != delta.Undirected && s.Kind != delta.Directed && s.Kind != delta.Signed {
 		return fmt.Errorf("settings: unknown graph kind %d", uint8(s.Kind))
 	}
 	if s.MaxNodes < 2 {

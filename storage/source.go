@@ -19,6 +19,7 @@ type Source struct {
 	txn      *badger.Txn
 	cut      CheckpointInfo
 	directed bool
+	signed   bool
 	key, val []byte
 }
 
@@ -30,7 +31,7 @@ func (st *Store) SourceAt(seq uint64) (*Source, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &Source{st: st, txn: st.db.NewTransactionAt(cut.Seq, false), cut: cut, directed: st.settings.Kind == delta.Directed}, nil
+	return &Source{st: st, txn: st.db.NewTransactionAt(cut.Seq, false), cut: cut, directed: st.settings.Kind == delta.Directed, signed: st.settings.Kind == delta.Signed}, nil
 }
 
 // Checkpoint returns the checkpoint the source reads.
@@ -69,9 +70,20 @@ func (s *Source) Record(x uint32) ([]byte, error) {
 	return s.val, nil
 }
 
-// Adjacent appends to dst[:0] the nodes joined to x in increasing order.
+// Adjacent appends to dst[:0] the nodes joined to x in increasing order
+// (with LinkNeg for a negative pair of a signed store).
 func (s *Source) Adjacent(x uint32, dst []delta.Adj) ([]delta.Adj, error) {
 	dst = dst[:0]
+	if s.signed {
+		err := s.scanSigned(x, func(y uint32, neg bool) {
+			l := delta.LinkOut | delta.LinkIn
+			if neg {
+				l |= delta.LinkNeg
+			}
+			dst = append(dst, delta.Adj{Node: y, Links: l})
+		})
+		return dst, err
+	}
 	out := delta.LinkOut | delta.LinkIn
 	if s.directed {
 		out = delta.LinkOut
@@ -131,8 +143,53 @@ func (s *Source) scanPairs(p byte, x uint32, f func(y uint32)) error {
 	return nil
 }
 
+// scanSigned calls f for every pair x–y of a signed store with its sign.
+func (s *Source) scanSigned(x uint32, f func(y uint32, neg bool)) error {
+	prefix := binary.BigEndian.AppendUint32([]byte{pEdge}, x)
+	it := s.txn.NewIterator(badger.IteratorOptions{Prefix: prefix, PrefetchValues: true, PrefetchSize: 64})
+	defer it.Close()
+	for it.Rewind(); it.Valid(); it.Next() {
+		item := it.Item()
+		k := item.Key()
+		if len(k) != 9 {
+			return fmt.Errorf("storage: corrupt adjacency key %x at %d", k, s.cut.Seq)
+		}
+		y := binary.BigEndian.Uint32(k[5:])
+		err := item.Value(func(val []byte) error {
+			_, neg, err := signedMultiplicities(val)
+			f(y, neg > 0)
+			return err
+		})
+		if err != nil {
+			return fmt.Errorf("storage: pair %d-%d at %d: %w", x, y, s.cut.Seq, err)
+		}
+	}
+	return nil
+}
+
 // Linked returns how y is joined to x.
 func (s *Source) Linked(x, y uint32) (delta.Link, error) {
+	if s.signed {
+		s.key = appendPairKey(s.key[:0], pEdge, x, y)
+		item, err := s.txn.Get(s.key)
+		if errors.Is(err, badger.ErrKeyNotFound) {
+			return 0, nil
+		}
+		if err == nil {
+			s.val, err = item.ValueCopy(s.val[:0])
+		}
+		var neg uint64
+		if err == nil {
+			_, neg, err = signedMultiplicities(s.val)
+		}
+		if err != nil {
+			return 0, fmt.Errorf("storage: pair %d-%d at %d: %w", x, y, s.cut.Seq, err)
+		}
+		if neg > 0 {
+			return delta.LinkOut | delta.LinkIn | delta.LinkNeg, nil
+		}
+		return delta.LinkOut | delta.LinkIn, nil
+	}
 	has := func(p byte, a, b uint32) (bool, error) {
 		s.key = appendPairKey(s.key[:0], p, a, b)
 		_, err := s.txn.Get(s.key)
