@@ -8,6 +8,7 @@ import (
 	"orbitwatch/delta/factored"
 	"orbitwatch/delta/five"
 	"orbitwatch/delta/generic"
+	"orbitwatch/delta/signed"
 	"orbitwatch/delta/undirected"
 )
 
@@ -41,6 +42,13 @@ func NewCounting(kind delta.Kind, maxNodes int) (*Counting, error) {
 		return &Counting{cat, func() delta.Counter { return five.New() }, five.NewRecounter(five.Options{})}, nil
 	case kind == delta.Directed && maxNodes >= 3 && maxNodes <= 4:
 		return &Counting{cat, func() delta.Counter { return delta.NewEager(generic.NewEngine(cat)) }, generic.NewRecounter(cat)}, nil
+	case kind == delta.Signed && maxNodes == 3:
+		// Signed 2–3: records of delta/signed, recounted there.
+		return &Counting{cat, func() delta.Counter { return signed.New() }, signed.NewRecounter()}, nil
+	case kind == delta.Signed && maxNodes == 4:
+		// Signed 2–4: vectors kept as records by the generic halo
+		// engine until a factored form exists (cost in the README).
+		return &Counting{cat, func() delta.Counter { return delta.NewEager(generic.NewEngine(cat)) }, generic.NewRecounter(cat)}, nil
 	}
-	return nil, fmt.Errorf("%v graphlets of up to %d nodes are not supported (undirected: 3–5, directed: 3–4)", kind, maxNodes)
+	return nil, fmt.Errorf("%v graphlets of up to %d nodes are not supported (undirected: 3–5, directed: 3–4, signed: 3–4)", kind, maxNodes)
 }
