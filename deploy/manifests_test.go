@@ -431,6 +431,7 @@ type k8sObject struct {
 					FSGroup      int  `yaml:"fsGroup"`
 				} `yaml:"securityContext"`
 				Containers []k8sContainer `yaml:"containers"`
+				Volumes    []k8sVolume    `yaml:"volumes"`
 			} `yaml:"spec"`
 		} `yaml:"template"`
 		VolumeClaimTemplates []struct {
@@ -443,6 +444,13 @@ type k8sObject struct {
 		} `yaml:"volumeClaimTemplates"`
 	} `yaml:"spec"`
 	raw map[string]any
+}
+
+type k8sVolume struct {
+	Name   string `yaml:"name"`
+	Secret struct {
+		SecretName string `yaml:"secretName"`
+	} `yaml:"secret"`
 }
 
 type k8sProbe struct {
@@ -482,6 +490,7 @@ type k8sContainer struct {
 	VolumeMounts []struct {
 		Name      string `yaml:"name"`
 		MountPath string `yaml:"mountPath"`
+		ReadOnly  bool   `yaml:"readOnly"`
 	} `yaml:"volumeMounts"`
 }
 
@@ -653,8 +662,25 @@ func TestKubernetesManifestsAgree(t *testing.T) {
 		t.Errorf("scrape annotations %v, want port %d path /metrics", a, port)
 	}
 
-	if len(sts.Spec.VolumeClaimTemplates) != 1 || len(c.VolumeMounts) != 1 || c.VolumeMounts[0].Name != sts.Spec.VolumeClaimTemplates[0].Metadata.Name {
+	if len(sts.Spec.VolumeClaimTemplates) != 1 || len(c.VolumeMounts) == 0 || c.VolumeMounts[0].Name != sts.Spec.VolumeClaimTemplates[0].Metadata.Name {
 		t.Fatalf("volume claim templates %+v and mounts %+v do not pair up", sts.Spec.VolumeClaimTemplates, c.VolumeMounts)
+	}
+	// The API listens beyond loopback, so it needs a credential: the
+	// tokens file (and the token shown to peers) from a Secret mounted
+	// read-only, the other mounts.
+	secretMount := ""
+	for _, m := range c.VolumeMounts[1:] {
+		i := slices.IndexFunc(pod.Spec.Volumes, func(v k8sVolume) bool { return v.Name == m.Name })
+		if i < 0 || pod.Spec.Volumes[i].Secret.SecretName == "" || !m.ReadOnly {
+			t.Errorf("mount %+v: want a Secret volume mounted read-only", m)
+			continue
+		}
+		secretMount = m.MountPath
+	}
+	for _, f := range []string{"http-tokens", "peer-token"} {
+		if secretMount == "" || !strings.HasPrefix(flags[f], secretMount+"/") {
+			t.Errorf("--%s=%q: want a file of the Secret mounted at %q (the API listens on %s)", f, flags[f], secretMount, flags["http"])
+		}
 	}
 	if !slices.Equal(sts.Spec.VolumeClaimTemplates[0].Spec.AccessModes, []string{"ReadWriteOnce"}) {
 		t.Errorf("claim access modes %v: one Badger directory has one writer", sts.Spec.VolumeClaimTemplates[0].Spec.AccessModes)
