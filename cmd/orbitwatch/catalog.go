@@ -20,7 +20,7 @@ type catalogJSON struct {
 type graphletJSON struct {
 	ID     int         `json:"id"`
 	Nodes  int         `json:"nodes"`
-	Edges  [][2]int    `json:"edges"`
+	Edges  any         `json:"edges"` // [a, b] pairs; [a, b, "+" or "-"] in signed catalogs
 	Name   string      `json:"name"`
 	Orbits []orbitJSON `json:"orbits"`
 }
@@ -38,7 +38,7 @@ type orbitJSON struct {
 
 func runCatalog(args []string) int {
 	fs := flag.NewFlagSet("catalog", flag.ContinueOnError)
-	kindName := fs.String("kind", "undirected", "graph kind: undirected or directed")
+	kindName := fs.String("kind", "undirected", "graph kind: undirected, directed or signed")
 	maxNodes := fs.Int("max-nodes", 4, "largest graphlet size counted")
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
 	if err := fs.Parse(args); err != nil {
@@ -56,8 +56,15 @@ func runCatalog(args []string) int {
 		out := catalogJSON{Kind: kind.String(), MaxNodes: cat.MaxNodes, Graphlets: []graphletJSON{}}
 		for _, g := range cat.Graphlets {
 			gj := graphletJSON{ID: g.ID, Nodes: g.Nodes, Edges: g.Edges, Name: g.Name, Orbits: []orbitJSON{}}
-			if gj.Edges == nil {
+			if g.Edges == nil {
 				gj.Edges = [][2]int{}
+			}
+			if kind == delta.Signed {
+				signed := make([][3]any, len(g.Edges))
+				for i, e := range g.Edges {
+					signed[i] = [3]any{e[0], e[1], map[bool]string{false: "+", true: "-"}[g.Neg[i]]}
+				}
+				gj.Edges = signed
 			}
 			for _, o := range cat.Orbits {
 				if o.Graphlet == g.ID {

@@ -22,7 +22,7 @@ type countingFlags struct {
 }
 
 func (c *countingFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&c.kind, "kind", "undirected", "graph kind: undirected or directed")
+	fs.StringVar(&c.kind, "kind", "undirected", "graph kind: undirected, directed or signed (edges carry a sign column: + payment, - dispute)")
 	fs.IntVar(&c.maxNodes, "max-nodes", 4, "largest graphlet size counted (undirected 3–5, directed 3–4)")
 }
 
