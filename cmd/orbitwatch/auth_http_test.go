@@ -7,6 +7,7 @@ import (
 	"net/http"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 )
@@ -89,6 +90,13 @@ func TestServeHTTPBeyondLoopbackNeedsCredential(t *testing.T) {
 		if resp.StatusCode != c.code {
 			t.Errorf("GET %s (token %.8q, host %q): %d %s, want %d", c.path, c.token, c.host, resp.StatusCode, body, c.code)
 		}
+	}
+	// The page itself loads without a token; its first API read is
+	// refused, and it asks for a token (headless Chromium).
+	dom := string(headless(t, "--dump-dom", local+"/"))
+	form := regexp.MustCompile(`<form id="token-form"[^>]*>`).FindString(dom)
+	if form == "" || strings.Contains(form, "hidden") || !strings.Contains(dom, `id="token"`) {
+		t.Errorf("the page does not ask for a token (form %q):\n%s", form, dom)
 	}
 	srv.stop(t)
 }
