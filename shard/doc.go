@@ -14,8 +14,8 @@
 // the shards that own the nodes (by a hash of the node id) over a
 // de-duplicating shuffle stream, and commits a checkpoint at every cut.
 // At each cut it evaluates the alert rules (package shard/alert) on the
-// nodes it owns. NewAPI serves node reads (forwarded to the owner), status,
-// health, alerts, metrics and the web page.
+// nodes it owns. Package shard/api serves what a worker shows (View) over
+// HTTP: node reads, status, health, alerts, metrics and the web page.
 //
 // It owns the order of things, not the maths (package delta), the bytes on
 // disk (package storage) or the decoding of input (package stream).
