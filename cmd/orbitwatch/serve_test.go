@@ -73,7 +73,7 @@ func TestServeEndToEnd(t *testing.T) {
 		return srv, srv.waitFor(t, "NATS "), srv.waitFor(t, "HTTP API ")
 	}
 	srv, natsURL, base := start()
-	stored, dups, last := publishCmd(t, "--nats", natsURL, "--input", log)
+	stored, dups, last := publishCmd(t, "--nats", natsURL, "--nkey", filepath.Join(data, natsKeyFile), "--input", log)
 	if stored == 0 || dups != 0 {
 		t.Fatalf("first publish: %d stored, %d duplicates", stored, dups)
 	}
@@ -96,7 +96,7 @@ func TestServeEndToEnd(t *testing.T) {
 	}
 
 	// The same file again: every event is known and stored once.
-	stored2, _, _ := publishCmd(t, "--nats", natsURL, "--input", log)
+	stored2, _, _ := publishCmd(t, "--nats", natsURL, "--nkey", filepath.Join(data, natsKeyFile), "--input", log)
 	if stored2 != 0 {
 		t.Fatalf("second publish stored %d", stored2)
 	}
