@@ -114,12 +114,13 @@ func (c *Counter) Insert(g *delta.Graph, u, v uint32, neg bool) error {
 	c.fault = nil
 	s := sign(neg)
 	c.update(g, u, v, s, +1)
-	// Threshold crossings walk the neighbours in G, with uv.
-	p, n := uint32(1-s), uint32(s)
-	g.SetMultiplicities(u, v, p, n)
-	c.flip(g, u, c.nodes[u].degree())
-	c.flip(g, v, c.nodes[v].degree())
-	g.SetMultiplicities(u, v, 0, 0)
+	if c.crosses(u) || c.crosses(v) {
+		// Threshold crossings walk the neighbours in G, with uv.
+		g.SetMultiplicities(u, v, uint32(1-s), uint32(s))
+		c.flip(g, u, c.nodes[u].degree())
+		c.flip(g, v, c.nodes[v].degree())
+		g.SetMultiplicities(u, v, 0, 0)
+	}
 	if c.nodes[u].degree() > maxDegree || c.nodes[v].degree() > maxDegree {
 		c.failf("degree of node %d or %d above 2^30", u, v)
 	}
@@ -213,6 +214,9 @@ func (c *Counter) endpoint(g *delta.Graph, x, other uint32, s uint8, dir int64) 
 		c.add(other, &lo[b], dir*d)
 	}
 }
+
+// crosses reports whether x's side no longer matches its degree.
+func (c *Counter) crosses(x uint32) bool { return (c.nodes[x].degree() >= c.theta) != c.heavy[x] }
 
 // flip makes x heavy when d ≥ θ and light otherwise, if it is not
 // already, walking its neighbours in g, which must hold every tie of x the
