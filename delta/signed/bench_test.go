@@ -28,7 +28,7 @@ type subject struct {
 // constSource serves every node the same record: counts all at 2^40.
 type constSource struct{ rec []byte }
 
-func (s constSource) Record(uint32) ([]byte, error)                     { return s.rec, nil }
+func (s constSource) Record(uint32) ([]byte, error)                   { return s.rec, nil }
 func (constSource) Adjacent(uint32, []delta.Adj) ([]delta.Adj, error) { return nil, nil }
 func (constSource) Linked(uint32, uint32) (delta.Link, error)         { return 0, nil }
 
