@@ -134,7 +134,7 @@ func (c *Counter) Derive(src delta.Source, x uint32, dst []uint64) ([]uint64, er
 // and triangles from the records (held to g's degrees), the sides, light
 // sums and heavy lists from g, and every heavy record's neighbour sums
 // held to what g and the records give. A record that does not decode or
-// does not agree is an error naming the node.
+// does not agree is a *delta.RecordError.
 func (c *Counter) Restore(g *delta.Graph, src delta.Source) error {
 	if g.Kind() != delta.Signed {
 		return fmt.Errorf("signed: Restore from a %v graph", g.Kind())
@@ -181,5 +181,5 @@ func (c *Counter) Restore(g *delta.Graph, src delta.Source) error {
 
 // recordError names the node whose stored record is wrong.
 func recordError(x uint32, err error) error {
-	return fmt.Errorf("signed: record of node %d: %w", x, err)
+	return &delta.RecordError{Node: x, Err: err}
 }
