@@ -128,3 +128,20 @@ func TestNATSServerBeyondLoopback(t *testing.T) {
 	}
 	c.stop(t)
 }
+
+// TestNATSCredentialFlags: one credential at a time, and a key file that
+// does not load is named.
+func TestNATSCredentialFlags(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "log.csv")
+	writeLog(t, log, 10, 43)
+	out, code := run(t, "publish", "--nats", "nats://127.0.0.1:1", "--creds", filepath.Join(dir, "a.creds"), "--nkey", filepath.Join(dir, "b.nk"), "--input", log)
+	if code == 0 || !strings.Contains(out, "--creds and --nkey: give one of them") {
+		t.Errorf("--creds with --nkey: exit %d\n%s", code, out)
+	}
+	missing := filepath.Join(dir, "missing.nk")
+	out, code = run(t, "publish", "--nats", "nats://127.0.0.1:1", "--nkey", missing, "--input", log)
+	if code == 0 || !strings.Contains(out, "--nkey "+missing) {
+		t.Errorf("--nkey of a missing file: exit %d\n%s", code, out)
+	}
+}
