@@ -185,26 +185,31 @@ const maxShown = 64
 // with "…" and the full length added when cut, so that an error answer
 // stays small however long the request's id was.
 func shorten(s string) string {
-	if len(s) <= maxShown {
-		return s
+	if head, ok := prefix(s); ok {
+		return fmt.Sprintf("%s… (%d bytes)", head, len(s))
 	}
-	n := maxShown
-	for n > 0 && !utf8.RuneStart(s[n]) {
-		n--
-	}
-	return fmt.Sprintf("%s… (%d bytes)", s[:n], len(s))
+	return s
 }
 
-// quoted is shorten's output in Go quotes.
+// quoted is shorten's output with the kept part in Go quotes.
 func quoted(s string) string {
+	if head, ok := prefix(s); ok {
+		return fmt.Sprintf("%q… (%d bytes)", head, len(s))
+	}
+	return strconv.Quote(s)
+}
+
+// prefix returns the first maxShown bytes of s or fewer, ending at a
+// character boundary, and whether s is longer.
+func prefix(s string) (string, bool) {
 	if len(s) <= maxShown {
-		return strconv.Quote(s)
+		return s, false
 	}
 	n := maxShown
 	for n > 0 && !utf8.RuneStart(s[n]) {
 		n--
 	}
-	return fmt.Sprintf("%q… (%d bytes)", s[:n], len(s))
+	return s[:n], true
 }
 
 // queryKeys refuses query parameters other than those allowed.
