@@ -5,6 +5,7 @@ import (
 
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
+	"orbitwatch/delta/directed"
 	"orbitwatch/delta/factored"
 	"orbitwatch/delta/five"
 	"orbitwatch/delta/generic"
@@ -27,9 +28,8 @@ type Counting struct {
 // NewCounting picks the counters for kind and maxNodes: the factored
 // records of delta/factored for undirected graphlets of up to 4 nodes
 // (recounted by delta/undirected); for 5 nodes the vectors kept as records
-// and recounted combinatorially at a cut (delta/five); vectors kept as
-// records by the generic halo enumerator for the other kinds (recounted by
-// enumeration).
+// and recounted combinatorially at a cut (delta/five); the factored
+// directed records of delta/directed (recounted combinatorially there).
 func NewCounting(kind delta.Kind, maxNodes int) (*Counting, error) {
 	cat, err := catalog.New(kind, maxNodes)
 	if err != nil {
@@ -40,8 +40,10 @@ func NewCounting(kind delta.Kind, maxNodes int) (*Counting, error) {
 		return &Counting{cat, func() delta.Counter { return factored.New(maxNodes) }, undirected.NewRecounter(maxNodes)}, nil
 	case kind == delta.Undirected && maxNodes == 5:
 		return &Counting{cat, func() delta.Counter { return five.New() }, five.NewRecounter(five.Options{})}, nil
-	case kind == delta.Directed && maxNodes >= 3 && maxNodes <= 4:
-		return &Counting{cat, func() delta.Counter { return delta.NewEager(generic.NewEngine(cat)) }, generic.NewRecounter(cat)}, nil
+	case kind == delta.Directed && maxNodes == 3:
+		return &Counting{cat, func() delta.Counter { return directed.NewTriads() }, directed.NewRecounter(3)}, nil
+	case kind == delta.Directed && maxNodes == 4:
+		return &Counting{cat, func() delta.Counter { return directed.NewQuads(0) }, directed.NewRecounter(4)}, nil
 	case kind == delta.Signed && maxNodes == 3:
 		// Signed 2–3: records of delta/signed, recounted there.
 		return &Counting{cat, func() delta.Counter { return signed.New() }, signed.NewRecounter()}, nil
