@@ -190,6 +190,50 @@ func (ix *Index) Nearest(v []uint64, k int, filter func(node uint32) bool) []Nei
 	q := ix.m.Signature(nil, v)
 	ix.mu.RLock()
 	defer ix.mu.RUnlock()
+	return ix.nearest(q, k, filter)
+}
+
+// NearestTo is Nearest with node's stored signature as the query, read
+// under the same lock as the scan, so the query and the rows are of one
+// moment; false when node has no signature. It is what a query by node
+// needs when the node's counts are not at hand (an index built at a cut
+// the caller's state has moved past).
+func (ix *Index) NearestTo(node uint32, k int, filter func(node uint32) bool) ([]Neighbor, bool) {
+	ix.mu.RLock()
+	defer ix.mu.RUnlock()
+	if !ix.has(node) {
+		return nil, false
+	}
+	if k <= 0 {
+		return nil, true
+	}
+	s := ix.m.SignatureLen()
+	q := slices.Clone(ix.data[int(node)*s : int(node+1)*s])
+	return ix.nearest(q, k, filter), true
+}
+
+// TermsBetween is Terms with both sides stored: the per-orbit terms of D
+// between the signatures of nodes a and b, in dst if it is long enough;
+// false when either has none.
+func (ix *Index) TermsBetween(dst []float64, a, b uint32) ([]float64, bool) {
+	n := ix.m.NumOrbits()
+	if cap(dst) < n {
+		dst = make([]float64, n)
+	}
+	dst = dst[:n]
+	ix.mu.RLock()
+	defer ix.mu.RUnlock()
+	if !ix.has(a) || !ix.has(b) {
+		return dst, false
+	}
+	s := ix.m.SignatureLen()
+	ix.m.Distance(ix.data[int(a)*s:int(a+1)*s], ix.data[int(b)*s:int(b+1)*s], dst)
+	return dst, true
+}
+
+// nearest is Nearest's scan of signature q; the caller holds the read
+// lock.
+func (ix *Index) nearest(q []float32, k int, filter func(node uint32) bool) []Neighbor {
 	workers := min(numWorkers(), (ix.rows+chunk-1)/chunk)
 	heaps := make([]topK, max(workers, 1))
 	var next atomic.Int64

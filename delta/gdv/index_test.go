@@ -223,3 +223,49 @@ func TestTermsMatchDistance(t *testing.T) {
 		t.Fatalf("Terms of a node never Set reported true")
 	}
 }
+
+// TestNearestToStoredSignature: a query by a stored node gives what a
+// query by its count vector gives, and the terms between two stored nodes
+// are those between one's counts and the other's row; a node never Set
+// reports false.
+func TestNearestToStoredSignature(t *testing.T) {
+	cat, err := catalog.New(delta.Undirected, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := gdv.ForCatalog(cat)
+	r := rand.New(rand.NewPCG(11, 12))
+	vecs := make([][]uint64, 3000)
+	ix := gdv.NewIndex(m)
+	for x := range vecs {
+		if x%10 == 9 {
+			continue // a gap: never Set
+		}
+		vecs[x] = make([]uint64, m.NumOrbits())
+		synthetic(r, vecs[x])
+		ix.Set(uint32(x), vecs[x])
+	}
+	for _, x := range []uint32{0, 1, 17, 2500, 2998} {
+		not := func(y uint32) bool { return y != x }
+		got, ok := ix.NearestTo(x, 25, not)
+		if want := ix.Nearest(vecs[x], 25, not); !ok || !slices.Equal(got, want) {
+			t.Fatalf("NearestTo(%d) = %v, %v; want %v", x, got, ok, want)
+		}
+		for _, y := range []uint32{3, 400, x} {
+			got, ok := ix.TermsBetween(nil, x, y)
+			want, _ := ix.Terms(nil, vecs[x], y)
+			if !ok || !slices.Equal(got, want) {
+				t.Fatalf("TermsBetween(%d, %d) = %v, %v; want %v", x, y, got, ok, want)
+			}
+		}
+	}
+	if _, ok := ix.NearestTo(9, 5, nil); ok {
+		t.Errorf("NearestTo a node never Set reported true")
+	}
+	if _, ok := ix.TermsBetween(nil, 0, 19); ok {
+		t.Errorf("TermsBetween with a node never Set reported true")
+	}
+	if got, ok := ix.NearestTo(0, 0, nil); !ok || got != nil {
+		t.Errorf("NearestTo k=0 = %v, %v", got, ok)
+	}
+}
