@@ -43,8 +43,9 @@ type AlertFilter struct {
 	// SinceSeq keeps alerts of cuts after it (Seq > SinceSeq), the
 	// position a poller saw last.
 	SinceSeq uint64
-	// SinceTime keeps alerts with EventTime ≥ SinceTime.
-	SinceTime time.Time
+	// SinceTime keeps alerts with EventTime ≥ SinceTime, UntilTime (when
+	// not zero) those with EventTime ≤ UntilTime.
+	SinceTime, UntilTime time.Time
 	// Node and Rule keep alerts of that node or rule only.
 	Node, Rule string
 	// Limit caps the answer (0: no cap). Oldest first, unless Newest:
@@ -181,7 +182,7 @@ func (st *Store) Alerts(f AlertFilter) ([]AlertRecord, error) {
 		if err != nil {
 			return nil, err
 		}
-		if (f.Rule != "" && rec.Rule != f.Rule) || rec.EventTime.Before(f.SinceTime) {
+		if (f.Rule != "" && rec.Rule != f.Rule) || rec.EventTime.Before(f.SinceTime) || (!f.UntilTime.IsZero() && rec.EventTime.After(f.UntilTime)) {
 			continue
 		}
 		out = append(out, rec)

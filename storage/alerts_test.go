@@ -70,6 +70,7 @@ func want(all []AlertRecord, complete uint64, f AlertFilter) []AlertRecord {
 	var out []AlertRecord
 	for _, r := range all {
 		if r.Seq <= complete && r.Seq > f.SinceSeq && !r.EventTime.Before(f.SinceTime) &&
+			(f.UntilTime.IsZero() || !r.EventTime.After(f.UntilTime)) &&
 			(f.Node == "" || r.Node == f.Node) && (f.Rule == "" || r.Rule == f.Rule) {
 			out = append(out, r)
 		}
@@ -95,20 +96,22 @@ func checkAlertFilters(t *testing.T, st *Store, all []AlertRecord) {
 	n := 0
 	for _, since := range []uint64{0, 19, 20, 55, 1000} {
 		for _, at := range []time.Time{{}, alertWatermark(35), alertWatermark(90), alertWatermark(5000)} {
-			for _, node := range []string{"", "acct-1", "acct-4", "nobody"} {
-				for _, rule := range []string{"", "ring", "fan-out"} {
-					for _, lim := range []int{0, 1, 3} {
-						for _, newest := range []bool{false, true} {
-							f := AlertFilter{SinceSeq: since, SinceTime: at, Node: node, Rule: rule, Limit: lim, Newest: newest}
-							got, err := st.Alerts(f)
-							if err != nil {
-								t.Fatal(err)
+			for _, until := range []time.Time{{}, alertWatermark(70)} {
+				for _, node := range []string{"", "acct-1", "acct-4", "nobody"} {
+					for _, rule := range []string{"", "ring", "fan-out"} {
+						for _, lim := range []int{0, 1, 3} {
+							for _, newest := range []bool{false, true} {
+								f := AlertFilter{SinceSeq: since, SinceTime: at, UntilTime: until, Node: node, Rule: rule, Limit: lim, Newest: newest}
+								got, err := st.Alerts(f)
+								if err != nil {
+									t.Fatal(err)
+								}
+								w := want(all, complete, f)
+								if !equalAlerts(got, w) {
+									t.Fatalf("Alerts(%+v) at %d:\n got %v\nwant %v", f, complete, got, w)
+								}
+								n += len(w)
 							}
-							w := want(all, complete, f)
-							if !equalAlerts(got, w) {
-								t.Fatalf("Alerts(%+v) at %d:\n got %v\nwant %v", f, complete, got, w)
-							}
-							n += len(w)
 						}
 					}
 				}

@@ -115,7 +115,7 @@ func (st *Store) PutVerdict(v Verdict) (Verdict, error) {
 	if err := checkVerdict(&v); err != nil {
 		return Verdict{}, err
 	}
-	rec, err := st.alertAt(v.AlertSeq, v.AlertID)
+	rec, err := st.Alert(v.AlertSeq, v.AlertID)
 	if err != nil {
 		return Verdict{}, err
 	}
@@ -146,8 +146,9 @@ func (st *Store) PutVerdict(v Verdict) (Verdict, error) {
 	return v, nil
 }
 
-// alertAt reads the alert seq/id as of the last complete checkpoint.
-func (st *Store) alertAt(seq uint64, id string) (AlertRecord, error) {
+// Alert returns the stored alert of the cut seq with this id, as of the
+// last complete checkpoint, or ErrNoAlert.
+func (st *Store) Alert(seq uint64, id string) (AlertRecord, error) {
 	at := st.Seq()
 	if seq == 0 || seq > at || id == "" {
 		return AlertRecord{}, ErrNoAlert
