@@ -21,10 +21,22 @@ func ApplySigned(g *Graph, c Counter, u, v uint32, neg, add bool) (changed bool,
 	if err != nil {
 		return false, err
 	}
+	return SetPair(g, c, u, v, p, n)
+}
+
+// SetPair sets the multiplicities of {u,v} (the arc u→v in a Directed g)
+// to pos and neg (neg is 0 unless g is Signed) and keeps c's records in
+// step, calling c as ApplySigned does: Insert while g lacks the pair when
+// it appears, Delete while g shows it with multiplicity 1 of its old sign
+// when it vanishes, and both for a change of sign. It moves a state to
+// another one cut's net changes apart (a pair may go from any
+// multiplicity to any other at once). An error is c's, an invariant
+// violation: g is left as it was. u != v.
+func SetPair(g *Graph, c Counter, u, v uint32, pos, neg uint32) (changed bool, err error) {
 	p0, n0 := g.Multiplicities(u, v)
-	was, now := p0+n0 > 0, p+n > 0
-	if c == nil || (was == now && (n0 > 0) == (n > 0)) {
-		return g.SetMultiplicities(u, v, p, n), nil
+	was, now := p0+n0 > 0, pos+neg > 0
+	if c == nil || (was == now && (n0 > 0) == (neg > 0)) {
+		return g.SetMultiplicities(u, v, pos, neg), nil
 	}
 	g.Grow(int(max(u, v)) + 1)
 	if was {
@@ -41,11 +53,11 @@ func ApplySigned(g *Graph, c Counter, u, v uint32, neg, add bool) (changed bool,
 		g.SetMultiplicities(u, v, 0, 0)
 	}
 	if now {
-		if err := c.Insert(g, u, v, n > 0); err != nil {
+		if err := c.Insert(g, u, v, neg > 0); err != nil {
 			g.SetMultiplicities(u, v, p0, n0)
 			return false, err
 		}
 	}
-	g.SetMultiplicities(u, v, p, n)
+	g.SetMultiplicities(u, v, pos, neg)
 	return true, nil
 }

@@ -167,7 +167,7 @@ func (a *Applier) before(seq uint64, ev stream.Event) error {
 		return a.fault
 	}
 	if a.cuts.Every > 0 && ev.HasTS && a.seq > a.lastCut && !a.watermark.IsZero() && !ev.TS.Before(nextBoundary(a.watermark, a.cuts.Every)) {
-		if err := a.Cut(); err != nil {
+		if err := a.cut(false); err != nil {
 			return err
 		}
 	}
@@ -179,7 +179,7 @@ func (a *Applier) before(seq uint64, ev stream.Event) error {
 // (a rejection) unless the cut failed.
 func (a *Applier) after(err error) error {
 	if a.cuts.Lines > 0 && a.seq%a.cuts.Lines == 0 {
-		if cerr := a.Cut(); cerr != nil {
+		if cerr := a.cut(false); cerr != nil {
 			return cerr
 		}
 	}
@@ -302,14 +302,20 @@ func (a *Applier) intern(id string) uint32 {
 	return x
 }
 
-// Cut hands OnCut the state change since the last cut as a Checkpoint at
-// the current position (nothing when the position has not moved since).
-// Commands call it at the end of their input.
-func (a *Applier) Cut() error {
+// Cut hands OnCut the state change since the last cut as a flush
+// Checkpoint at the current position (nothing when the position has not
+// moved since): commands call it where their input ends, to make what was
+// applied durable. Alert rules are not evaluated at a flush (see
+// storage.Checkpoint.Flush).
+func (a *Applier) Cut() error { return a.cut(true) }
+
+// cut takes a cut: a flush, or one of the cut rules.
+func (a *Applier) cut(flush bool) error {
 	if a.seq == a.lastCut {
 		return nil
 	}
 	cp := a.checkpoint()
+	cp.Flush = flush
 	a.lastCut = a.seq
 	if a.OnCut == nil {
 		return nil
@@ -456,4 +462,39 @@ func (a *Applier) Stats() Stats {
 		r[k] = n
 	}
 	return Stats{Applied: a.applied, Expired: a.expired, Rejected: r}
+}
+
+// Follow moves the applier to the stored cut cc, the one after the
+// applier's own position: it adds cc's names and sets every pair of
+// cc.Edges to its multiplicities there, keeping the counter's records in
+// step (delta.SetPair). It is how a second applier trails the first by
+// whole cuts (the alert stage's baseline state) and how stored history is
+// walked cut by cut without the log (re-evaluating rules). The window is
+// not followed (the stored multiplicities already include its expiries),
+// so a following applier has none; nor are cuts taken: the counter's
+// changed set is dropped.
+func (a *Applier) Follow(cc *storage.CutChanges) error {
+	if a.window != nil || cc.Seq <= a.seq || a.fault != nil {
+		panic("shard: Follow on an applier with a window, a fault, or at or past the cut")
+	}
+	if a.dict.Len()+len(cc.Names) != cc.Nodes {
+		return fmt.Errorf("cut %d: %d names added to %d do not make its %d nodes", cc.Seq, len(cc.Names), a.dict.Len(), cc.Nodes)
+	}
+	for _, name := range cc.Names {
+		a.intern(name)
+	}
+	a.seq, a.lastCut, a.watermark, a.named = cc.Seq, cc.Seq, cc.Watermark, a.dict.Len()
+	for _, e := range cc.Edges {
+		if int(max(e.U, e.V)) >= cc.Nodes || e.U == e.V || (e.Neg > 0 && !a.signed()) {
+			return fmt.Errorf("cut %d: stored pair %d–%d does not fit the cut's %d nodes and kind", cc.Seq, e.U, e.V, cc.Nodes)
+		}
+		if _, err := delta.SetPair(a.graph, a.counter, e.U, e.V, e.Mult, e.Neg); err != nil {
+			a.fault = fmt.Errorf("cut %d: pair %d–%d: %w", cc.Seq, e.U, e.V, err)
+			return a.fault
+		}
+	}
+	if a.counter != nil {
+		a.counter.Changed(func(uint32) {})
+	}
+	return nil
 }

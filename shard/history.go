@@ -68,9 +68,10 @@ func thin(n, limit int) []int {
 
 // StateAt loads the whole state of st's latest complete cut with Seq ≤ seq
 // into an applier: the graph, the dictionary, and a counter restored from
-// the cut's records (which Restore holds to the stored adjacency). Export,
-// verification and whole-network measures read every node's vector from
-// it.
+// the cut's records (which Restore holds to the stored adjacency), with no
+// window (it is for reading and for following stored cuts, Follow).
+// Export, verification and whole-network measures read every node's
+// vector from it.
 func StateAt(st *storage.Store, c *Counting, seq uint64) (*Applier, storage.CheckpointInfo, error) {
 	state, err := st.LoadAt(seq)
 	if err != nil {
@@ -81,8 +82,7 @@ func StateAt(st *storage.Store, c *Counting, seq uint64) (*Applier, storage.Chec
 		return nil, storage.CheckpointInfo{}, err
 	}
 	defer src.Close()
-	set := st.Settings()
-	a, err := Restore(c, set.Window, Cuts{}, &storage.State{Seq: state.Seq, Watermark: state.Watermark, Dict: state.Dict, Graph: state.Graph}, src)
+	a, err := Restore(c, 0, Cuts{}, &storage.State{Seq: state.Seq, Watermark: state.Watermark, Dict: state.Dict, Graph: state.Graph}, src)
 	var re *delta.RecordError
 	if errors.As(err, &re) && int(re.Node) < state.Dict.Len() {
 		return nil, storage.CheckpointInfo{}, fmt.Errorf("checkpoint %d: the stored record of node %q %w", state.Seq, state.Dict.Name(re.Node), re.Err)

@@ -156,7 +156,7 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 	}
 	w := &Worker{cfg: cfg, js: js, a: a, derive: cfg.Counting.New(), started: time.Now()}
 	if cfg.Alerts != nil {
-		w.alerts = NewAlertStage(cfg.Alerts)
+		w.alerts = NewAlertStage(cfg.Alerts, cfg.Counting)
 		if err := w.alerts.Restore(cfg.Store, state); err != nil {
 			return nil, err
 		}
@@ -345,7 +345,7 @@ func (w *Worker) onCut(cp *storage.Checkpoint) error {
 	cp.Blobs[workerBlob] = rec
 	tc := takenCut{seq: cp.Seq, watermark: cp.Watermark, stats: st, readAt: w.readAt}
 	if w.alerts != nil {
-		if tc.alerts, err = w.alerts.Evaluate(w.a, cp, w.owned, w.com, time.Now()); err != nil {
+		if tc.alerts, err = w.alerts.Evaluate(w.a, cp, w.owned, time.Now()); err != nil {
 			return fmt.Errorf("cut %d: %w", cp.Seq, err)
 		}
 	}

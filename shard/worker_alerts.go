@@ -1,125 +1,169 @@
 package shard
 
 import (
+	"encoding/binary"
+	"errors"
 	"fmt"
-	"sort"
+	"slices"
 	"time"
 
-	"orbitwatch/delta"
 	"orbitwatch/shard/alert"
 	"orbitwatch/storage"
 )
 
-// alertsBlob is the storage blob with the alert evaluator's state.
-const alertsBlob = "alerts"
+// Blobs of the alert stage's state, stored with each cut.
+const (
+	alertsBlob  = "alerts"         // the evaluator's state
+	pendingBlob = "alerts-pending" // nodes touched at flushes since the last rule cut
+)
 
-// AlertStage evaluates the alert rules at each cut for the nodes a shard
-// owns whose records changed (DESIGN.md §10). The worker and backfill run
-// one each, so what a backfill raises is what the worker raises.
+// AlertStage evaluates the alert rules at each cut of the cut rules for
+// the nodes a shard owns whose records were touched since the last such
+// cut (DESIGN.md §10). The worker, backfill and re-evaluation over stored
+// history run one each, so what one raises the others raise.
 //
 // Everything it uses is a function of the log: the cut's event time, the
 // node's vector at the cut (the applier's, derived from its records), and,
-// with a look-back baseline, the node's vector as of the latest cut whose
-// watermark is ≤ EventTime − Lookback, derived from the records the store
-// holds at that cut. Until the log has such a cut (one look-back of event
-// time after its first cut) the rules are primed, not fired: they are
-// evaluated so that they learn which nodes are already above their
-// levels, but their alerts are dropped. It is not safe for concurrent use.
+// with a look-back baseline, the node's vector as of the latest rule cut
+// whose watermark is ≤ EventTime − Lookback. That baseline state is kept
+// in memory by a second applier that trails the live one by whole cuts
+// (Applier.Follow): it costs a second copy of the graph and the records,
+// and each cut's net pair changes applied once more, instead of an as-of
+// read from the store for every scored node. Until the log has such a cut
+// (one look-back of event time after its first rule cut) the rules are
+// primed, not fired: they are evaluated so that they learn which nodes are
+// already above their levels, but their alerts are dropped.
+//
+// A flush (a cut where an input ended, storage.Checkpoint.Flush) is not
+// evaluated and never a baseline: the nodes it touched are kept for the
+// next rule cut, so where a backfill's inputs end changes no alert. It is
+// not safe for concurrent use.
 type AlertStage struct {
-	ev      *alert.Evaluator
-	store   *storage.Store
-	derive  delta.Counter            // reads baselines from the store
-	cuts    []storage.CheckpointInfo // every cut taken, oldest first
+	ev    *alert.Evaluator
+	count *Counting
+
+	// base is the state at the latest rule cut at most a look-back behind
+	// the live one (nil: no such cut yet, or a decayed baseline); queue
+	// are the cuts after it, oldest first.
+	base  *Applier
+	queue []*storage.CutChanges
+	// pending are the nodes touched at flushes since the last rule cut,
+	// sorted.
+	pending []uint32
+
 	changes []alert.NodeChange
 	vecs    []uint64 // backing store of the cut's vectors
 	primed  uint64
 }
 
-// waiter is what the stage needs of a committer: a baseline cut must be
-// durable before it is read.
-type waiter interface{ Wait(seq uint64) error }
-
-// NewAlertStage returns a stage over ev.
-func NewAlertStage(ev *alert.Evaluator) *AlertStage {
-	if ev == nil {
-		panic("shard: NewAlertStage needs an evaluator")
+// NewAlertStage returns a stage over ev for applier states counted by c.
+func NewAlertStage(ev *alert.Evaluator, c *Counting) *AlertStage {
+	if ev == nil || c == nil || c.New == nil {
+		panic("shard: NewAlertStage needs an evaluator and counters")
 	}
-	return &AlertStage{ev: ev}
+	return &AlertStage{ev: ev, count: c}
 }
 
-// Restore loads the evaluator's state and the list of cuts from st, which
-// holds state as its last checkpoint.
+// lookback reports whether baselines are read a look-back back.
+func (s *AlertStage) lookback() bool { return s.ev.Config().Baseline == alert.BaselineLookback }
+
+// Restore loads the stage's state as of state, st's last checkpoint: the
+// evaluator's state and the pending nodes from its blobs, and, with a
+// look-back baseline, the baseline state (StateAt its cut) and the stored
+// changes of the cuts since. The history a look-back back must be retained
+// (KeepFor).
 func (s *AlertStage) Restore(st *storage.Store, state *storage.State) error {
-	s.store = st
-	s.cuts = st.Checkpoints()
 	if b, ok := state.Blobs[alertsBlob]; ok {
 		if err := s.ev.UnmarshalBinary(b); err != nil {
 			return fmt.Errorf("stored alert state: %w", err)
 		}
 	}
+	var err error
+	if s.pending, err = decodeNodes(state.Blobs[pendingBlob]); err != nil {
+		return fmt.Errorf("stored alert state: pending nodes: %w", err)
+	}
+	s.base, s.queue = nil, nil
+	if !s.lookback() || state.Seq == 0 {
+		return nil
+	}
+	var from uint64
+	if c, ok := baseCut(st.Checkpoints(), state.Watermark.Add(-s.ev.Config().Lookback), state.Seq); ok {
+		if s.base, _, err = StateAt(st, s.count, c.Seq); err != nil {
+			return fmt.Errorf("alert baseline state at cut %d: %w", c.Seq, err)
+		}
+		from = c.Seq
+	}
+	changes, err := st.ChangesBetween(from, state.Seq)
+	if err != nil {
+		if errors.Is(err, storage.ErrRetention) {
+			return fmt.Errorf("alert baselines need the history a look-back (%v) before the last cut, which was discarded (raise --keep-history): %w", s.ev.Config().Lookback, err)
+		}
+		return fmt.Errorf("alert baselines: %w", err)
+	}
+	for i := range changes {
+		changes[i].Touched = nil
+		s.queue = append(s.queue, &changes[i])
+	}
 	return nil
+}
+
+// baseCut returns the latest rule cut (not a flush) of cuts with Seq ≤
+// seq whose watermark is ≤ t.
+func baseCut(cuts []storage.CheckpointInfo, t time.Time, seq uint64) (storage.CheckpointInfo, bool) {
+	for i := len(cuts) - 1; i >= 0; i-- {
+		if c := cuts[i]; c.Seq <= seq && !c.Flush && !c.Watermark.After(t) {
+			return c, true
+		}
+	}
+	return storage.CheckpointInfo{}, false
+}
+
+// KeepFor returns the event-time history a store must keep for stage:
+// keep, raised for a look-back baseline to two look-backs and one cut
+// spacing, so that at any restart the latest rule cut a look-back back is
+// still there (a flush can come between it and the retention floor).
+func KeepFor(keep time.Duration, stage *AlertStage, cuts Cuts) time.Duration {
+	if keep <= 0 || stage == nil || !stage.lookback() {
+		return keep
+	}
+	return max(keep, 2*stage.ev.Config().Lookback+cuts.Every)
 }
 
 // Evaluator returns the evaluator in use (for its state and counters).
 func (s *AlertStage) Evaluator() *alert.Evaluator { return s.ev }
 
-// Primed counts the cuts evaluated without raising alerts because the log
-// did not yet reach back a look-back.
+// Primed counts the rule cuts evaluated without raising alerts because
+// the log did not yet reach back a look-back.
 func (s *AlertStage) Primed() uint64 { return s.primed }
 
-// Evaluate scores, at the cut cp of a (a's state is the cut's), the nodes
-// of cp.Records that owned accepts (nil: all), adds their vectors to
-// cp.Scored and the evaluator's state to cp.Blobs, and returns the cut's
-// alerts (nil while primed). Baselines are read once com has made their
-// cut durable.
-func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x uint32) bool, com waiter, wall time.Time) ([]alert.Alert, error) {
-	cfg := s.ev.Config()
-	s.cuts = append(s.cuts, storage.CheckpointInfo{Seq: cp.Seq, Watermark: cp.Watermark})
-	var baseSeq uint64
+// Evaluate takes the cut cp of a (a's state is the cut's): at a rule cut
+// it scores the nodes touched since the last rule cut (cp.Records and the
+// flushes' since) that owned accepts (nil: all), and returns the cut's
+// alerts (nil while primed), also put in cp.Alerts; at a flush it only
+// remembers the touched nodes. Either way it puts its state in cp.Blobs.
+func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x uint32) bool, wall time.Time) ([]alert.Alert, error) {
+	touched := make([]uint32, len(cp.Records))
+	for i, r := range cp.Records {
+		touched[i] = r.Node
+	}
+	if s.lookback() {
+		s.queue = append(s.queue, changesOf(cp, a.dict.Len()))
+	}
+	if cp.Flush {
+		s.pending = mergeNodes(s.pending, touched)
+		return nil, s.save(cp)
+	}
+	nodes := mergeNodes(s.pending, touched)
+	s.pending = nil
 	priming := false
-	if cfg.Baseline == alert.BaselineLookback {
-		at := cp.Watermark.Add(-cfg.Lookback)
-		i := sort.Search(len(s.cuts), func(i int) bool { return s.cuts[i].Watermark.After(at) }) - 1
-		if priming = i < 0; !priming {
-			baseSeq = s.cuts[i].Seq
-			if err := com.Wait(baseSeq); err != nil {
-				return nil, err
-			}
-		}
-	}
-	n := a.count.Catalog.NumOrbits()
-	var src *storage.Source
-	if baseSeq > 0 {
-		var err error
-		if src, err = s.store.SourceAt(baseSeq); err != nil {
+	if s.lookback() {
+		if err := s.advance(cp.Watermark.Add(-s.ev.Config().Lookback)); err != nil {
 			return nil, err
 		}
-		defer src.Close()
-		if s.derive == nil {
-			s.derive = a.count.New()
-		}
+		priming = s.base == nil
 	}
-	s.changes = s.changes[:0]
-	s.vecs = s.vecs[:0]
-	for _, r := range cp.Records {
-		if owned != nil && !owned(r.Node) {
-			continue
-		}
-		var err error
-		from := len(s.vecs)
-		if s.vecs, err = appendVector(a.counter, r.Node, s.vecs, n); err != nil {
-			return nil, err
-		}
-		c := alert.NodeChange{Node: a.dict.Name(r.Node), Degree: a.graph.Degree(r.Node), Now: s.vecs[from : from+n : from+n]}
-		if src != nil && int(r.Node) < src.Checkpoint().Nodes {
-			base, err := s.derive.Derive(src, r.Node, nil)
-			if err != nil {
-				return nil, fmt.Errorf("alert baseline of %q at seq %d: %w", c.Node, baseSeq, err)
-			}
-			c.Baseline = base
-		}
-		s.changes = append(s.changes, c)
-		cp.Scored = append(cp.Scored, storage.RecordChange{Node: r.Node, Data: delta.AppendCounts(nil, c.Now)})
+	if err := s.collect(a, nodes, owned); err != nil {
+		return nil, err
 	}
 	if priming {
 		s.primed++
@@ -128,11 +172,9 @@ func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x u
 	if len(s.changes) > 0 {
 		got = s.ev.Evaluate(alert.Cut{Seq: cp.Seq, EventTime: cp.Watermark, WallTime: wall}, s.changes)
 	}
-	state, err := s.ev.MarshalBinary()
-	if err != nil {
-		return nil, fmt.Errorf("alert state: %w", err)
+	if err := s.save(cp); err != nil {
+		return nil, err
 	}
-	cp.Blobs[alertsBlob] = state
 	if priming || len(got) == 0 {
 		return nil, nil
 	}
@@ -140,14 +182,136 @@ func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x u
 	return got, nil
 }
 
-// appendVector appends x's vector (n counts) to dst.
-func appendVector(c delta.Counter, x uint32, dst []uint64, n int) ([]uint64, error) {
+// changesOf returns what cp changes, for Follow, with nodes the
+// dictionary size at the cut. cp's slices are the cut's own (the applier
+// does not change them after the cut), so they are shared, not copied.
+func changesOf(cp *storage.Checkpoint, nodes int) *storage.CutChanges {
+	return &storage.CutChanges{
+		CheckpointInfo: storage.CheckpointInfo{Seq: cp.Seq, Watermark: cp.Watermark, Nodes: nodes, Flush: cp.Flush},
+		Names:          cp.Names, Edges: cp.Edges,
+	}
+}
+
+// advance moves the baseline state to the latest queued rule cut whose
+// watermark is ≤ t, if there is one.
+func (s *AlertStage) advance(t time.Time) error {
+	j := -1
+	for i, q := range s.queue {
+		if q.Watermark.After(t) {
+			break
+		}
+		if !q.Flush {
+			j = i
+		}
+	}
+	if j < 0 {
+		return nil
+	}
+	if s.base == nil {
+		s.base = NewApplier(s.count, 0, Cuts{})
+	}
+	for _, q := range s.queue[:j+1] {
+		if err := s.base.Follow(q); err != nil {
+			return fmt.Errorf("alert baseline state: %w", err)
+		}
+	}
+	s.queue = append(s.queue[:0:0], s.queue[j+1:]...)
+	return nil
+}
+
+// collect fills s.changes with the owned nodes' vectors now and at the
+// baseline (a node that did not exist at the baseline cut has none).
+func (s *AlertStage) collect(a *Applier, nodes []uint32, owned func(x uint32) bool) error {
+	n := a.count.Catalog.NumOrbits()
+	s.changes = s.changes[:0]
+	s.vecs = s.vecs[:0]
+	for _, x := range nodes {
+		if owned != nil && !owned(x) {
+			continue
+		}
+		c := alert.NodeChange{Node: a.dict.Name(x), Degree: a.graph.Degree(x)}
+		var err error
+		if s.vecs, err = appendVector(a, x, s.vecs, n); err != nil {
+			return err
+		}
+		if s.base != nil && int(x) < s.base.dict.Len() {
+			if s.vecs, err = appendVector(s.base, x, s.vecs, n); err != nil {
+				return fmt.Errorf("alert baseline of %q at cut %d: %w", c.Node, s.base.Seq(), err)
+			}
+			c.Baseline = []uint64{} // placed below, once s.vecs stops moving
+		}
+		s.changes = append(s.changes, c)
+	}
+	off := 0
+	for i := range s.changes {
+		c := &s.changes[i]
+		c.Now = s.vecs[off : off+n : off+n]
+		off += n
+		if c.Baseline != nil {
+			c.Baseline = s.vecs[off : off+n : off+n]
+			off += n
+		}
+	}
+	return nil
+}
+
+// save puts the stage's state in cp.Blobs.
+func (s *AlertStage) save(cp *storage.Checkpoint) error {
+	state, err := s.ev.MarshalBinary()
+	if err != nil {
+		return fmt.Errorf("alert state: %w", err)
+	}
+	cp.Blobs[alertsBlob] = state
+	cp.Blobs[pendingBlob] = encodeNodes(s.pending)
+	return nil
+}
+
+// appendVector appends x's vector in a (n counts) to dst.
+func appendVector(a *Applier, x uint32, dst []uint64, n int) ([]uint64, error) {
 	from := len(dst)
 	dst = append(dst, make([]uint64, n)...)
-	v, err := c.Vector(x, dst[from:from:from+n])
+	v, err := a.counter.Vector(x, dst[from:from:from+n])
 	if err != nil {
 		return nil, err
 	}
 	copy(dst[from:], v)
 	return dst, nil
+}
+
+// mergeNodes returns the sorted union of the sorted lists a and b.
+func mergeNodes(a, b []uint32) []uint32 {
+	out := make([]uint32, 0, len(a)+len(b))
+	out = append(append(out, a...), b...)
+	slices.Sort(out)
+	return slices.Compact(out)
+}
+
+// encodeNodes lays sorted node ids out as uvarint gaps (nil for none,
+// which deletes the blob).
+func encodeNodes(xs []uint32) []byte {
+	if len(xs) == 0 {
+		return nil
+	}
+	var b []byte
+	prev := uint32(0)
+	for _, x := range xs {
+		b = binary.AppendUvarint(b, uint64(x-prev))
+		prev = x
+	}
+	return b
+}
+
+func decodeNodes(b []byte) ([]uint32, error) {
+	var out []uint32
+	prev := uint64(0)
+	for len(b) > 0 {
+		d, k := binary.Uvarint(b)
+		if k <= 0 || prev+d > 1<<32-1 || (len(out) > 0 && d == 0) {
+			return nil, errors.New("not increasing uvarint gaps")
+		}
+		prev += d
+		out = append(out, uint32(prev))
+		b = b[k:]
+	}
+	return out, nil
 }

@@ -35,10 +35,12 @@ type Checkpoint struct {
 	// Alerts are the alerts raised at this cut (see AlertRecord), stored
 	// in the same write as the cut.
 	Alerts []AlertRecord
-	// Scored are the orbit vectors of the nodes scored for alerts at this
-	// cut (delta.AppendCounts), kept so that rules can be evaluated again
-	// over the history without recounting, and read as baselines.
-	Scored []RecordChange
+	// Flush marks a checkpoint taken where the input ended (or a command
+	// stopped), not where the cut rules put one: it makes the state
+	// durable, but alert rules are evaluated, and baselines read, only at
+	// the rules' cuts, so that where an input happened to end changes no
+	// alert.
+	Flush bool
 	// Blobs are opaque applier records (input progress). A blob keeps its
 	// last written value until rewritten; a nil value deletes it.
 	Blobs map[string][]byte
@@ -119,7 +121,7 @@ func (st *Store) Commit(cps ...*Checkpoint) error {
 			return fmt.Errorf("storage: commit %d: %w", cp.Seq, err)
 		}
 		complete, lastWM = cp.Seq, cp.Watermark
-		infos[i] = CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(mustBits(cp.Watermark)), Nodes: dictLen}
+		infos[i] = CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(mustBits(cp.Watermark)), Nodes: dictLen, Flush: cp.Flush}
 	}
 	if err := st.writeRecords(cps, infos); err != nil {
 		st.fail(err)
@@ -173,7 +175,7 @@ func (st *Store) checkShapes(cp *Checkpoint, n int) {
 			panic("storage: a negative multiplicity in a store that is not signed")
 		}
 	}
-	for _, r := range append(cp.Records[:len(cp.Records):len(cp.Records)], cp.Scored...) {
+	for _, r := range cp.Records {
 		if int(r.Node) >= n {
 			panic("storage: checkpoint record of a node missing from the dictionary")
 		}
@@ -326,12 +328,6 @@ func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info 
 	if err := putAlerts(w, cp.Alerts); err != nil {
 		return 0, err
 	}
-	for _, r := range cp.Scored {
-		key = binary.BigEndian.AppendUint32(append(key[:0], pScored), r.Node)
-		if err := w.put(key, r.Data, false); err != nil {
-			return 0, err
-		}
-	}
 	for _, k := range cp.Keyed {
 		key = append(append(key[:0], pKeyed), k.Key...)
 		if err := w.put(key, k.Value, k.Value == nil); err != nil {
@@ -348,7 +344,11 @@ func (st *Store) writeCheckpoint(w *batchWriter, cp *Checkpoint, next int, info 
 	var wmb [8]byte
 	binary.BigEndian.PutUint64(wmb[:], wm)
 	idx := append(append([]byte{pWatermark}, wmb[:]...), keySeq(0, cp.Seq)[1:]...)
-	if err := w.put(keySeq(pCheckpoint, cp.Seq), binary.AppendUvarint(wmb[:], uint64(info.Nodes)), false); err != nil {
+	rec := binary.AppendUvarint(wmb[:], uint64(info.Nodes))
+	if cp.Flush {
+		rec = append(rec, checkpointFlush)
+	}
+	if err := w.put(keySeq(pCheckpoint, cp.Seq), rec, false); err != nil {
 		return 0, err
 	}
 	return next, w.put(idx, []byte{}, false)

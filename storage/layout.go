@@ -24,7 +24,6 @@ import (
 //	'r' id(4)              the node's record, as the counter wrote it
 //	'b' name               applier blob
 //	'k' key                keyed applier record
-//	'g' id(4)              the node's orbit vector as last scored for alerts
 //	'a', 'o'               alert records and their node index (alerts.go)
 //
 // Adjacency is stored per edge, not per node bitmap: a changed edge costs
@@ -47,7 +46,6 @@ const (
 	pRecord     = 'r'
 	pBlob       = 'b'
 	pKeyed      = 'k'
-	pScored     = 'g'
 )
 
 // checkpointPrefixes are the prefixes written at a checkpoint's version
@@ -56,7 +54,7 @@ const (
 // the Commit of its cut. A crash can leave them above the last complete
 // checkpoint, so repair covers them. The meta record alone is written in
 // a final single transaction and is never torn.
-var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pKeyed, pScored, pAlert, pAlertNode, pCheckpoint, pWatermark}
+var checkpointPrefixes = []byte{pDictID, pDictName, pEdge, pInArc, pRecord, pBlob, pKeyed, pAlert, pAlertNode, pCheckpoint, pWatermark}
 
 func keyID(p byte, x uint32) []byte {
 	k := make([]byte, 5)
@@ -121,15 +119,19 @@ func getUvarint(b []byte, what string) (uint64, error) {
 
 func beUint64(b []byte) uint64 { return binary.BigEndian.Uint64(b) }
 
+// checkpointFlush is the flag byte of a flush checkpoint's record.
+const checkpointFlush = 1
+
 // decodeCheckpointRecord reads a 'c' record: watermark(8), uvarint
-// dictionary size.
+// dictionary size, and for a flush checkpoint (Checkpoint.Flush) one
+// byte checkpointFlush.
 func decodeCheckpointRecord(seq uint64, b []byte) (CheckpointInfo, error) {
 	if len(b) < 9 {
 		return CheckpointInfo{}, fmt.Errorf("corrupt record of checkpoint %d: %d bytes", seq, len(b))
 	}
-	n, err := getUvarint(b[8:], "checkpoint")
-	if err != nil {
-		return CheckpointInfo{}, fmt.Errorf("checkpoint %d: %w", seq, err)
+	n, k := binary.Uvarint(b[8:])
+	if k <= 0 || len(b) > 8+k+1 || len(b) == 8+k+1 && b[8+k] != checkpointFlush {
+		return CheckpointInfo{}, fmt.Errorf("corrupt record of checkpoint %d: %x", seq, b)
 	}
-	return CheckpointInfo{Seq: seq, Watermark: watermarkTime(beUint64(b)), Nodes: int(n)}, nil
+	return CheckpointInfo{Seq: seq, Watermark: watermarkTime(beUint64(b)), Nodes: int(n), Flush: len(b) == 8+k+1}, nil
 }

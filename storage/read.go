@@ -10,8 +10,6 @@ import (
 	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
-
-	"orbitwatch/delta"
 )
 
 // Reasons an as-of read finds nothing.
@@ -142,23 +140,4 @@ func (st *Store) NodeAt(name string, seq uint64) (uint32, CheckpointInfo, error)
 	defer txn.Discard()
 	x, err := nodeNumber(txn, name, cut)
 	return x, cut, err
-}
-
-// ScoredAt returns node x's orbit vector as last scored at or before the
-// complete checkpoint at seq (exactly seq: a version that is a checkpoint),
-// into dst; ok is false when it was never scored by then.
-func (st *Store) ScoredAt(x uint32, seq uint64, dst []uint64) (ok bool, err error) {
-	txn := st.db.NewTransactionAt(seq, false)
-	defer txn.Discard()
-	item, err := txn.Get(keyID(pScored, x))
-	if errors.Is(err, badger.ErrKeyNotFound) {
-		return false, nil
-	}
-	if err == nil {
-		err = item.Value(func(b []byte) error { return delta.DecodeCounts(b, dst) })
-	}
-	if err != nil {
-		return false, fmt.Errorf("storage: scored vector of node %d at %d: %w", x, seq, err)
-	}
-	return true, nil
 }

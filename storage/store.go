@@ -52,6 +52,8 @@ type CheckpointInfo struct {
 	// Nodes is the dictionary size at the checkpoint: nodes 0..Nodes-1
 	// existed then.
 	Nodes int
+	// Flush is Checkpoint.Flush: not a cut of the rules.
+	Flush bool
 }
 
 // Open opens the store in dir for reading and writing, creating it (and

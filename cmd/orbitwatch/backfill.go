@@ -74,7 +74,7 @@ func runBackfill(args []string) int {
 		if err != nil {
 			return fail("backfill", err)
 		}
-		stage = shard.NewAlertStage(ev)
+		stage = shard.NewAlertStage(ev, c)
 	}
 	// Every input is checked before anything is applied, so a file that is
 	// not an edge log changes no state.
@@ -107,7 +107,7 @@ func runBackfill(args []string) int {
 	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer cancel()
 	com := shard.NewCommitter(st, 64)
-	com.KeepHistory = keepFor(keep, stage)
+	com.KeepHistory = shard.KeepFor(keep, stage, cuts.cuts())
 	b := &backfill{st: st, com: com, applier: a, stage: stage, records: records}
 	a.OnCut = b.cut
 	rep := progress.New(os.Stderr, total, "backfill")
@@ -172,15 +172,6 @@ type backfill struct {
 	cuts, recordsWritten, alerts uint64 // written by this run
 }
 
-// keepFor is the history to keep for --keep-history keep (0: all): never
-// less than the alert rules' look-back, whose baselines are read from it.
-func keepFor(keep time.Duration, stage *shard.AlertStage) time.Duration {
-	if keep > 0 && stage != nil {
-		keep = max(keep, stage.Evaluator().Config().Lookback)
-	}
-	return keep
-}
-
 // cut takes one cut: the alert stage scores it, the input records go with
 // it, and the committer writes it.
 func (b *backfill) cut(cp *storage.Checkpoint) error {
@@ -190,7 +181,7 @@ func (b *backfill) cut(cp *storage.Checkpoint) error {
 	}
 	cp.Blobs[inputsBlob] = blob
 	if b.stage != nil {
-		got, err := b.stage.Evaluate(b.applier, cp, nil, b.com, time.Now())
+		got, err := b.stage.Evaluate(b.applier, cp, nil, time.Now())
 		if err != nil {
 			return fmt.Errorf("cut at seq %d: %w", cp.Seq, err)
 		}

@@ -154,7 +154,7 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 	com := shard.NewCommitter(st, 4)
 	ap := shard.NewApplier(counting, window, shard.Cuts{Lines: cutEvery})
 	ev := alert.New(cfg, cat)
-	stage := shard.NewAlertStage(ev)
+	stage := shard.NewAlertStage(ev, counting)
 	if err := stage.Restore(st, &storage.State{}); err != nil {
 		t.Fatal(err)
 	}
@@ -162,22 +162,19 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 	cuts := 0
 	var snaps []snapshot
 	ap.OnCut = func(cp *storage.Checkpoint) error {
-		got, err := stage.Evaluate(ap, cp, nil, com, time.Time{})
+		got, err := stage.Evaluate(ap, cp, nil, time.Time{})
 		if err != nil {
 			return err
 		}
-		now := map[string][]uint64{}
-		for _, r := range cp.Scored {
-			vec := make([]uint64, cat.NumOrbits())
-			if err := delta.DecodeCounts(r.Data, vec); err != nil {
+		for _, a := range got {
+			x, _ := ap.Lookup(a.Node)
+			now, err := ap.Vector(x, nil)
+			if err != nil {
 				return err
 			}
-			now[ap.Names()[r.Node]] = vec
-		}
-		for _, a := range got {
 			out.alerts = append(out.alerts, a)
 			out.near = append(out.near, withinTwoHops(ap, a.Node, planted))
-			out.now = append(out.now, now[a.Node])
+			out.now = append(out.now, now)
 			var base []uint64
 			if cfg.Baseline == alert.BaselineLookback {
 				x, _ := ap.Lookup(a.Node)
@@ -199,22 +196,21 @@ func replay(t *testing.T, cfg alert.Config, pays []payment, planted []string, re
 		}
 		cuts++
 		if cuts == restartAt {
-			b, err := stage.Evaluator().MarshalBinary()
-			if err != nil {
-				return err
-			}
-			ev = alert.New(cfg, cat)
-			if err := ev.UnmarshalBinary(b); err != nil {
-				return err
-			}
+			// A fresh stage restored from the store: the evaluator's state
+			// from its blob, the baseline state from the stored cuts.
 			if err := com.Put(cp); err != nil {
 				return err
 			}
 			if err := com.Wait(cp.Seq); err != nil {
 				return err
 			}
-			stage = shard.NewAlertStage(ev)
-			return stage.Restore(st, &storage.State{})
+			state, err := st.Load()
+			if err != nil {
+				return err
+			}
+			ev = alert.New(cfg, cat)
+			stage = shard.NewAlertStage(ev, counting)
+			return stage.Restore(st, state)
 		}
 		return com.Put(cp)
 	}

@@ -103,7 +103,7 @@ func Run(sc *demo.Scenario, counting *shard.Counting, ac alert.Config, dir strin
 	}
 	defer st.Close()
 	ap := shard.NewApplier(counting, 0, shard.Cuts{Every: every})
-	stage := shard.NewAlertStage(alert.New(ac, cat))
+	stage := shard.NewAlertStage(alert.New(ac, cat), counting)
 	if err := stage.Restore(st, &storage.State{}); err != nil {
 		return Result{}, err
 	}
@@ -111,7 +111,7 @@ func Run(sc *demo.Scenario, counting *shard.Counting, ac alert.Config, dir strin
 	var res Result
 	ap.OnCut = func(cp *storage.Checkpoint) error {
 		primed := stage.Primed()
-		got, err := stage.Evaluate(ap, cp, nil, com, time.Time{})
+		got, err := stage.Evaluate(ap, cp, nil, time.Time{})
 		if err != nil {
 			return err
 		}
