@@ -53,18 +53,10 @@ func (w *Worker) readNow(node string) ReadReply {
 func ReadStored(st *storage.Store, c delta.Counter, counting *Counting, req ReadRequest) ReadReply {
 	cat := counting.Catalog
 	rep := ReadReply{Node: req.Node, Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes}
-	seq := req.Seq
-	if !req.At.IsZero() {
-		s, ok := st.SeqAtTime(req.At)
-		switch {
-		case !ok && s > 0:
-			rep.Status, rep.Error = http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", req.At.Format(time.RFC3339Nano), s, st.Floor())
-			return rep
-		case !ok:
-			rep.Status, rep.Error = http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", req.At.Format(time.RFC3339Nano))
-			return rep
-		}
-		seq = s
+	seq, status, msg := cutOf(st, req.At, req.Seq)
+	if status != 0 {
+		rep.Status, rep.Error = status, msg
+		return rep
 	}
 	vec, cut, err := DeriveStored(st, c, req.Node, seq)
 	switch {
@@ -80,6 +72,23 @@ func ReadStored(st *storage.Store, c delta.Counter, counting *Counting, req Read
 		rep.Status, rep.Error = http.StatusInternalServerError, err.Error()
 	}
 	return rep
+}
+
+// cutOf returns the seq an as-of read of st reads at: seq itself when at
+// is zero, else the latest cut whose event-time watermark is ≤ at; or a
+// status (404, 410) and why there is none.
+func cutOf(st *storage.Store, at time.Time, seq uint64) (uint64, int, string) {
+	if at.IsZero() {
+		return seq, 0, ""
+	}
+	s, ok := st.SeqAtTime(at)
+	switch {
+	case !ok && s > 0:
+		return 0, http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", at.Format(time.RFC3339Nano), s, st.Floor())
+	case !ok:
+		return 0, http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", at.Format(time.RFC3339Nano))
+	}
+	return s, 0, ""
 }
 
 // DeriveStored returns node's orbit vector as of the latest complete cut

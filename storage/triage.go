@@ -69,6 +69,9 @@ type Verdict struct {
 	At   time.Time `json:"at"`
 }
 
+// ErrBadVerdict is wrapped by PutVerdict's refusals of bad input.
+var ErrBadVerdict = errors.New("bad verdict")
+
 // ErrNoAlert is the answer for a verdict on an alert the store does not
 // hold.
 var ErrNoAlert = errors.New("no such alert in this store")
@@ -89,13 +92,13 @@ func verdictPrefix(alertID string) []byte {
 func checkVerdict(v *Verdict) error {
 	switch {
 	case !slices.Contains(VerdictNames, v.Verdict):
-		return fmt.Errorf("verdict %q: want one of %v", v.Verdict, VerdictNames)
+		return fmt.Errorf("%w: %q: want one of %v", ErrBadVerdict, v.Verdict, VerdictNames)
 	case len(v.Note) > MaxNoteBytes:
-		return fmt.Errorf("note of %d bytes: at most %d", len(v.Note), MaxNoteBytes)
+		return fmt.Errorf("%w: note of %d bytes: at most %d", ErrBadVerdict, len(v.Note), MaxNoteBytes)
 	case !utf8.ValidString(v.Note):
-		return errors.New("note: not valid UTF-8")
+		return fmt.Errorf("%w: note not valid UTF-8", ErrBadVerdict)
 	case v.At.IsZero():
-		return errors.New("verdict without a time")
+		return fmt.Errorf("%w: no time given", ErrBadVerdict)
 	}
 	return nil
 }
@@ -104,7 +107,7 @@ func checkVerdict(v *Verdict) error {
 // node, rule and event time it copies into v. It returns ErrNoAlert for an
 // alert the store does not hold at its last complete checkpoint, and an
 // error naming the field for a verdict outside VerdictNames, an over-long
-// or non-UTF-8 note or a zero At. The verdict is synced to disk before
+// or non-UTF-8 note or a zero At (wrapping ErrBadVerdict). The verdict is synced to disk before
 // PutVerdict returns. A verdict given at the same At as (or earlier than)
 // the alert's latest one is stamped just after it: the latest given is the
 // one in force.

@@ -78,12 +78,12 @@ func TestVerdicts(t *testing.T) {
 		v    Verdict
 		want string
 	}{
-		{Verdict{AlertID: first.ID, AlertSeq: first.Seq, Verdict: "fraud", At: when}, "verdict \"fraud\""},
+		{Verdict{AlertID: first.ID, AlertSeq: first.Seq, Verdict: "fraud", At: when}, `"fraud"`},
 		{Verdict{AlertID: first.ID, AlertSeq: first.Seq, Verdict: VerdictDismissed, Note: strings.Repeat("x", MaxNoteBytes+1), At: when}, "note of"},
 		{Verdict{AlertID: first.ID, AlertSeq: first.Seq, Verdict: VerdictDismissed, Note: "\xff", At: when}, "UTF-8"},
 		{Verdict{AlertID: first.ID, AlertSeq: first.Seq, Verdict: VerdictDismissed}, "time"},
 	} {
-		if _, err := st.PutVerdict(c.v); err == nil || !strings.Contains(err.Error(), c.want) {
+		if _, err := st.PutVerdict(c.v); !errors.Is(err, ErrBadVerdict) || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("PutVerdict(%+v): %v, want an error about %s", c.v, err, c.want)
 		}
 	}

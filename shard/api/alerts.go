@@ -19,7 +19,7 @@ type alertsJSON struct {
 
 func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 	q := r.URL.Query()
-	if !queryKeys(w, q, "since", "node", "rule", "limit") {
+	if !queryKeys(w, q, "since", "until", "node", "rule", "verdict", "limit") {
 		return
 	}
 	limit, ok := queryLimit(w, q, 100, 1000)
@@ -40,6 +40,19 @@ func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
+	if q.Has("until") {
+		t, err := stream.ParseTime(q.Get("until"))
+		if err != nil {
+			writeError(w, http.StatusBadRequest, timeError("until", q.Get("until"), err))
+			return
+		}
+		f.UntilTime = t
+	}
+	verdict := q.Get("verdict")
+	if q.Has("verdict") && verdict != verdictNone && !slices.Contains(storage.VerdictNames, verdict) {
+		writeError(w, http.StatusBadRequest, fmt.Sprintf("verdict %s: want one of %s", quoted(verdict), verdictChoices()))
+		return
+	}
 	if q.Has("rule") {
 		known, err := a.knownRule(f.Rule)
 		if err != nil {
@@ -51,7 +64,21 @@ func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
-	recs, err := a.v.Store().Alerts(f)
+	st := a.v.Store()
+	vs, err := st.Verdicts()
+	if err != nil {
+		a.internal(w, "verdicts", err)
+		return
+	}
+	var recs []storage.AlertRecord
+	switch {
+	case verdict == verdictNone:
+		recs, err = a.untriaged(f, vs)
+	case verdict != "":
+		recs, err = a.triaged(f, verdict, vs)
+	default:
+		recs, err = st.Alerts(f)
+	}
 	if err != nil {
 		a.internal(w, "alerts", err)
 		return
@@ -59,7 +86,11 @@ func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 	self, _ := a.v.Shard()
 	out := alertsJSON{Shard: self, Alerts: make([]json.RawMessage, len(recs))}
 	for i, rec := range recs {
-		out.Alerts[i] = rec.Body
+		var t *triageJSON
+		if v, ok := vs[rec.ID]; ok {
+			t = triageOf(v)
+		}
+		out.Alerts[i] = withTriage(rec.Body, t)
 	}
 	writeJSON(w, http.StatusOK, out)
 }

@@ -69,12 +69,23 @@ const ShardHeader = "Orbitwatch-Shard"
 //	                     keeping the first and last
 //	GET /v1/nodes/{id}/neighbors  up to ?limit=N (default 24, at most
 //	                     shard.MaxNeighbors) of its neighbours, busiest
-//	                     first, and the edges among them, from the worker's
-//	                     graph (v must be a shard.NeighborReader)
-//	GET /v1/alerts       this shard's stored alerts, newest first:
+//	                     first, with ?far=K up to K of each one's other
+//	                     neighbours (the second hop), every tie among them
+//	                     with its direction or sign, and per node the ties
+//	                     not drawn (shard.Neighbors); now from the worker's
+//	                     graph (v must be a shard.NeighborReader), ?at= or
+//	                     ?seq= as of a cut from the store
+//	GET /v1/alerts       this shard's stored alerts, newest first, each
+//	                     with "triage", its verdict in force or null:
 //	                     ?since=SEQ (cuts after it) or ?since=TIME (event
-//	                     time ≥ it), ?node=ID, ?rule=NAME, ?limit=N
-//	                     (default 100, at most 1000)
+//	                     time ≥ it), ?until=TIME (event time ≤ it),
+//	                     ?node=ID, ?rule=NAME, ?verdict=V (confirmed,
+//	                     dismissed, needs-more, or none for alerts not yet
+//	                     triaged), ?limit=N (default 100, at most 1000)
+//	GET /v1/alerts/{id}  one alert with "triage" and "triage_history"
+//	POST /v1/alerts/{id}/triage   {"verdict": V, "note": "…"} records an
+//	                     admin's verdict on the alert (the latest is in
+//	                     force, earlier ones are kept)
 //	GET /v1/catalog      the orbits counted, with their plain names
 //	GET /v1/status       the version, and the progress of this worker and
 //	                     of its reachable peers (?local=true: this one only)
@@ -114,6 +125,8 @@ func New(v shard.View, opts Options) http.Handler {
 	mux.HandleFunc("/v1/nodes/{id}/history", a.get(a.history))
 	mux.HandleFunc("/v1/nodes/{id}/neighbors", a.get(a.neighbors))
 	mux.HandleFunc("/v1/alerts", a.get(a.alerts))
+	mux.HandleFunc("/v1/alerts/{id}", a.get(a.oneAlert))
+	mux.HandleFunc("/v1/alerts/{id}/triage", a.triage)
 	mux.HandleFunc("/v1/catalog", a.get(a.catalog))
 	mux.HandleFunc("/v1/status", a.get(a.status))
 	web := WebHandler()

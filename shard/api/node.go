@@ -72,26 +72,9 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 	if !ok {
 		return
 	}
-	if q.Has("at") && q.Has("seq") {
-		writeError(w, http.StatusBadRequest, "give at or seq, not both")
-		return
-	}
 	req := shard.ReadRequest{Node: id}
-	if q.Has("seq") {
-		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
-		if err != nil || seq == 0 {
-			writeError(w, http.StatusBadRequest, fmt.Sprintf("seq %s: want a log sequence number ≥ 1", quoted(q.Get("seq"))))
-			return
-		}
-		req.Seq = seq
-	}
-	if q.Has("at") {
-		at, err := stream.ParseTime(q.Get("at"))
-		if err != nil {
-			writeError(w, http.StatusBadRequest, timeError("at", q.Get("at"), err))
-			return
-		}
-		req.At = at
+	if !asOf(w, q, &req) {
+		return
 	}
 	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
 	defer cancel()
@@ -113,6 +96,32 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	writeJSON(w, http.StatusOK, NodeVector{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, EventTime: optTime(rep.EventTime), Orbits: rep.Orbits})
+}
+
+// asOf reads ?at=TIME or ?seq=N (not both) into req, answering 400 for
+// a bad value.
+func asOf(w http.ResponseWriter, q url.Values, req *shard.ReadRequest) bool {
+	if q.Has("at") && q.Has("seq") {
+		writeError(w, http.StatusBadRequest, "give at or seq, not both")
+		return false
+	}
+	if q.Has("seq") {
+		seq, err := strconv.ParseUint(q.Get("seq"), 10, 64)
+		if err != nil || seq == 0 {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("seq %s: want a log sequence number ≥ 1", quoted(q.Get("seq"))))
+			return false
+		}
+		req.Seq = seq
+	}
+	if q.Has("at") {
+		at, err := stream.ParseTime(q.Get("at"))
+		if err != nil {
+			writeError(w, http.StatusBadRequest, timeError("at", q.Get("at"), err))
+			return false
+		}
+		req.At = at
+	}
+	return true
 }
 
 // versionJSON is one entry of a node's history.
@@ -184,28 +193,52 @@ func (a *api) history(w http.ResponseWriter, r *http.Request) {
 }
 
 func (a *api) neighbors(w http.ResponseWriter, r *http.Request) {
-	id, q, ok := nodeRequest(w, r, "limit")
+	id, q, ok := nodeRequest(w, r, "limit", "far", "at", "seq")
 	if !ok {
 		return
 	}
-	limit, ok := queryLimit(w, q, 24, shard.MaxNeighbors)
-	if !ok {
+	nq := shard.NeighborQuery{Node: id}
+	if nq.Limit, ok = queryLimit(w, q, 24, shard.MaxNeighbors); !ok {
 		return
 	}
-	nr, ok := a.v.(shard.NeighborReader)
-	if !ok {
-		writeError(w, http.StatusNotImplemented, "this worker does not read its adjacency")
+	if q.Has("far") {
+		n, err := strconv.Atoi(q.Get("far"))
+		if err != nil || n < 0 || n > shard.MaxFar {
+			writeError(w, http.StatusBadRequest, fmt.Sprintf("far %s: want a whole number 0..%d (second-hop nodes per neighbour)", quoted(q.Get("far")), shard.MaxFar))
+			return
+		}
+		nq.Far = n
+	}
+	var rr shard.ReadRequest
+	if !asOf(w, q, &rr) {
 		return
 	}
+	nq.At, nq.Seq = rr.At, rr.Seq
 	ctx, cancel := context.WithTimeout(r.Context(), a.opts.Timeout)
 	defer cancel()
-	nb, err := nr.Neighbors(ctx, id, limit)
-	if err != nil {
-		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("the neighbours of %s were not read in time; try again", quoted(id)))
+	var nb shard.Neighbors
+	if nq.At.IsZero() && nq.Seq == 0 {
+		nr, ok := a.v.(shard.NeighborReader)
+		if !ok {
+			writeError(w, http.StatusNotImplemented, "this worker does not read its adjacency now; ask as of a cut (at= or seq=)")
+			return
+		}
+		var err error
+		if nb, err = nr.Neighborhood(ctx, nq); err != nil {
+			writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("the neighbours of %s were not read in time; try again", quoted(id)))
+			return
+		}
+	} else if nb = shard.NeighborhoodStored(ctx, a.v.Store(), nq); ctx.Err() != nil {
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("the neighbours of %s as of that cut were not read in time; try again", quoted(id)))
 		return
 	}
-	if !nb.Found {
-		writeError(w, http.StatusNotFound, strings.ReplaceAll(nb.Error, strconv.Quote(id), quoted(id)))
+	switch {
+	case nb.Found:
+	case nb.Status == http.StatusNotFound || nb.Status == http.StatusGone:
+		writeError(w, nb.Status, strings.ReplaceAll(nb.Error, strconv.Quote(id), quoted(id)))
+		return
+	default:
+		a.internal(w, "the neighbours of "+quoted(id), errors.New(nb.Error))
 		return
 	}
 	writeJSON(w, http.StatusOK, nb)

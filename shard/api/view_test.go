@@ -24,8 +24,8 @@ import (
 // applierView is a shard.View over a real Applier whose cuts a real Badger
 // store holds, as a worker's are: reads now come from the applier at its
 // last applied event, as-of reads from the store through shard.ReadStored.
-// Its status is whatever the test sets. It reads no adjacency (it is not a
-// shard.NeighborReader); the worker test covers that.
+// Its status is whatever the test sets. Neighbourhoods now come from the
+// applier's graph as a worker's do.
 type applierView struct {
 	a      *shard.Applier
 	st     *storage.Store
@@ -85,6 +85,12 @@ func (v *applierView) Read(ctx context.Context, req shard.ReadRequest) (shard.Re
 	}
 	r.Seq, r.EventTime, r.Orbits = v.a.Seq(), v.a.Watermark(), vec
 	return r, nil
+}
+
+func (v *applierView) Neighborhood(ctx context.Context, q shard.NeighborQuery) (shard.Neighbors, error) {
+	v.mu.Lock()
+	defer v.mu.Unlock()
+	return shard.NeighborhoodNow(ctx, v.a, q), ctx.Err()
 }
 
 // snapshot is the state at one cut (or at the end), its vectors from the

@@ -18,6 +18,39 @@ import (
 	"orbitwatch/stream"
 )
 
+// publishLog starts an embedded NATS server (its store under dir) that
+// admits the holder of its nkey only, creates the stream name on subject
+// and publishes events there as pay-1, pay-2, …; it returns a connection
+// that the test's end closes, with the server.
+func publishLog(t *testing.T, ctx context.Context, dir, name, subject string, events []stream.Event) *nats.Conn {
+	t.Helper()
+	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(dir, "nats"), NKeyFile: filepath.Join(dir, "nats-user.nk")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(srv.Shutdown)
+	nc, err := nats.Connect(srv.URL(), srv.ClientOptions()...)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(nc.Close)
+	js, _ := jetstream.New(nc)
+	if _, err := stream.EnsureStream(ctx, js, name, subject, 1); err != nil {
+		t.Fatal(err)
+	}
+	pub := stream.NewPublisher(js, subject, stream.PublisherOptions{Stream: name})
+	for i, e := range events {
+		e.ID, e.Line = fmt.Sprintf("pay-%d", i+1), i+1
+		if err := pub.Publish(ctx, e); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := pub.Flush(ctx); err != nil {
+		t.Fatal(err)
+	}
+	return nc
+}
+
 // TestAPIOverWorker serves the API of a real worker that follows a real
 // JetStream log (an embedded server that admits the holder of its nkey
 // only) into a real Badger store, behind a tokens file, over real HTTP:
@@ -29,32 +62,9 @@ func TestAPIOverWorker(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
 	defer cancel()
 	dir := t.TempDir()
-	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(dir, "nats"), NKeyFile: filepath.Join(dir, "nats-user.nk")})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer srv.Shutdown()
-	nc, err := nats.Connect(srv.URL(), srv.ClientOptions()...)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer nc.Close()
-	js, _ := jetstream.New(nc)
 	const name, subject = "APILOG", "apilog.events"
-	if _, err := stream.EnsureStream(ctx, js, name, subject, 1); err != nil {
-		t.Fatal(err)
-	}
 	events := paymentsLog(5, 800)
-	pub := stream.NewPublisher(js, subject, stream.PublisherOptions{Stream: name})
-	for i, e := range events {
-		e.ID, e.Line = fmt.Sprintf("pay-%d", i+1), i+1
-		if err := pub.Publish(ctx, e); err != nil {
-			t.Fatal(err)
-		}
-	}
-	if err := pub.Flush(ctx); err != nil {
-		t.Fatal(err)
-	}
+	nc := publishLog(t, ctx, dir, name, subject, events)
 
 	// The reference: one applier, the same cuts (a function of the log).
 	cuts := shard.Cuts{Every: 2 * time.Hour} // an event a minute: a cut about every 120
