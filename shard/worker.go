@@ -45,6 +45,10 @@ type WorkerConfig struct {
 	Window   time.Duration
 	Cuts     Cuts
 	Store    *storage.Store
+	// KeepHistory, when above zero, lets the store discard checkpoint
+	// versions older than this much event time before the latest cut,
+	// never less than the alert rules' look-back needs (KeepFor).
+	KeepHistory time.Duration
 	// Logf, when set, hears of rejects and retries.
 	Logf func(format string, args ...any)
 	// Alerts, when set, are evaluated at every cut for the nodes this
@@ -207,6 +211,7 @@ func LoadApplier(c *Counting, win time.Duration, cuts Cuts, st *storage.Store) (
 // done, telling Logf each time.
 func (w *Worker) Run(ctx context.Context) error {
 	w.com = NewCommitter(w.cfg.Store, 64)
+	w.com.KeepHistory = KeepFor(w.cfg.KeepHistory, w.alerts, w.cfg.Cuts)
 	w.com.OnCommit = w.committed
 	err := w.run(ctx)
 	if cerr := w.com.Close(); err == nil {
