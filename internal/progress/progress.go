@@ -17,6 +17,7 @@ import (
 type Reporter struct {
 	w      io.Writer
 	label  string
+	unit   string // what an event is, plural: "events", "nodes"
 	total  int64
 	events atomic.Int64
 	bytes  atomic.Int64
@@ -54,6 +55,10 @@ func WithInterval(d time.Duration) Option {
 	return func(r *Reporter) { r.interval = d }
 }
 
+// WithUnit names what Add counts (plural, e.g. "nodes", "phases") in the
+// lines; the default is "events".
+func WithUnit(plural string) Option { return func(r *Reporter) { r.unit = plural } }
+
 // WithTerminal forces terminal (redrawn line of the given width) or plain
 // mode instead of asking the writer.
 func WithTerminal(on bool, width int) Option {
@@ -64,7 +69,7 @@ func WithTerminal(on bool, width int) Option {
 // when the size is not known: no percentage, bar or ETA then). It is in
 // terminal mode when w is an *os.File on a terminal.
 func New(w io.Writer, total int64, label string, opts ...Option) *Reporter {
-	r := &Reporter{w: w, label: label, total: total, now: time.Now, width: 80,
+	r := &Reporter{w: w, label: label, unit: "events", total: total, now: time.Now, width: 80,
 		quit: make(chan struct{}), finished: make(chan struct{})}
 	if f, ok := w.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
 		r.terminal = true
@@ -108,8 +113,8 @@ func (r *Reporter) Done() {
 		}
 		el := r.now().Sub(r.start)
 		ev := r.events.Load()
-		line := fmt.Sprintf("%s: done, %d events, %s in %s (%s events/s)",
-			r.label, ev, Bytes(r.bytes.Load()), el.Round(time.Millisecond), rate(ev, el))
+		line := fmt.Sprintf("%s: done, %d %s, %s in %s (%s %s/s)",
+			r.label, ev, r.unit, Bytes(r.bytes.Load()), el.Round(time.Millisecond), rate(ev, el), r.unit)
 		r.mu.Lock()
 		defer r.mu.Unlock()
 		if r.terminal {
@@ -153,7 +158,7 @@ func (r *Reporter) render() {
 	} else {
 		fmt.Fprintf(&b, " %s,", Bytes(by))
 	}
-	fmt.Fprintf(&b, " %d events, %s events/s", ev, rate(ev, el))
+	fmt.Fprintf(&b, " %d %s, %s %s/s", ev, r.unit, rate(ev, el), r.unit)
 	if r.total > 0 {
 		b.WriteString(", ETA ")
 		b.WriteString(eta(by, r.total, el))

@@ -159,6 +159,25 @@ func (s *syncBuffer) String() string {
 	return s.b.String()
 }
 
+// TestUnit: WithUnit names what is counted in the lines and the closing
+// line, in place of "events".
+func TestUnit(t *testing.T) {
+	c := &fakeClock{}
+	ticks := make(chan time.Time)
+	out := make(lines, 16)
+	r := New(out, 0, "export", WithClock(c.now), WithTicks(ticks), WithTerminal(false, 100), WithUnit("nodes"))
+	r.Add(300, 2048)
+	c.advance(time.Second)
+	ticks <- c.now()
+	if got, want := out.next(t), "export: 2.0 KiB, 300 nodes, 300 nodes/s\n"; got != want {
+		t.Fatalf("line\n%q, want\n%q", got, want)
+	}
+	r.Done()
+	if got, want := out.next(t), "export: done, 300 nodes, 2.0 KiB in 1s (300 nodes/s)\n"; got != want {
+		t.Fatalf("closing line\n%q, want\n%q", got, want)
+	}
+}
+
 func TestRealTicker(t *testing.T) {
 	var buf syncBuffer
 	r := New(&buf, 0, "export", WithInterval(time.Millisecond))
