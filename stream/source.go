@@ -44,6 +44,30 @@ const (
 	numKeys
 )
 
+// Check reports whether the options can read anything at all: a known
+// format, known keys each mapped to its own name, a minimum amount that is
+// a decimal number, and an amount column only with a minimum. Open and
+// NewReader check them first; a caller can check them before it opens
+// an input, to tell a wrong option from a wrong input.
+func (o Options) Check() error {
+	switch o.Format {
+	case "", "csv", "jsonl":
+	default:
+		return fmt.Errorf("stream: unknown format %q (want csv or jsonl)", o.Format)
+	}
+	if _, err := resolveKeys(o.Columns); err != nil {
+		return err
+	}
+	if o.MinAmount != "" {
+		if _, ok := parseDecimal(o.MinAmount); !ok {
+			return fmt.Errorf("stream: minimum amount %q is not a decimal number", o.MinAmount)
+		}
+	} else if _, ok := o.Columns["amount"]; ok {
+		return errors.New("stream: an amount column is read only to filter by a minimum amount, and none is given")
+	}
+	return nil
+}
+
 // resolveKeys returns the source name of each key after Options.Columns.
 func resolveKeys(cols map[string]string) ([numKeys]string, error) {
 	names := keyNames
@@ -161,19 +185,14 @@ func NewReader(name string, rd io.Reader, opts Options) (*Reader, error) {
 }
 
 func newReader(name, path string, rd io.Reader, closer io.Closer, size int64, opts Options) (*Reader, error) {
-	keys, err := resolveKeys(opts.Columns)
-	if err != nil {
+	if err := opts.Check(); err != nil {
 		return nil, err
 	}
+	keys, _ := resolveKeys(opts.Columns)
 	r := &Reader{name: name, closer: closer, size: size, keys: keys}
 	if opts.MinAmount != "" {
-		m, ok := parseDecimal(opts.MinAmount)
-		if !ok {
-			return nil, fmt.Errorf("stream: minimum amount %q is not a decimal number", opts.MinAmount)
-		}
+		m, _ := parseDecimal(opts.MinAmount)
 		r.filler.min, r.filler.minText = &m, opts.MinAmount
-	} else if _, ok := opts.Columns["amount"]; ok {
-		return nil, errors.New("stream: an amount column is read only to filter by a minimum amount, and none is given")
 	}
 	r.raw = &countingReader{r: rd}
 	rawBR := bufio.NewReaderSize(r.raw, 64<<10)
