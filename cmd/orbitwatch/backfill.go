@@ -9,8 +9,6 @@ import (
 	"fmt"
 	"os"
 	"os/signal"
-	"strconv"
-	"strings"
 	"syscall"
 	"time"
 
@@ -46,25 +44,18 @@ func runBackfill(args []string) int {
 	cuts.register(fs)
 	fs.StringVar(&af.path, "alerts", "", "alert rules file (YAML) evaluated at every cut; default: the built-in rules")
 	noAlerts := fs.Bool("no-alerts", false, "evaluate no alert rules")
-	data := fs.String("data", "", "data directory (created when missing)")
-	windowFlag := fs.String("window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
-	keepFlag := fs.String("keep-history", "", "keep checkpoint versions this far back in event time, e.g. 90d (default: all; never less than the alert rules' look-back)")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	data := fs.String("data", "", "data `DIR` (created when missing)")
+	var windowFlag, keepFlag spanFlag
+	fs.Var(&windowFlag, "window", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
+	registerKeepHistory(fs, &keepFlag)
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
-	if *data == "" {
-		fmt.Fprintln(os.Stderr, "orbitwatch backfill: --data DIR is required")
-		return 2
-	}
-	window, err := parseDays(*windowFlag)
-	if err != nil {
-		return fail("backfill", fmt.Errorf("--window: %w", err))
-	}
-	keep, err := parseDays(*keepFlag)
-	if err != nil {
-		return fail("backfill", fmt.Errorf("--keep-history: %w", err))
-	}
+	window, keep := windowFlag.d, keepFlag.d
 	c, err := cf.counting()
+	if err == nil {
+		err = inf.check()
+	}
 	if err != nil {
 		return fail("backfill", err)
 	}
@@ -100,9 +91,6 @@ func runBackfill(args []string) int {
 	if err != nil {
 		return fail("backfill", err)
 	}
-	if state.Seq > 0 {
-		fmt.Fprintf(os.Stderr, "orbitwatch backfill: resuming after the checkpoint at seq %d\n", state.Seq)
-	}
 
 	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer cancel()
@@ -135,16 +123,20 @@ func runBackfill(args []string) int {
 	if err := com.Close(); err != nil && (runErr == nil || errors.Is(runErr, context.Canceled)) {
 		runErr = err
 	}
-	in.summary("backfill")
 	groups, busy := com.Busy()
-	fmt.Fprintf(os.Stderr, "orbitwatch backfill: data directory %s at seq %d (%d nodes, %d edges); this run wrote %d cuts (%d records, %d alerts) in %d commits taking %.1f s beside the counting\n",
-		*data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges(), b.cuts, b.recordsWritten, b.alerts, groups, busy.Seconds())
+	var more []string
+	if state.Seq > 0 {
+		more = append(more, fmt.Sprintf("resumed at checkpoint %d", state.Seq))
+	}
+	more = append(more, fmt.Sprintf("data directory %s at checkpoint %d (%d nodes, %d edges); this run wrote %d cuts (%d records, %d alerts) in %d commits taking %.1f s beside the counting",
+		*data, st.Seq(), a.Dict().Len(), a.Graph().NumEdges(), b.cuts, b.recordsWritten, b.alerts, groups, busy.Seconds()))
+	in.summary("backfill", more...)
 	if errors.Is(runErr, context.Canceled) {
 		fmt.Fprintln(os.Stderr, "orbitwatch backfill: interrupted; rerun with the same arguments to go on")
 		return 130
 	}
 	if runErr != nil {
-		return exitCode("backfill", runErr)
+		return fail("backfill", runErr)
 	}
 	return 0
 }
@@ -170,6 +162,12 @@ type backfill struct {
 	records []inputRecord
 
 	cuts, recordsWritten, alerts uint64 // written by this run
+}
+
+// registerKeepHistory adds --keep-history, which backfill, serve and
+// worker share.
+func registerKeepHistory(fs *flag.FlagSet, keep *spanFlag) {
+	fs.Var(keep, "keep-history", "keep checkpoint versions this far back in event time, e.g. 90d (default: all; never less than the alert rules' look-back needs)")
 }
 
 // cut takes one cut: the alert stage scores it, the input records go with
@@ -256,24 +254,4 @@ func matchInputs(blob []byte, paths []string, hashes []string) ([]inputRecord, e
 		recs = append(recs, inputRecord{SHA256: hashes[i], Name: paths[i]})
 	}
 	return recs, nil
-}
-
-// parseDays parses a duration that may be written in days ("30d", "1.5d")
-// as well as Go's units ("12h", "90m"). Empty means zero.
-func parseDays(s string) (time.Duration, error) {
-	if s == "" {
-		return 0, nil
-	}
-	if d, ok := strings.CutSuffix(s, "d"); ok {
-		f, err := strconv.ParseFloat(d, 64)
-		if err != nil || f <= 0 {
-			return 0, fmt.Errorf("bad duration %q", s)
-		}
-		return time.Duration(f * float64(24*time.Hour)), nil
-	}
-	d, err := time.ParseDuration(s)
-	if err != nil || d <= 0 {
-		return 0, fmt.Errorf("bad duration %q", s)
-	}
-	return d, nil
 }

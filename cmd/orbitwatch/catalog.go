@@ -41,16 +41,16 @@ func runCatalog(args []string) int {
 	kindName := fs.String("kind", "undirected", "graph kind: undirected, directed or signed")
 	maxNodes := fs.Int("max-nodes", 4, "largest graphlet size counted")
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
 	kind, err := delta.ParseKind(*kindName)
 	if err != nil {
-		return fail("catalog", err)
+		return fail("catalog", usageError(fmt.Errorf("--kind: %w", err)))
 	}
 	cat, err := catalog.New(kind, *maxNodes)
 	if err != nil {
-		return fail("catalog", err)
+		return fail("catalog", usageError(fmt.Errorf("--max-nodes: %w", err)))
 	}
 	if *asJSON {
 		out := catalogJSON{Kind: kind.String(), MaxNodes: cat.MaxNodes, Graphlets: []graphletJSON{}}

@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 
 	"orbitwatch/delta"
 	"orbitwatch/shard"
@@ -29,9 +30,13 @@ func (c *countingFlags) register(fs *flag.FlagSet) {
 func (c *countingFlags) counting() (*shard.Counting, error) {
 	kind, err := delta.ParseKind(c.kind)
 	if err != nil {
-		return nil, err
+		return nil, usagef("--kind: %w", err)
 	}
-	return shard.NewCounting(kind, c.maxNodes)
+	counting, err := shard.NewCounting(kind, c.maxNodes)
+	if err != nil {
+		return nil, usagef("--max-nodes: %w", err)
+	}
+	return counting, nil
 }
 
 func runCount(args []string) int {
@@ -40,10 +45,13 @@ func runCount(args []string) int {
 	var inf inputFlags
 	cf.register(fs)
 	inf.register(fs)
-	if err := fs.Parse(args); err != nil {
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
 	c, err := cf.counting()
+	if err == nil {
+		err = inf.check()
+	}
 	if err != nil {
 		return fail("count", err)
 	}
@@ -52,7 +60,7 @@ func runCount(args []string) int {
 	in := &ingest{flags: &inf, applier: a}
 	if err := in.run(); err != nil {
 		in.summary("count")
-		return exitCode("count", err)
+		return fail("count", err)
 	}
 	in.summary("count")
 	vec := c.Recount.Recount(a.Graph())
@@ -73,26 +81,30 @@ func runReplay(args []string) int {
 	cf.register(fs)
 	inf.register(fs)
 	every := fs.Uint64("checkpoint-every", 1000, "write the orbit matrix after every N data lines")
-	out := fs.String("out", "", "directory for the checkpoint files DIR/<n>.csv")
+	out := fs.String("out", "", "`DIR` for the checkpoint files DIR/<n>.csv: missing or empty, or see --replace")
 	verify := fs.Bool("verify", false, "recount statically at each checkpoint and stop at the first mismatch")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	replace := fs.Bool("replace", false, "remove the checkpoint files an earlier replay left in --out first (without it a non-empty --out is refused)")
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
-	if *out == "" || *every == 0 {
-		fmt.Fprintln(os.Stderr, "orbitwatch replay: --out DIR and a positive --checkpoint-every are required")
-		return 2
-	}
-	if err := os.MkdirAll(*out, 0o755); err != nil {
-		return fail("replay", err)
+	if *every == 0 {
+		return fail("replay", usagef("--checkpoint-every must be positive"))
 	}
 	c, err := cf.counting()
+	if err == nil {
+		err = inf.check()
+	}
+	if err == nil {
+		err = prepareReplayDir(*out, *replace)
+	}
 	if err != nil {
 		return fail("replay", err)
 	}
 	a := shard.NewApplier(c, 0, shard.Cuts{})
-	var last uint64
+	var last, written uint64
 	checkpoint := func(seq uint64) error {
 		last = seq
+		written++
 		vec, err := a.Vectors()
 		if err != nil {
 			return fmt.Errorf("checkpoint %d: %w", seq, err)
@@ -116,9 +128,54 @@ func runReplay(args []string) int {
 	}
 	in.summary("replay")
 	if err != nil {
-		return exitCode("replay", err)
+		return fail("replay", err)
+	}
+	if *verify {
+		fmt.Printf("replay: verification passed: at each of %d checkpoints (the last at seq %d) every incremental vector equals the static recount\n", written, last)
 	}
 	return 0
+}
+
+// prepareReplayDir makes dir ready for replay's checkpoint files: created
+// when missing, refused when it holds anything, so that the files of an
+// earlier replay never mix with new ones. With replace, the files an
+// earlier replay wrote (<n>.csv) are removed first; anything else in dir
+// is still refused, since replay did not write it.
+func prepareReplayDir(dir string, replace bool) error {
+	ents, err := os.ReadDir(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		return os.MkdirAll(dir, 0o755)
+	}
+	if err != nil {
+		return err
+	}
+	if len(ents) == 0 {
+		return nil
+	}
+	if !replace {
+		return usagef("--out %s is not empty (%d entries): give an empty or new directory, or --replace to remove an earlier replay's checkpoint files", dir, len(ents))
+	}
+	for _, e := range ents {
+		if !isCheckpointFile(e) {
+			return usagef("--out %s holds %s, which replay did not write: --replace removes only checkpoint files <n>.csv", dir, e.Name())
+		}
+	}
+	for _, e := range ents {
+		if err := os.Remove(filepath.Join(dir, e.Name())); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// isCheckpointFile reports whether e is a file replay writes: <n>.csv.
+func isCheckpointFile(e os.DirEntry) bool {
+	n, ok := strings.CutSuffix(e.Name(), ".csv")
+	if !ok || !e.Type().IsRegular() {
+		return false
+	}
+	_, err := strconv.ParseUint(n, 10, 64)
+	return err == nil
 }
 
 // compare checks incremental vectors against a recount and names the first

@@ -29,14 +29,14 @@ const demoCutEvery = time.Minute
 
 func runDemo(args []string) int {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
-	data := fs.String("data", "", "data directory to keep (default: a temporary one, removed on exit)")
+	data := fs.String("data", "", "data `DIR` to keep (default: a temporary one, removed on exit); the offline commands read it with --data DIR")
 	httpAddr := fs.String("http", "127.0.0.1:7474", "address of the web page and the HTTP API")
 	rate := fs.Float64("rate", 100, "steady payments per second of wall time after the opening (which goes as fast as it can)")
 	seed := fs.Uint64("seed", 1, "seed of the scenario")
 	webhook := fs.String("webhook", "", "URL to POST every alert to as JSON, with retries (never holds up counting)")
 	small := fs.Bool("small", false, "a smaller scenario (600 households, five simulated hours) for quick trials and tests")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
 	if *rate <= 0 {
 		fmt.Fprintln(os.Stderr, "orbitwatch demo: --rate must be positive")

@@ -1,17 +1,23 @@
 package main
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/csv"
+	"encoding/json"
 	"fmt"
 	"io"
 	"os"
+	"reflect"
 	"strconv"
 
 	"github.com/parquet-go/parquet-go"
 
+	"orbitwatch/delta/catalog"
 	"orbitwatch/internal/progress"
 	"orbitwatch/shard"
+	"orbitwatch/shard/api"
+	"orbitwatch/storage"
 )
 
 func init() {
@@ -24,15 +30,15 @@ const parquetRowGroup = 1 << 17
 
 func runExport(args []string) int {
 	c := newReadCommand("export", true)
-	format := c.fs.String("format", "", "`FORMAT`: csv (the format of count: header node,0,1,…) or parquet (columns node, o0, o1, …) (required)")
-	out := c.fs.String("out", "", "output `FILE` (required); written whole or not at all")
+	format := c.fs.String("format", "", "`FORMAT`: csv (the format of count: header node,0,1,…) or parquet (columns node, o0, o1, … in orbit order, with the checkpoint's metadata)")
+	out := c.fs.String("out", "", "output `FILE`, written whole or not at all; - for standard output")
 	formatOK := func() error {
 		if *format != "csv" && *format != "parquet" {
 			return fmt.Errorf("--format must be csv or parquet, not %q", *format)
 		}
 		return nil
 	}
-	if code := c.parse(args, formatOK, c.required("out")); code != 0 {
+	if code := c.parse(args, formatOK); code != 0 {
 		return code
 	}
 	st, cut, err := c.open()
@@ -40,8 +46,8 @@ func runExport(args []string) int {
 		return fail("export", err)
 	}
 	defer st.Close()
-	numOrbits := st.Settings().NumOrbits
-	counting, err := shard.NewCounting(st.Settings().Kind, st.Settings().MaxNodes)
+	set := st.Settings()
+	counting, err := shard.NewCounting(set.Kind, set.MaxNodes)
 	if err != nil {
 		return fail("export", err)
 	}
@@ -49,14 +55,18 @@ func runExport(args []string) int {
 	if err != nil {
 		return fail("export", err)
 	}
-	prog := progress.New(os.Stderr, 0, "export nodes")
-	err = createAtomic(*out, func(w io.Writer) error {
+	meta, err := exportMetadata(counting.Catalog, cut)
+	if err != nil {
+		return fail("export", err)
+	}
+	prog := progress.New(os.Stderr, 0, "export", progress.WithUnit("nodes"))
+	write := func(w io.Writer) error {
 		cw := &countingWriter{w: w, prog: prog}
 		var m matrixWriter
 		if *format == "csv" {
-			m = newMatrixCSV(cw, numOrbits)
+			m = newMatrixCSV(cw, set.NumOrbits)
 		} else {
-			m = newMatrixParquet(cw, numOrbits)
+			m = newMatrixParquet(cw, set.NumOrbits, meta)
 		}
 		var vec []uint64
 		for x, node := range a.Names() {
@@ -70,14 +80,63 @@ func runExport(args []string) int {
 			prog.Add(1, 0)
 		}
 		return m.close()
-	})
+	}
+	dest := *out
+	if *out == "-" {
+		dest = "standard output"
+		bw := bufio.NewWriterSize(os.Stdout, 1<<16)
+		if err = write(bw); err == nil {
+			err = bw.Flush()
+		}
+	} else {
+		err = createAtomic(*out, write)
+	}
 	prog.Done()
 	if err != nil {
 		return fail("export", err)
 	}
 	fmt.Fprintf(os.Stderr, "orbitwatch export: %d nodes × %d orbits at checkpoint %d (event time %s) to %s\n",
-		cut.Nodes, numOrbits, cut.Seq, formatEventTime(eventTime(cut.Watermark), "none"), *out)
+		cut.Nodes, set.NumOrbits, cut.Seq, formatEventTime(eventTime(cut.Watermark), "none"), dest)
 	return 0
+}
+
+// Parquet key-value metadata keys of an export: enough to know, from the
+// file alone, what its numbers count and as of when.
+const (
+	metaKind      = "orbitwatch.kind"           // undirected, directed or signed
+	metaMaxNodes  = "orbitwatch.max_nodes"      // the largest graphlet size counted
+	metaSeq       = "orbitwatch.checkpoint_seq" // the cut's log position
+	metaEventTime = "orbitwatch.event_time"     // the cut's watermark, RFC 3339, "" when no event had a time
+	metaOrbits    = "orbitwatch.orbits"         // JSON: per column o<id>, the orbit's and its graphlet's names
+	metaVersion   = "orbitwatch.version"        // the version of the binary that wrote the file
+)
+
+// orbitMeta is one entry of the metaOrbits list.
+type orbitMeta struct {
+	Column   string `json:"column"`
+	Orbit    int    `json:"orbit"`
+	Name     string `json:"name"`
+	Graphlet string `json:"graphlet"`
+}
+
+// exportMetadata is the key-value metadata of a Parquet export of cut.
+func exportMetadata(cat *catalog.Catalog, cut storage.CheckpointInfo) ([][2]string, error) {
+	orbits := make([]orbitMeta, cat.NumOrbits())
+	for i, o := range cat.Orbits {
+		orbits[i] = orbitMeta{Column: parquetOrbitColumn(i), Orbit: i, Name: o.Name, Graphlet: cat.Graphlets[o.Graphlet].Name}
+	}
+	names, err := json.Marshal(orbits)
+	if err != nil {
+		return nil, err
+	}
+	return [][2]string{
+		{metaKind, cat.Kind.String()},
+		{metaMaxNodes, strconv.Itoa(cat.MaxNodes)},
+		{metaSeq, strconv.FormatUint(cut.Seq, 10)},
+		{metaEventTime, formatEventTime(eventTime(cut.Watermark), "")},
+		{metaOrbits, string(names)},
+		{metaVersion, api.BuildVersion()},
+	}, nil
 }
 
 // matrixWriter writes an orbit matrix one node at a time, in dictionary
@@ -142,8 +201,10 @@ func (m *matrixCSV) close() error { return m.err }
 // column "node" (BYTE_ARRAY, UTF8 logical type; ids are written byte for
 // byte) and one required column per orbit named "o<id>" (o0, o1, …),
 // physical INT64 with logical type INTEGER(64, unsigned), zstd-compressed,
-// in row groups of at most parquetRowGroup rows. The columns' physical
-// order is by name (node, o0, o1, o10, …); readers find them by name.
+// in row groups of at most parquetRowGroup rows. The columns come in
+// orbit order (node, o0, o1, …, o9, o10, …), so a reader that takes them
+// by position gets the matrix as the catalog numbers it; meta is written
+// as the file's key-value metadata.
 type matrixParquet struct {
 	w       *parquet.GenericWriter[any]
 	nodeCol int
@@ -153,14 +214,14 @@ type matrixParquet struct {
 	n       int
 }
 
-func newMatrixParquet(w io.Writer, numOrbits int) *matrixParquet {
-	group := parquet.Group{"node": parquet.String()}
-	for o := 0; o < numOrbits; o++ {
-		group[parquetOrbitColumn(o)] = parquet.Uint(64)
+func newMatrixParquet(w io.Writer, numOrbits int, meta [][2]string) *matrixParquet {
+	schema := orbitMatrixSchema(numOrbits)
+	opts := []parquet.WriterOption{schema, parquet.Compression(&parquet.Zstd), parquet.MaxRowsPerRowGroup(parquetRowGroup)}
+	for _, kv := range meta {
+		opts = append(opts, parquet.KeyValueMetadata(kv[0], kv[1]))
 	}
-	schema := parquet.NewSchema("orbit_matrix", group)
 	m := &matrixParquet{
-		w:      parquet.NewGenericWriter[any](w, schema, parquet.Compression(&parquet.Zstd), parquet.MaxRowsPerRowGroup(parquetRowGroup)),
+		w:      parquet.NewGenericWriter[any](w, opts...),
 		orbCol: make([]int, numOrbits),
 		rows:   make([]parquet.Row, 1024),
 	}
@@ -172,6 +233,20 @@ func newMatrixParquet(w io.Writer, numOrbits int) *matrixParquet {
 		m.rows[i] = make(parquet.Row, numOrbits+1)
 	}
 	return m
+}
+
+// orbitMatrixSchema is the Parquet schema of an orbit matrix with its
+// columns in orbit order. parquet.Group sorts its fields by name, a Go
+// struct keeps them in declaration order: the schema is that of a struct
+// type made for the catalog's orbit count.
+func orbitMatrixSchema(numOrbits int) *parquet.Schema {
+	fields := make([]reflect.StructField, numOrbits+1)
+	fields[0] = reflect.StructField{Name: "Node", Type: reflect.TypeFor[string](), Tag: `parquet:"node"`}
+	for o := range numOrbits {
+		col := parquetOrbitColumn(o)
+		fields[o+1] = reflect.StructField{Name: "O" + col[1:], Type: reflect.TypeFor[uint64](), Tag: reflect.StructTag(`parquet:"` + col + `"`)}
+	}
+	return parquet.NewSchema("orbit_matrix", parquet.SchemaOf(reflect.New(reflect.StructOf(fields)).Interface()))
 }
 
 // parquetOrbitColumn is the Parquet column name of orbit o: "o" and its id.

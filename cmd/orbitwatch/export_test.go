@@ -2,10 +2,14 @@ package main
 
 import (
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"io"
+	"math/big"
 	"os"
+	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -16,6 +20,7 @@ import (
 
 	"orbitwatch/bench/gen"
 	"orbitwatch/delta"
+	"orbitwatch/delta/catalog"
 	"orbitwatch/shard"
 	"orbitwatch/storage"
 	"orbitwatch/stream"
@@ -37,7 +42,7 @@ func TestExportCSVEqualsCountAndReplay(t *testing.T) {
 	if !bytes.Contains(got, []byte(`"shop ""corner"", east"`)) || !bytes.Contains(got, []byte(`" acct with space"`)) {
 		t.Errorf("fixture: the ids that need quoting are not in the export")
 	}
-	if !strings.Contains(r.stderr, "export nodes: done,") {
+	if !strings.Contains(r.stderr, "export: done, "+strconv.Itoa(strings.Count(count.stdout, "\n")-1)+" nodes,") {
 		t.Errorf("no progress on stderr: %q", r.stderr)
 	}
 	for _, n := range f.seqs {
@@ -94,11 +99,17 @@ func readParquet(t *testing.T, path string, numOrbits int) (order []string, rows
 	if !ok || nodeCol.Node.Type().Kind() != parquet.ByteArray || !isString(nodeCol.Node.Type().LogicalType()) {
 		t.Fatalf("column node missing or not a string: %v", schema)
 	}
+	if nodeCol.ColumnIndex != 0 {
+		t.Fatalf("column node is column %d, want the first", nodeCol.ColumnIndex)
+	}
 	cols := make([]int, numOrbits)
 	for o := range cols {
 		c, ok := schema.Lookup("o" + strconv.Itoa(o))
 		if !ok {
 			t.Fatalf("column o%d missing", o)
+		}
+		if c.ColumnIndex != o+1 {
+			t.Fatalf("column o%d is column %d, want %d: columns must come in orbit order", o, c.ColumnIndex, o+1)
 		}
 		it := intType(c.Node.Type().LogicalType())
 		if c.Node.Type().Kind() != parquet.Int64 || it == nil || it.BitWidth != 64 || it.IsSigned {
@@ -185,7 +196,7 @@ func TestExportParquetFullUint64(t *testing.T) {
 	small := make([]uint64, 15)
 	small[14] = 7
 	err := createAtomic(out, func(w io.Writer) error {
-		m := newMatrixParquet(w, 15)
+		m := newMatrixParquet(w, 15, nil)
 		if err := m.row("acct-big", big); err != nil {
 			return err
 		}
@@ -221,7 +232,7 @@ func TestExportFlags(t *testing.T) {
 		msg  string
 	}{
 		{[]string{"--format", "xlsx", "--out", out}, 2, "--format must be csv or parquet"},
-		{[]string{"--format", "csv"}, 2, "--out is required"},
+		{[]string{"--format", "csv"}, 2, "--out FILE is required"},
 		{[]string{"--format", "csv", "--out", out, "--seq", "199"}, 1, "no checkpoint at or before seq 199"},
 		{[]string{"--format", "csv", "--out", filepath.Join(dir, "no", "such", "dir", "m.csv")}, 1, "no such file"},
 	} {
@@ -298,7 +309,7 @@ func BenchmarkExportCSV(b *testing.B) {
 }
 
 func BenchmarkExportParquet(b *testing.B) {
-	benchmarkExport(b, func(w io.Writer) matrixWriter { return newMatrixParquet(w, 15) })
+	benchmarkExport(b, func(w io.Writer) matrixWriter { return newMatrixParquet(w, 15, nil) })
 }
 
 // TestMatrixCSVMatchesWriteMatrix holds the streaming CSV writer against
@@ -371,6 +382,147 @@ func TestReadSideOtherCatalogs(t *testing.T) {
 		r := mustRunCmd(t, "verify", "--data", f.data)
 		if !strings.Contains(r.stdout, "checkpoint "+strconv.FormatUint(last, 10)) || !strings.Contains(r.stdout, strconv.Itoa(c.numOrbits)+" orbits each") {
 			t.Errorf("%s k=%d: verify said %q", c.kind, c.maxNodes, r.stdout)
+		}
+	}
+}
+
+// TestExportToStandardOutput: --out - writes the same bytes to standard
+// output as to a file, CSV and Parquet alike, and nothing else there.
+func TestExportToStandardOutput(t *testing.T) {
+	f := newFixture(t, 34, true, 150)
+	dir := t.TempDir()
+	for _, format := range []string{"csv", "parquet"} {
+		file := filepath.Join(dir, "m."+format)
+		mustRunCmd(t, "export", "--data", f.data, "--format", format, "--out", file)
+		want, err := os.ReadFile(file)
+		if err != nil {
+			t.Fatal(err)
+		}
+		r := mustRunCmd(t, "export", "--data", f.data, "--format", format, "--out", "-")
+		if r.stdout != string(want) {
+			t.Errorf("%s: --out - wrote %d bytes, the file %d, or other bytes", format, len(r.stdout), len(want))
+		}
+		if !strings.Contains(r.stderr, "to standard output") {
+			t.Errorf("%s: the closing line does not say where the export went: %q", format, r.stderr)
+		}
+	}
+	if ents, _ := os.ReadDir("."); slices.ContainsFunc(ents, func(e os.DirEntry) bool { return e.Name() == "-" }) {
+		t.Error("export --out - wrote a file named -")
+	}
+}
+
+// duckdbDir is the npm project of the DuckDB reader (read.mjs); .ci/run
+// installs its packages with npm ci.
+const duckdbDir = "testdata/duckdb"
+
+// duckdbRead runs read.mjs (DuckDB's Node package, @duckdb/node-api) on a
+// Parquet file and returns what it read. Without node or the package the
+// test is skipped, except under CI, which installs both.
+func duckdbRead(t *testing.T, path string) duckdbFile {
+	t.Helper()
+	node, err := exec.LookPath("node")
+	if err == nil {
+		_, err = os.Stat(filepath.Join(duckdbDir, "node_modules", "@duckdb", "node-api", "package.json"))
+	}
+	if err != nil {
+		msg := fmt.Sprintf("DuckDB's Node package is not installed (%v): run npm ci --prefix cmd/orbitwatch/%s (bash .ci/run does)", err, duckdbDir)
+		if os.Getenv("CI") != "" {
+			t.Fatal(msg)
+		}
+		t.Skip(msg)
+	}
+	cmd := exec.Command(node, filepath.Join(duckdbDir, "read.mjs"), path)
+	var stderr bytes.Buffer
+	cmd.Stderr = &stderr
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("DuckDB reading %s: %v\n%s", path, err, stderr.String())
+	}
+	var got duckdbFile
+	if err := json.Unmarshal(out, &got); err != nil {
+		t.Fatalf("read.mjs printed %q: %v", out, err)
+	}
+	return got
+}
+
+// duckdbFile is what read.mjs prints.
+type duckdbFile struct {
+	Columns []struct {
+		Name, Type string
+	} `json:"columns"`
+	Metadata map[string]string `json:"metadata"`
+	Rows     string            `json:"rows"`
+	Sums     map[string]string `json:"sums"`
+}
+
+// TestExportParquetReadByDuckDB holds a Parquet export against an outside
+// reader, DuckDB (through its Node package): the columns come in orbit
+// order with the types documented (node VARCHAR, o<id> UBIGINT), the
+// key-value metadata names the kind, graphlet size, checkpoint, event
+// time, the orbits' names and the version of the binary, and DuckDB's sum
+// of every orbit column equals the sum over the CSV export of the same
+// checkpoint. Directed 2–4 has 730 orbits, so o100 must follow o99.
+func TestExportParquetReadByDuckDB(t *testing.T) {
+	f := newFixtureOf(t, 35, true, 150, delta.Directed, 4)
+	dir := t.TempDir()
+	last := f.seqs[len(f.seqs)-1]
+	pq := filepath.Join(dir, "m.parquet")
+	mustRunCmd(t, "export", "--data", f.data, "--format", "parquet", "--out", pq)
+	csvOut := filepath.Join(dir, "m.csv")
+	mustRunCmd(t, "export", "--data", f.data, "--format", "csv", "--out", csvOut)
+	order, rows := readMatrix(t, csvOut)
+	cat, err := catalog.New(delta.Directed, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := cat.NumOrbits()
+
+	got := duckdbRead(t, pq)
+	if len(got.Columns) != n+1 || got.Columns[0].Name != "node" || got.Columns[0].Type != "VARCHAR" {
+		t.Fatalf("DuckDB sees %d columns starting %v; want node VARCHAR and %d orbits", len(got.Columns), got.Columns[:min(3, len(got.Columns))], n)
+	}
+	for o := 0; o < n; o++ {
+		if c := got.Columns[o+1]; c.Name != "o"+strconv.Itoa(o) || c.Type != "UBIGINT" {
+			t.Fatalf("DuckDB column %d is %s %s, want o%d UBIGINT", o+1, c.Name, c.Type, o)
+		}
+	}
+	if got.Rows != strconv.Itoa(len(order)) {
+		t.Errorf("DuckDB counts %s rows, the CSV export has %d", got.Rows, len(order))
+	}
+	nonZero := 0
+	for o := 0; o < n; o++ {
+		var want big.Int
+		for _, x := range order {
+			want.Add(&want, new(big.Int).SetUint64(rows[x][o]))
+		}
+		if want.Sign() > 0 {
+			nonZero++
+		}
+		if s := got.Sums["o"+strconv.Itoa(o)]; s != want.String() {
+			t.Errorf("orbit %d: DuckDB sums %s, the CSV export %s", o, s, want.String())
+		}
+	}
+	if nonZero < 10 {
+		t.Errorf("only %d orbit columns have a non-zero sum: the check sees too little", nonZero)
+	}
+
+	version := strings.TrimPrefix(strings.TrimSpace(mustRunCmd(t, "--version").stdout), "orbitwatch ")
+	wm := watermarkAt(t, f.lines, last)
+	for k, want := range map[string]string{
+		metaKind: "directed", metaMaxNodes: "4", metaSeq: strconv.FormatUint(last, 10),
+		metaEventTime: wm.Format(time.RFC3339Nano), metaVersion: version,
+	} {
+		if got.Metadata[k] != want {
+			t.Errorf("metadata %s = %q, want %q", k, got.Metadata[k], want)
+		}
+	}
+	var names []orbitMeta
+	if err := json.Unmarshal([]byte(got.Metadata[metaOrbits]), &names); err != nil || len(names) != n {
+		t.Fatalf("metadata %s: %d entries, %v; want %d", metaOrbits, len(names), err, n)
+	}
+	for o, m := range names {
+		if want := cat.Orbits[o]; m.Column != "o"+strconv.Itoa(o) || m.Orbit != o || m.Name != want.Name || m.Graphlet != cat.Graphlets[want.Graphlet].Name {
+			t.Fatalf("metadata orbit %d: %+v, want %s of %s", o, m, want.Name, cat.Graphlets[want.Graphlet].Name)
 		}
 	}
 }

@@ -21,7 +21,6 @@ import (
 	"orbitwatch/delta/catalog"
 	"orbitwatch/shard"
 	"orbitwatch/storage"
-	"orbitwatch/stream"
 )
 
 func init() {
@@ -33,15 +32,15 @@ const plotOrbits = 6
 
 func runHistory(args []string) int {
 	c := newReadCommand("history", false)
-	node := c.fs.String("node", "", "`ID` of the node to read (required)")
-	from := c.fs.String("from", "", "first event time: checkpoints whose watermark is ≥ `TIME` (RFC 3339 or Unix seconds/ms)")
-	to := c.fs.String("to", "", "last event time: checkpoints whose watermark is ≤ `TIME`")
+	node := c.fs.String("node", "", "`ID` of the node to read")
+	var rng timeRange
+	c.fs.Var(&rng.from, "from", "first event time: checkpoints whose watermark is ≥ `TIME`: "+timeForms)
+	c.fs.Var(&rng.to, "to", "last event time: checkpoints whose watermark is ≤ `TIME`")
 	asCSV := c.fs.Bool("csv", false, "write CSV (header seq,event_time,<orbit ids>) instead of a table")
 	plotFile := c.fs.String("plot", "", "also draw a log-scale line chart of the largest orbits to `FILE`.svg or FILE.png")
 	orbitList := c.fs.String("orbits", "", "comma-separated orbit `IDS` to list and plot (default: all listed, the 6 largest at the end plotted)")
-	var rng timeRange
 	ext := ""
-	checkRange := func() error { return rng.parse(*from, *to) }
+	checkRange := rng.check
 	checkPlot := func() error {
 		ext = strings.ToLower(filepath.Ext(*plotFile))
 		if *plotFile != "" && ext != ".svg" && ext != ".png" {
@@ -118,36 +117,38 @@ func runHistory(args []string) int {
 // carrying no event time has the smallest watermark: it is before every
 // --from and within every --to.
 type timeRange struct {
-	from, to       time.Time
-	hasFrom, hasTo bool
+	from, to timeFlag
 }
 
+// parse sets the ends given (empty: open) and checks the range.
 func (r *timeRange) parse(from, to string) error {
-	var err error
 	if from != "" {
-		if r.from, err = stream.ParseTime(from); err != nil {
+		if err := r.from.Set(from); err != nil {
 			return fmt.Errorf("--from: %w", err)
 		}
-		r.hasFrom = true
 	}
 	if to != "" {
-		if r.to, err = stream.ParseTime(to); err != nil {
+		if err := r.to.Set(to); err != nil {
 			return fmt.Errorf("--to: %w", err)
 		}
-		r.hasTo = true
 	}
-	if r.hasFrom && r.hasTo && r.to.Before(r.from) {
-		return fmt.Errorf("--to %s is before --from %s", to, from)
+	return r.check()
+}
+
+// check refuses a range whose end is before its start.
+func (r *timeRange) check() error {
+	if r.from.set && r.to.set && r.to.t.Before(r.from.t) {
+		return fmt.Errorf("--to %s is before --from %s", r.to.text, r.from.text)
 	}
 	return nil
 }
 
 // contains reports whether a checkpoint watermark lies in the range.
 func (r *timeRange) contains(wm time.Time) bool {
-	if r.hasFrom && (wm.IsZero() || wm.Before(r.from)) {
+	if r.from.set && (wm.IsZero() || wm.Before(r.from.t)) {
 		return false
 	}
-	return !r.hasTo || wm.IsZero() || !wm.After(r.to)
+	return !r.to.set || wm.IsZero() || !wm.After(r.to.t)
 }
 
 // nodeHistory returns node's vector, derived by c from the stored records,

@@ -179,7 +179,7 @@ func TestHistoryListsChangesInRange(t *testing.T) {
 		{[]string{"--node", node, "--orbits", "0,15"}, 2, "not an orbit id"},
 		{[]string{"--node", node, "--orbits", "3,3"}, 2, "given twice"},
 		{[]string{"--node", node, "--from", "soon"}, 2, "--from"},
-		{[]string{"--from", "2026-03-01T00:00:00Z"}, 2, "--node is required"},
+		{[]string{"--from", "2026-03-01T00:00:00Z"}, 2, "--node ID is required"},
 	} {
 		r := runCmd(t, append([]string{"history", "--data", f.data}, c.args...)...)
 		if r.code != c.code || !strings.Contains(r.stderr, c.msg) || r.stdout != "" {

@@ -16,7 +16,8 @@ import (
 	"orbitwatch/stream"
 )
 
-// errStrict marks a stop at the first bad line under --strict (exit code 2).
+// errStrict marks a stop at the first bad line under --strict (exit code
+// 3, bad input).
 var errStrict = errors.New("strict")
 
 type listFlag []string
@@ -44,9 +45,28 @@ func (f *inputFlags) register(fs *flag.FlagSet) {
 	for _, k := range columnKeys {
 		f.columns[k] = fs.String(k+"-column", "", "name of the input column or key that holds "+k+" (default "+k+")")
 	}
-	fs.StringVar(&f.minAmount, "min-amount", "", "keep only events whose amount (see --amount-column) is at least this decimal number; the others are counted as filtered")
+	fs.StringVar(&f.minAmount, "min-amount", "", "keep only events whose amount (the --amount-column) is at least this decimal `NUMBER`; the others are counted as filtered, not rejected")
 	fs.StringVar(&f.rejects, "rejects", "", "write each rejected line with its line number, reason and text to this CSV file")
-	fs.BoolVar(&f.strict, "strict", false, "stop at the first bad line with exit code 2")
+	fs.BoolVar(&f.strict, "strict", false, "stop at the first bad line with exit code 3")
+}
+
+// check checks the input flags themselves, before any input is opened, so
+// that a wrong flag is a usage error and not a bad input.
+func (f *inputFlags) check() error {
+	if f.format != "" && f.format != "csv" && f.format != "jsonl" {
+		return usagef("--format must be csv or jsonl, not %q", f.format)
+	}
+	o := f.options()
+	if f.minAmount == "" && o.Columns["amount"] != "" {
+		return usagef("--amount-column says where amounts are, for --min-amount: give --min-amount too")
+	}
+	if err := (stream.Options{MinAmount: f.minAmount}).Check(); err != nil {
+		return usagef("--min-amount: %q is not a decimal number such as 100 or 12.50", f.minAmount)
+	}
+	if err := o.Check(); err != nil {
+		return usagef("column flags: %w", err)
+	}
+	return nil
 }
 
 func (f *inputFlags) options() stream.Options {
@@ -64,11 +84,11 @@ func (f *inputFlags) open(path string) (*stream.Reader, error) {
 	r, err := stream.Open(path, f.options())
 	var mc *stream.MissingColumnError
 	if errors.As(err, &mc) {
-		return nil, fmt.Errorf("%s: no column %q for %s (columns found: %s); map one with --%s-column",
-			path, mc.Name, mc.Key, strings.Join(mc.Found, ", "), mc.Key)
+		return nil, badInput(fmt.Errorf("%s: no column %s (columns found: %s); map one with --%s-column",
+			path, mc.Name, strings.Join(mc.Found, ", "), mc.Key))
 	}
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
+		return nil, badInput(fmt.Errorf("%s: %w", path, err))
 	}
 	return r, nil
 }
@@ -142,7 +162,7 @@ type ingest struct {
 
 func (in *ingest) run() error {
 	if len(in.flags.inputs) == 0 {
-		return errors.New("no --input given")
+		return usagef("--input FILE is required")
 	}
 	if in.flags.rejects != "" {
 		mode := os.O_CREATE | os.O_WRONLY | os.O_TRUNC
@@ -248,7 +268,7 @@ func (in *ingest) file(path string) (uint64, error) {
 				return 0, err
 			}
 		case err != nil:
-			return 0, fmt.Errorf("%s: %w", path, err)
+			return 0, badInput(fmt.Errorf("%s: %w", path, err))
 		default:
 			in.seq = base + uint64(ev.Line)
 			if in.seq <= in.resume {
@@ -306,8 +326,9 @@ func reasonClass(r string) string {
 // summary prints on stderr every line read under one heading (applied,
 // rejected by reason, filtered by reason, header, blank, already applied
 // before this run: they add up to the lines read), and the columns or
-// keys the logs have that nothing reads.
-func (in *ingest) summary(name string) {
+// keys the logs have that nothing reads. more are further clauses of the
+// same line.
+func (in *ingest) summary(name string, more ...string) {
 	c := &in.counts
 	fmt.Fprintf(os.Stderr, "orbitwatch %s: %d lines read, %d applied, %d rejected, %d filtered, %d header, %d blank",
 		name, c.read, c.applied, c.rejected, c.filtered, c.header, c.blank)
@@ -316,6 +337,9 @@ func (in *ingest) summary(name string) {
 	}
 	if ex := in.applier.Stats().Expired; ex > 0 {
 		fmt.Fprintf(os.Stderr, "; %d expired by the window", ex)
+	}
+	for _, m := range more {
+		fmt.Fprintf(os.Stderr, "; %s", m)
 	}
 	fmt.Fprintln(os.Stderr)
 	c.printDetails()
@@ -343,13 +367,4 @@ func printReasons(heading string, reasons map[string]uint64) {
 	for _, r := range keys {
 		fmt.Fprintf(os.Stderr, "  %s %8d  %s\n", heading, reasons[r], r)
 	}
-}
-
-// exitCode maps an ingest error to the command's exit code.
-func exitCode(name string, err error) int {
-	if errors.Is(err, errStrict) {
-		fmt.Fprintf(os.Stderr, "orbitwatch %s: %v\n", name, err)
-		return 2
-	}
-	return fail(name, err)
 }

@@ -132,8 +132,8 @@ func TestIngestAccountsForEveryLine(t *testing.T) {
 	}
 
 	out, code = run(t, "count", "--input", log, "--strict")
-	if code != 2 || !strings.Contains(out, "line 11: unbalanced quote") {
-		t.Fatalf("--strict: exit %d, want 2 naming line 11 (data line 10):\n%s", code, out)
+	if code != exitBadInput || !strings.Contains(out, "line 11: unbalanced quote") {
+		t.Fatalf("--strict: exit %d, want 3 (bad input) naming line 11 (data line 10):\n%s", code, out)
 	}
 }
 
@@ -213,7 +213,7 @@ func TestMissingColumnNamesTheFlag(t *testing.T) {
 		t.Fatal(err)
 	}
 	out, code := run(t, "count", "--input", log)
-	if code == 0 || !strings.Contains(out, `no column "src" for src (columns found: payer, payee, booked_at); map one with --src-column`) {
+	if code != exitBadInput || !strings.Contains(out, "no column src (columns found: payer, payee, booked_at); map one with --src-column\n") {
 		t.Fatalf("exit %d:\n%s", code, out)
 	}
 	out, code = run(t, "count", "--input", log, "--src-column", "payer", "--dst-column", "payee", "--ts-column", "booked_at")

@@ -6,7 +6,8 @@ package main
 import (
 	"fmt"
 	"os"
-	"sort"
+
+	"orbitwatch/shard/api"
 )
 
 type command struct {
@@ -14,49 +15,46 @@ type command struct {
 	run     func(args []string) int
 }
 
-// commands is filled by the command table here and by init functions of
-// files that add commands of their own.
-var commands = map[string]command{
-	"catalog": {"list the graphlets and orbits counted for a kind and size", runCatalog},
-	"count":   {"apply an edge log and recount the final graph statically", runCount},
-	"replay":  {"replay an edge log incrementally, writing the orbit matrix at checkpoints", runReplay},
+// commands is filled by init functions: the one here and those of files
+// that add commands of their own. (An initializer would make a cycle: a
+// command's help reads its summary from here.)
+var commands = map[string]command{}
+
+func init() {
+	commands["catalog"] = command{"list the graphlets and orbits counted for a kind and size", runCatalog}
+	commands["count"] = command{"apply an edge log and recount the final graph statically", runCount}
+	commands["replay"] = command{"replay an edge log incrementally, writing the orbit matrix at checkpoints", runReplay}
 }
 
 func main() {
-	if len(os.Args) < 2 || os.Args[1] == "-h" || os.Args[1] == "--help" || os.Args[1] == "help" {
-		usage()
-		if len(os.Args) < 2 {
-			os.Exit(2)
-		}
-		return
+	os.Exit(runMain(os.Args[1:]))
+}
+
+// runMain runs the command args name and returns the exit code.
+func runMain(args []string) int {
+	if len(args) == 0 {
+		printTopHelp(os.Stderr)
+		return exitUsage
 	}
-	c, ok := commands[os.Args[1]]
+	switch args[0] {
+	case "-h", "-help", "--help", "help":
+		if len(args) > 1 {
+			if _, ok := commands[args[1]]; ok {
+				return runMain([]string{args[1], "-h"})
+			}
+		}
+		printTopHelp(os.Stdout)
+		return exitOK
+	case "-version", "--version", "version":
+		fmt.Printf("orbitwatch %s\n", api.BuildVersion())
+		return exitOK
+	}
+	c, ok := commands[args[0]]
 	if !ok {
-		fmt.Fprintf(os.Stderr, "orbitwatch: unknown command %q\n\n", os.Args[1])
-		usage()
-		os.Exit(2)
+		fmt.Fprintf(os.Stderr, "orbitwatch: unknown command %q\nrun orbitwatch -h for the commands\n", args[0])
+		return exitUsage
 	}
 	stop := startProfile()
-	code := c.run(os.Args[2:])
-	stop()
-	os.Exit(code)
-}
-
-func usage() {
-	fmt.Fprintln(os.Stderr, "usage: orbitwatch COMMAND [flags]   (orbitwatch COMMAND -h for a command's flags)")
-	fmt.Fprintln(os.Stderr, "\ncommands:")
-	names := make([]string, 0, len(commands))
-	for n := range commands {
-		names = append(names, n)
-	}
-	sort.Strings(names)
-	for _, n := range names {
-		fmt.Fprintf(os.Stderr, "  %-10s %s\n", n, commands[n].summary)
-	}
-}
-
-// fail prints an error for command name and returns exit code 1.
-func fail(name string, err error) int {
-	fmt.Fprintf(os.Stderr, "orbitwatch %s: %v\n", name, err)
-	return 1
+	defer stop()
+	return c.run(args[1:])
 }

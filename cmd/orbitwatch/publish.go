@@ -34,12 +34,11 @@ func runPublish(args []string) int {
 	replicas := fs.Int("replicas", 1, "replicas of the stream and of the manifest bucket when they are created here: 1, or 3 in a cluster")
 	asJSON := fs.Bool("json", false, "publish the JSON form instead of the compact binary one")
 	manifest := fs.String("manifest", stream.DefaultManifestBucket, "key-value bucket recording how far each log is published, so that a log published again is stored once at any time; empty: rely on event ids within the stream's duplicate window")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
-	if len(inf.inputs) == 0 {
-		fmt.Fprintln(os.Stderr, "orbitwatch publish: --input FILE is required")
-		return 2
+	if err := inf.check(); err != nil {
+		return fail("publish", err)
 	}
 	nc, err := nf.connect("publish")
 	if err != nil {
@@ -97,7 +96,7 @@ func runPublish(args []string) int {
 		return 1
 	}
 	if runErr != nil {
-		return exitCode("publish", runErr)
+		return fail("publish", runErr)
 	}
 	return 0
 }
@@ -178,7 +177,7 @@ func (p *publisher) file(ctx context.Context, path string) error {
 		case errors.As(err, &fe):
 			p.counts.filter(fe.Reason)
 		case err != nil:
-			return fmt.Errorf("%s: %w", path, err)
+			return badInput(fmt.Errorf("%s: %w", path, err))
 		default:
 			if err := p.lp.Event(ctx, ev); err != nil {
 				return err

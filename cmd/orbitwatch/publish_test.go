@@ -60,8 +60,8 @@ func TestPublishJSONAndBadLines(t *testing.T) {
 	}
 
 	out, code := run(t, "publish", "--nats", srv.URL(), "--stream", "STRICT", "--subject", "strict.events", "--input", log, "--strict")
-	if code != 2 || !strings.Contains(out, "line 1001") {
-		t.Fatalf("--strict: exit %d, want 2 naming line 1001\n%s", code, out)
+	if code != exitBadInput || !strings.Contains(out, "line 1001") {
+		t.Fatalf("--strict: exit %d, want 3 (bad input) naming line 1001\n%s", code, out)
 	}
 }
 

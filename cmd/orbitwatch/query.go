@@ -16,7 +16,6 @@ import (
 	"orbitwatch/shard"
 	"orbitwatch/shard/api"
 	"orbitwatch/storage"
-	"orbitwatch/stream"
 )
 
 func init() {
@@ -30,7 +29,7 @@ type NodeVector = api.NodeVector
 
 func runQuery(args []string) int {
 	c := newReadCommand("query", true)
-	node := c.fs.String("node", "", "`ID` of the node to read (required)")
+	node := c.fs.String("node", "", "`ID` of the node to read")
 	asJSON := c.fs.Bool("json", false, "print one JSON object instead of a table")
 	all := c.fs.Bool("all", false, "list orbits with a zero count too")
 	if code := c.parse(args, c.required("node")); code != 0 {
@@ -102,7 +101,7 @@ type readCommand struct {
 
 func newReadCommand(name string, withPoint bool) *readCommand {
 	c := &readCommand{name: name, fs: flag.NewFlagSet(name, flag.ContinueOnError)}
-	c.fs.StringVar(&c.dir, "data", "", "`DIR`: the data directory backfill wrote (required)")
+	c.fs.StringVar(&c.dir, "data", "", "`DIR`: the --data directory of backfill, serve, worker or demo")
 	if withPoint {
 		c.point = &pointFlags{}
 		c.point.register(c.fs)
@@ -110,18 +109,12 @@ func newReadCommand(name string, withPoint bool) *readCommand {
 	return c
 }
 
-// parse parses args and checks --data, the point flags and then checks in
-// order. It returns 0 to go on, else the exit code (2: usage) after
-// printing the reason.
+// parse parses args (the command's required flags are checked by
+// parseFlags), then the point flags and then checks in order. It returns
+// 0 to go on, else the exit code (2: usage) after printing the reason.
 func (c *readCommand) parse(args []string, checks ...func() error) int {
-	if err := c.fs.Parse(args); err != nil {
-		return 2
-	}
-	if c.dir == "" {
-		return c.usage(errors.New("--data DIR is required"))
-	}
-	if c.fs.NArg() > 0 {
-		return c.usage(fmt.Errorf("unexpected argument %q", c.fs.Arg(0)))
+	if code := parseFlags(c.fs, args); code != 0 {
+		return code
 	}
 	if c.point != nil {
 		if err := c.point.check(); err != nil {
@@ -136,23 +129,21 @@ func (c *readCommand) parse(args []string, checks ...func() error) int {
 	return 0
 }
 
-// required is a check that flag name was given.
+// required is a check that flag name was given. (parseFlags checks the
+// flags usages lists as required; this is for flags required only with
+// others.)
 func (c *readCommand) required(name string) func() error {
 	return func() error {
-		given := false
-		c.fs.Visit(func(f *flag.Flag) { given = given || f.Name == name })
-		if !given {
+		if !given(c.fs, name) {
 			return fmt.Errorf("--%s is required", name)
 		}
 		return nil
 	}
 }
 
-// usage prints err and the command's flags and returns exit code 2.
+// usage prints err as a usage error and returns exit code 2.
 func (c *readCommand) usage(err error) int {
-	fmt.Fprintf(os.Stderr, "orbitwatch %s: %v\n", c.name, err)
-	c.fs.Usage()
-	return 2
+	return fail(c.name, usageError(err))
 }
 
 // open opens the data directory read-only and resolves the checkpoint the
@@ -174,31 +165,16 @@ func (c *readCommand) open() (*storage.Store, storage.CheckpointInfo, error) {
 	return st, cut, nil
 }
 
-// openData opens dir read-only and checks that it holds a checkpoint. A
-// missing directory, one that is not an orbitwatch store, or a corrupt one
-// is an error; nothing is written to it.
-func openData(dir string) (*storage.Store, error) {
-	st, err := storage.OpenReadOnly(dir)
-	if err != nil {
-		return nil, err
-	}
-	if len(st.Checkpoints()) == 0 {
-		st.Close()
-		return nil, fmt.Errorf("data directory %s holds no complete checkpoint", dir)
-	}
-	return st, nil
-}
-
 // pointFlags choose a checkpoint: --at TIME (event time) or --seq N (log
 // position); neither means the latest.
 type pointFlags struct {
-	at     string
+	at     timeFlag
 	seq    uint64
 	seqSet bool
 }
 
 func (p *pointFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&p.at, "at", "", "read as of the latest checkpoint whose event-time watermark is ≤ `TIME` (RFC 3339 or Unix seconds/ms)")
+	fs.Var(&p.at, "at", "read as of the latest checkpoint whose event-time watermark is ≤ `TIME`: "+timeForms)
 	fs.Func("seq", "read as of the latest checkpoint at or before log position `N`", func(s string) error {
 		n, err := strconv.ParseUint(s, 10, 64)
 		if err != nil {
@@ -210,13 +186,8 @@ func (p *pointFlags) register(fs *flag.FlagSet) {
 }
 
 func (p *pointFlags) check() error {
-	if p.at != "" && p.seqSet {
+	if p.at.set && p.seqSet {
 		return errors.New("give --at or --seq, not both")
-	}
-	if p.at != "" {
-		if _, err := stream.ParseTime(p.at); err != nil {
-			return fmt.Errorf("--at: %w", err)
-		}
 	}
 	return nil
 }
@@ -238,11 +209,8 @@ func (p *pointFlags) resolve(st *storage.Store) (storage.CheckpointInfo, error) 
 			return storage.CheckpointInfo{}, fmt.Errorf("no checkpoint at or before seq %d: the first checkpoint is at seq %d", p.seq, first.Seq)
 		}
 		seq = p.seq
-	case p.at != "":
-		t, err := stream.ParseTime(p.at)
-		if err != nil {
-			return storage.CheckpointInfo{}, fmt.Errorf("--at: %w", err)
-		}
+	case p.at.set:
+		t := p.at.t
 		s, ok := st.SeqAtTime(t)
 		if !ok {
 			if s > 0 {

@@ -26,17 +26,13 @@ func runServe(args []string) int {
 	var wf workerFlags
 	wf.register(fs)
 	listen := fs.String("nats-listen", "127.0.0.1:4222", "client address of the embedded NATS server (port 0: any free port); it admits holders of DATA/"+natsKeyFile+" only")
-	if err := fs.Parse(args); err != nil {
-		return 2
-	}
-	if wf.data == "" {
-		fmt.Fprintln(os.Stderr, "orbitwatch serve: --data DIR is required")
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
 	if code := wf.checkAPI("serve"); code != 0 {
 		return code
 	}
-	state := filepath.Join(wf.data, "state")
+	state := filepath.Join(wf.data, storeDir)
 	// The key is made on first start and kept beside the stores: publish
 	// and worker reach this server with --nkey DATA/nats-user.nk.
 	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(wf.data, "nats"), Listen: *listen, NKeyFile: filepath.Join(wf.data, natsKeyFile)})
@@ -60,15 +56,11 @@ func runServe(args []string) int {
 // SIGTERM, for tests that restart the server under running workers.
 func runNATSServer(args []string) int {
 	fs := flag.NewFlagSet("nats-server", flag.ContinueOnError)
-	store := fs.String("store", "", "JetStream store directory")
+	store := fs.String("store", "", "JetStream store `DIR`")
 	listen := fs.String("listen", "127.0.0.1:4222", "client address (beyond loopback only with --nkey)")
 	nkey := fs.String("nkey", "", "admit only holders of the NATS user nkey in this seed file, made (0600) when missing; default: anyone on loopback")
-	if err := fs.Parse(args); err != nil {
-		return 2
-	}
-	if *store == "" {
-		fmt.Fprintln(os.Stderr, "orbitwatch nats-server: --store DIR is required")
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
 	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: *store, Listen: *listen, NKeyFile: *nkey})
 	if err != nil {

@@ -31,23 +31,21 @@ func runVerify(args []string) int {
 	if counting.Catalog.NumOrbits() != set.NumOrbits {
 		return fail("verify", fmt.Errorf("the store records %d orbits, the catalog for %s up to %d nodes has %d", set.NumOrbits, set.Kind, set.MaxNodes, counting.Catalog.NumOrbits()))
 	}
-	// The reporter's events are the phases done: loaded (the counter
-	// restored from the stored records, which Restore holds to the stored
-	// adjacency), recounted, compared.
-	prog := progress.New(os.Stderr, 0, "verify phases")
+	// The reporter counts the nodes compared; they are compared at once,
+	// after the counter is restored from the stored records (which
+	// Restore holds to the stored adjacency) and the graph recounted.
+	prog := progress.New(os.Stderr, 0, "verify", progress.WithUnit("nodes"))
 	a, cut, err := shard.StateAt(st, counting, st.Seq())
 	if err != nil {
 		prog.Done()
 		return fail("verify", err)
 	}
-	prog.Add(1, 0)
 	rec := counting.Recount.Recount(a.Graph())
-	prog.Add(1, 0)
 	derived, err := a.Vectors()
 	if err == nil {
 		err = compare(a.Names(), derived, rec)
 	}
-	prog.Add(1, 0)
+	prog.Add(int64(a.Dict().Len()), 0)
 	prog.Done()
 	if errors.Is(err, errMismatch) {
 		return fail("verify", fmt.Errorf("checkpoint %d: vectors derived from the stored records differ from the recount: %w", cut.Seq, err))

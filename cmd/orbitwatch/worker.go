@@ -85,7 +85,8 @@ type workerFlags struct {
 	counting countingFlags
 	data     string
 	http     string
-	window   string
+	window   spanFlag
+	keep     spanFlag
 	stream   string
 	subject  string
 	deploy   string
@@ -98,9 +99,10 @@ type workerFlags struct {
 
 func (f *workerFlags) register(fs *flag.FlagSet) {
 	f.counting.register(fs)
-	fs.StringVar(&f.data, "data", "", "data directory (created when missing)")
+	fs.StringVar(&f.data, "data", "", "data `DIR` (created when missing)")
 	fs.StringVar(&f.http, "http", "127.0.0.1:7474", "address of the HTTP API; empty for none")
-	fs.StringVar(&f.window, "window", "", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
+	fs.Var(&f.window, "window", "event-time window after which an add expires, e.g. 30d or 12h (default: none)")
+	registerKeepHistory(fs, &f.keep)
 	fs.StringVar(&f.stream, "stream", shard.DefaultStream, "JetStream stream of the event log")
 	fs.StringVar(&f.subject, "subject", shard.DefaultSubject, "subject of the event log")
 	fs.StringVar(&f.deploy, "deployment", "", "name of this set of workers (its rejects stream); default: the stream name")
@@ -186,16 +188,14 @@ func runWorker(args []string) int {
 	shardFlag := fs.Int("shard", -1, "this worker's shard, 0 ≤ shard < shards")
 	shards := fs.Int("shards", 0, "the number of workers that share the alert scoring (each applies the whole log)")
 	replicas := fs.Int("replicas", 1, "replicas of the streams created when absent: 1, or 3 in a cluster")
-	if err := fs.Parse(args); err != nil {
-		return 2
+	if code := parseFlags(fs, args); code != 0 {
+		return code
 	}
-	if wf.data == "" || *shards < 1 || *shardFlag < 0 || *shardFlag >= *shards {
-		fmt.Fprintln(os.Stderr, "orbitwatch worker: --data DIR, --shards N ≥ 1 and --shard i with 0 ≤ i < N are required")
-		return 2
+	if *shards < 1 || *shardFlag < 0 || *shardFlag >= *shards {
+		return fail("worker", usagef("--shards N ≥ 1 and --shard i with 0 ≤ i < N are required (given --shard %d --shards %d)", *shardFlag, *shards))
 	}
 	if *replicas != 1 && *replicas != 3 {
-		fmt.Fprintln(os.Stderr, "orbitwatch worker: --replicas is 1 or 3")
-		return 2
+		return fail("worker", usagef("--replicas is 1 or 3, not %d", *replicas))
 	}
 	if code := wf.checkAPI("worker"); code != 0 {
 		return code
@@ -242,10 +242,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 			fmt.Fprintf(os.Stderr, "orbitwatch %s: warning: bearer tokens cross the network in clear over plain HTTP on %s; serve HTTPS (--http-cert, --http-key) or put a TLS proxy in front\n", name, wf.http)
 		}
 	}
-	window, err := parseDays(wf.window)
-	if err != nil {
-		return fail(name, fmt.Errorf("--window: %w", err))
-	}
+	window := wf.window.d
 	c, err := wf.counting.counting()
 	if err != nil {
 		return fail(name, err)
@@ -257,6 +254,7 @@ func runShard(name string, nc *nats.Conn, wf *workerFlags, cfg shard.WorkerConfi
 	defer st.Close()
 	cfg.Conn, cfg.Stream, cfg.Subject, cfg.Cuts = nc, wf.stream, wf.subject, wf.cuts.cuts()
 	cfg.Counting, cfg.Window, cfg.Store, cfg.Deployment = c, window, st, wf.deploy
+	cfg.KeepHistory = wf.keep.d
 	cfg.Logf = func(format string, args ...any) {
 		fmt.Fprintf(os.Stderr, "orbitwatch %s: shard %d: %s\n", name, cfg.Shard, fmt.Sprintf(format, args...))
 	}
