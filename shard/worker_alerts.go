@@ -82,21 +82,28 @@ func (s *AlertStage) Restore(st *storage.Store, state *storage.State) error {
 	if s.pending, err = decodeNodes(state.Blobs[pendingBlob]); err != nil {
 		return fmt.Errorf("stored alert state: pending nodes: %w", err)
 	}
+	return s.rebuild(st, storage.CheckpointInfo{Seq: state.Seq, Watermark: state.Watermark})
+}
+
+// rebuild sets the baseline state and queue for a stage whose applier is
+// at cut at of st.
+func (s *AlertStage) rebuild(st *storage.Store, at storage.CheckpointInfo) error {
 	s.base, s.queue = nil, nil
-	if !s.lookback() || state.Seq == 0 {
+	if !s.lookback() || at.Seq == 0 {
 		return nil
 	}
 	var from uint64
-	if c, ok := baseCut(st.Checkpoints(), state.Watermark.Add(-s.ev.Config().Lookback), state.Seq); ok {
+	if c, ok := baseCut(st.Checkpoints(), at.Watermark.Add(-s.ev.Config().Lookback), at.Seq); ok {
+		var err error
 		if s.base, _, err = StateAt(st, s.count, c.Seq); err != nil {
 			return fmt.Errorf("alert baseline state at cut %d: %w", c.Seq, err)
 		}
 		from = c.Seq
 	}
-	changes, err := st.ChangesBetween(from, state.Seq)
+	changes, err := st.ChangesBetween(from, at.Seq)
 	if err != nil {
 		if errors.Is(err, storage.ErrRetention) {
-			return fmt.Errorf("alert baselines need the history a look-back (%v) before the last cut, which was discarded (raise --keep-history): %w", s.ev.Config().Lookback, err)
+			return fmt.Errorf("alert baselines need the history a look-back (%v) before cut %d, which was discarded (raise --keep-history): %w", s.ev.Config().Lookback, at.Seq, err)
 		}
 		return fmt.Errorf("alert baselines: %w", err)
 	}
