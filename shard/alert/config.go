@@ -37,17 +37,18 @@ const (
 	// Signature scores the GDV distance (gdv.Metric) between the vector and
 	// its baseline, in [0, 1].
 	Signature RuleKind = iota
-	// OrbitCount scores the node's count of one orbit.
+	// OrbitCount scores the rule's count c: the node's count of one
+	// orbit, plus the weighted counts of the orbits of Rule.With.
 	OrbitCount
-	// OrbitGrowth scores now/max(before, 1) for one orbit, before being
-	// the baseline's count (0 when there is no baseline: the node had
+	// OrbitGrowth scores now/max(before, 1) for the rule's count, before
+	// being the baseline's (0 when there is no baseline: the node had
 	// nothing).
 	OrbitGrowth
-	// OrbitShare scores the share of one orbit's count among weighted
+	// OrbitShare scores the share of the rule's count c among weighted
 	// counts of related orbits of the node's own vector (see
 	// Rule.Against):
 	//
-	//	score = c_o / (c_o + Σ_a w_a·c_a)   (0 when the sum is 0)
+	//	score = c / (c + Σ_a w_a·c_a)   (0 when the sum is 0)
 	//
 	// in [0, 1]. With the 4-cycle against the other ways a node's
 	// 2-paths go on (RingAgainst), it measures how closed the node's
@@ -70,9 +71,20 @@ type Rule struct {
 	Kind RuleKind
 	// Orbit is the orbit id of an orbit rule (unused for Signature).
 	Orbit int
-	// Against are the weighted orbits an OrbitShare rule sets Orbit's
-	// count against (unused for the other kinds): distinct, none of them
-	// Orbit, weights finite and > 0.
+	// With are further orbits of an orbit rule whose weighted counts add
+	// to Orbit's to make the rule's count (unused for Signature):
+	//
+	//	c = c_Orbit + Σ_w w·c_w
+	//
+	// so that one rule can measure a quantity that several orbits share,
+	// such as the pairs of payers of a node (three orbits of the directed
+	// catalog, see DirectedRules). Count and growth rules score c, share
+	// rules set c against Against, and MinCount gates c. Distinct, none of
+	// them Orbit or in Against, weights finite and > 0.
+	With []OrbitWeight
+	// Against are the weighted orbits an OrbitShare rule sets its count
+	// against (unused for the other kinds): distinct, none of them Orbit,
+	// weights finite and > 0.
 	Against []OrbitWeight
 	// Fire and Rearm are levels on the rule's score: Signature in (0, 1],
 	// OrbitCount ≥ 1, OrbitGrowth > 1; 0 ≤ Rearm < Fire.
@@ -180,6 +192,10 @@ type Config struct {
 //     (4-cycle count ≥ 8 through one node; random background reached 5)
 //     and clique (K4 count ≥ 2: the node is in a nearly complete group of
 //     five; random background reached 0).
+//   - For directed catalogs, the flow rules of DirectedRules (fan-out,
+//     fan-in, pass-through, round-trip); for signed ones, the dispute
+//     rules of SignedRules (chargeback-star, dispute-ring,
+//     unbalanced-triangles). Every orbit rule has the gates above.
 const (
 	DefaultLookback     = time.Hour
 	DefaultHalfLife     = time.Hour
@@ -204,13 +220,22 @@ func DefaultConfig(cat *catalog.Catalog) Config {
 		MaxPerMinute: DefaultMaxPerMinute, TopOrbits: min(DefaultTopOrbits, cat.NumOrbits()),
 		Rules: []Rule{gate(Rule{Name: "signature-shift", Kind: Signature, Fire: 0.36, Rearm: 0.26})},
 	}
-	if cat.Kind == delta.Undirected && cat.MaxNodes >= 4 {
+	var more []Rule
+	switch {
+	case cat.Kind == delta.Undirected && cat.MaxNodes >= 4:
 		star, cycle, k4 := mustOrbit(cat, "centre of 3-star"), mustOrbit(cat, "4-cycle"), mustOrbit(cat, "K4")
-		cfg.Rules = append(cfg.Rules,
-			gate(Rule{Name: "fan-out", Kind: OrbitGrowth, Orbit: star, Fire: 8, Rearm: 3, MinCount: 200}),
-			gate(Rule{Name: "ring", Kind: OrbitCount, Orbit: cycle, Fire: 8, Rearm: 4}),
-			gate(Rule{Name: "clique", Kind: OrbitCount, Orbit: k4, Fire: 2, Rearm: 1}),
-		)
+		more = []Rule{
+			{Name: "fan-out", Kind: OrbitGrowth, Orbit: star, Fire: 8, Rearm: 3, MinCount: 200},
+			{Name: "ring", Kind: OrbitCount, Orbit: cycle, Fire: 8, Rearm: 4},
+			{Name: "clique", Kind: OrbitCount, Orbit: k4, Fire: 2, Rearm: 1},
+		}
+	case cat.Kind == delta.Directed:
+		more = DirectedRules(cat)
+	case cat.Kind == delta.Signed:
+		more = SignedRules(cat)
+	}
+	for _, r := range more {
+		cfg.Rules = append(cfg.Rules, gate(r))
 	}
 	return cfg
 }
@@ -223,9 +248,17 @@ func mustOrbit(cat *catalog.Catalog, name string) int {
 	return id
 }
 
+// orbitByName returns the orbit whose name, or else whose short name
+// (catalog.Orbit.Short: a directed orbit in payer and payee words), is
+// name.
 func orbitByName(cat *catalog.Catalog, name string) (int, bool) {
 	for _, o := range cat.Orbits {
 		if o.Name == name {
+			return o.ID, true
+		}
+	}
+	for _, o := range cat.Orbits {
+		if o.Short == name {
 			return o.ID, true
 		}
 	}
@@ -288,6 +321,8 @@ func (r *Rule) check(cat *catalog.Catalog) (key, msg string) {
 		return "against", "an orbit-share rule needs at least one orbit to set against"
 	case r.Kind != OrbitShare && len(r.Against) > 0:
 		return "against", fmt.Sprintf("against is only for orbit-share rules, not %s", r.Kind)
+	case r.Kind == Signature && len(r.With) > 0:
+		return "with", "with is only for orbit rules, not signature"
 	case math.IsNaN(r.Rearm) || r.Rearm < 0 || r.Rearm >= r.Fire:
 		return "rearm", fmt.Sprintf("rearm %v must be in [0, fire %v)", r.Rearm, r.Fire)
 	case r.MinDegree < 0:
@@ -295,20 +330,38 @@ func (r *Rule) check(cat *catalog.Catalog) (key, msg string) {
 	case r.Cooldown < 0:
 		return "cooldown", "cooldown must not be negative"
 	}
-	for i, a := range r.Against {
+	if msg := checkWeights("with", r.With, r.Orbit, nil, cat); msg != "" {
+		return "with", msg
+	}
+	if msg := checkWeights("against", r.Against, r.Orbit, r.With, cat); msg != "" {
+		return "against", msg
+	}
+	return "", ""
+}
+
+// checkWeights reports the first thing wrong with the weighted orbits ws
+// listed under key: an orbit out of range, the rule's own orbit, one of
+// the orbits of taken or an orbit twice, a weight not finite and > 0.
+func checkWeights(key string, ws []OrbitWeight, own int, taken []OrbitWeight, cat *catalog.Catalog) string {
+	for i, a := range ws {
 		switch {
 		case a.Orbit < 0 || a.Orbit >= cat.NumOrbits():
-			return "against", fmt.Sprintf("against orbit %d out of range 0..%d", a.Orbit, cat.NumOrbits()-1)
-		case a.Orbit == r.Orbit:
-			return "against", fmt.Sprintf("against lists the rule's own orbit %d", a.Orbit)
+			return fmt.Sprintf("%s orbit %d out of range 0..%d", key, a.Orbit, cat.NumOrbits()-1)
+		case a.Orbit == own:
+			return fmt.Sprintf("%s lists the rule's own orbit %d", key, a.Orbit)
 		case math.IsNaN(a.Weight) || math.IsInf(a.Weight, 0) || a.Weight <= 0:
-			return "against", fmt.Sprintf("against weight %v of orbit %d must be a finite number > 0", a.Weight, a.Orbit)
+			return fmt.Sprintf("%s weight %v of orbit %d must be a finite number > 0", key, a.Weight, a.Orbit)
 		}
-		for _, b := range r.Against[:i] {
+		for _, b := range ws[:i] {
 			if b.Orbit == a.Orbit {
-				return "against", fmt.Sprintf("against lists orbit %d twice", a.Orbit)
+				return fmt.Sprintf("%s lists orbit %d twice", key, a.Orbit)
+			}
+		}
+		for _, b := range taken {
+			if b.Orbit == a.Orbit {
+				return fmt.Sprintf("%s lists orbit %d, which with already counts", key, a.Orbit)
 			}
 		}
 	}
-	return "", ""
+	return ""
 }

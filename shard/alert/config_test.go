@@ -40,7 +40,7 @@ func TestEmptyConfigIsDefault(t *testing.T) {
 	for _, c := range []struct {
 		kind delta.Kind
 		k    int
-	}{{delta.Undirected, 4}, {delta.Undirected, 5}, {delta.Directed, 3}} {
+	}{{delta.Undirected, 4}, {delta.Undirected, 5}, {delta.Directed, 3}, {delta.Directed, 4}, {delta.Signed, 3}, {delta.Signed, 4}} {
 		cat, err := catalog.New(c.kind, c.k)
 		if err != nil {
 			t.Fatal(err)
@@ -56,7 +56,9 @@ func TestEmptyConfigIsDefault(t *testing.T) {
 			alert.New(got, cat)
 		}
 		rules := len(alert.DefaultConfig(cat).Rules)
-		if want := map[bool]int{true: 4, false: 1}[c.kind == delta.Undirected]; rules != want {
+		// The signature shift and the kind's orbit rules (DirectedRules,
+		// SignedRules).
+		if want := map[delta.Kind]int{delta.Undirected: 4, delta.Directed: 5, delta.Signed: 4}[c.kind]; rules != want {
 			t.Fatalf("%v %d: %d default rules, want %d", c.kind, c.k, rules, want)
 		}
 	}

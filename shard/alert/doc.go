@@ -1,12 +1,15 @@
 // Package alert decides, at each cut, which touched nodes changed their
 // structural role enough to tell an investigator: a signature shift (the
 // GDV distance of Milenković & Pržulj 2008 between a node's orbit vector and
-// its baseline), or an orbit rule (the count of one orbit, its growth
-// against the baseline, or its share among weighted related orbits of the
-// node's own vector, above a level: the share of the 4-cycle among the
-// ways a node's 2-paths go on tells a ring from a customer of a busy
-// shop, see RingAgainst). Rules come from a YAML file or from
-// DefaultConfig; gates (minimum degree and total count), hysteresis, a
+// its baseline), or an orbit rule (the count of one orbit, or of a
+// weighted sum of orbits, its growth against the baseline, or its share
+// among weighted related orbits of the node's own vector, above a level:
+// the share of the 4-cycle among the ways a node's 2-paths go on tells a
+// ring from a customer of a busy shop, see RingAgainst). Rules come from a
+// YAML file or from DefaultConfig, which has rules for each graph kind:
+// rings and cliques on undirected graphs, flows of money on directed ones
+// (DirectedRules: fan-out, fan-in, pass-through, round-trip) and disputes
+// on signed ones (SignedRules); gates (minimum degree and total count), hysteresis, a
 // per-node cool-down and a cap on alerts per minute of event time damp
 // them. An Alert names the node, the cut, the rule, the score and the
 // orbits that moved most, with their plain names from the catalog.

@@ -2,6 +2,7 @@ package alert
 
 import (
 	"math"
+	"slices"
 	"sort"
 	"time"
 
@@ -85,6 +86,7 @@ func New(cfg Config, cat *catalog.Catalog) *Evaluator {
 	cfg.Rules = append([]Rule(nil), cfg.Rules...)
 	for i := range cfg.Rules {
 		cfg.Rules[i].Against = append([]OrbitWeight(nil), cfg.Rules[i].Against...)
+		cfg.Rules[i].With = append([]OrbitWeight(nil), cfg.Rules[i].With...)
 	}
 	n := cat.NumOrbits()
 	e := &Evaluator{
@@ -230,19 +232,29 @@ func (e *Evaluator) score(r *Rule, nc *NodeChange, total uint64, dist float64, s
 	if nc.Degree < r.MinDegree || total < r.MinTotal {
 		return 0, false
 	}
-	switch r.Kind {
-	case Signature:
+	if r.Kind == Signature {
 		return dist, signed
-	case OrbitCount:
-		c := nc.Now[r.Orbit]
-		return float64(c), c >= r.MinCount
-	case OrbitGrowth:
-		c := nc.Now[r.Orbit]
-		return float64(c) / math.Max(e.base[r.Orbit], 1), c >= r.MinCount
-	default:
-		c := nc.Now[r.Orbit]
-		return Share(nc.Now, r.Orbit, r.Against), c >= r.MinCount
 	}
+	c := weighted(nc.Now, r.Orbit, r.With)
+	gate := c >= float64(r.MinCount)
+	switch r.Kind {
+	case OrbitCount:
+		return c, gate
+	case OrbitGrowth:
+		return c / math.Max(weighted(e.base, r.Orbit, r.With), 1), gate
+	default:
+		return shareOf(c, nc.Now, r.Against), gate
+	}
+}
+
+// weighted returns v_o + Σ_w w·v_w over the orbits of with: a rule's
+// count (Rule.With).
+func weighted[T uint64 | float64](v []T, o int, with []OrbitWeight) float64 {
+	c := float64(v[o])
+	for _, w := range with {
+		c += w.Weight * float64(v[w.Orbit])
+	}
+	return c
 }
 
 // Share returns the OrbitShare score of vector v for orbit o against the
@@ -252,7 +264,11 @@ func (e *Evaluator) score(r *Rule, nc *NodeChange, total uint64, dist float64, s
 //
 // and 0 when that sum is 0. Every orbit must be an index of v.
 func Share(v []uint64, o int, against []OrbitWeight) float64 {
-	c := float64(v[o])
+	return shareOf(float64(v[o]), v, against)
+}
+
+// shareOf returns c / (c + Σ_a w_a·v_a), 0 when that sum is 0.
+func shareOf(c float64, v []uint64, against []OrbitWeight) float64 {
 	sum := c
 	for _, a := range against {
 		sum += a.Weight * float64(v[a.Orbit])
@@ -335,16 +351,25 @@ func (e *Evaluator) alert(cut Cut, nc *NodeChange, r *Rule, score float64, hasBa
 	if hasBase {
 		a.Baseline = e.cfg.Baseline.String()
 	}
+	// An orbit rule lists its own orbits first: Orbit, then those of With
+	// that the node holds now or held before.
+	var own []int
+	if r.Kind != Signature {
+		own = append(own, r.Orbit)
+		for _, w := range r.With {
+			if nc.Now[w.Orbit] > 0 || e.base[w.Orbit] > 0 {
+				own = append(own, w.Orbit)
+			}
+		}
+	}
 	order := make([]int, 0, len(e.contrib))
 	for i, c := range e.contrib {
-		if c > 0 && (r.Kind == Signature || i != r.Orbit) {
+		if c > 0 && !slices.Contains(own, i) {
 			order = append(order, i)
 		}
 	}
 	sort.SliceStable(order, func(x, y int) bool { return e.contrib[order[x]] > e.contrib[order[y]] })
-	if r.Kind != Signature {
-		order = append([]int{r.Orbit}, order...)
-	}
+	order = append(own, order...)
 	for _, i := range order[:min(len(order), e.cfg.TopOrbits)] {
 		o := e.cat.Orbits[i]
 		a.Orbits = append(a.Orbits, OrbitMove{

@@ -53,6 +53,14 @@ func LoadConfig(path string, cat *catalog.Catalog) (Config, error) {
 //	      degree-2 node of diamond: 1
 //	    fire: 0.5               # in (0, 1]
 //	    min_count: 8
+//	  - name: fan-in
+//	    kind: orbit-growth
+//	    orbit: centre of an in-star with 2 payers
+//	    with:                   # orbits whose counts add to orbit's: a list
+//	      - paid by A and B; A pays B   # (weight 1) or a mapping to weights
+//	      - paid by A and B; A two-way with B
+//	    fire: 8
+//	    min_count: 200
 //
 // Every key is optional; omitted settings take the DefaultConfig values,
 // and without a rules list the default rules of cat apply. An unknown key,
@@ -268,7 +276,9 @@ func (p *parser) rules(n *yaml.Node, gates Rule) ([]Rule, error) {
 			case "min_count":
 				return p.count(v, &r.MinCount)
 			case "against":
-				return p.against(v, &r.Against)
+				return p.weights(v, "against", &r.Against)
+			case "with":
+				return p.weights(v, "with", &r.With)
 			default:
 				return p.gate(key, v, &r)
 			}
@@ -297,13 +307,13 @@ func (p *parser) rules(n *yaml.Node, gates Rule) ([]Rule, error) {
 	return out, nil
 }
 
-// against reads the orbits of an orbit-share rule: a list of orbits
-// (each of weight 1) or a mapping of orbits to weights.
-func (p *parser) against(n *yaml.Node, out *[]OrbitWeight) error {
+// weights reads the weighted orbits of a rule's key (against, with): a
+// list of orbits (each of weight 1) or a mapping of orbits to weights.
+func (p *parser) weights(n *yaml.Node, key string, out *[]OrbitWeight) error {
 	switch n.Kind {
 	case yaml.SequenceNode:
 		if len(n.Content) == 0 {
-			return lineErr(n, "against is an empty list")
+			return lineErr(n, "%s is an empty list", key)
 		}
 		for _, on := range n.Content {
 			w := OrbitWeight{Weight: 1}
@@ -314,7 +324,7 @@ func (p *parser) against(n *yaml.Node, out *[]OrbitWeight) error {
 		}
 	case yaml.MappingNode:
 		if len(n.Content) == 0 {
-			return lineErr(n, "against is an empty mapping")
+			return lineErr(n, "%s is an empty mapping", key)
 		}
 		for i := 0; i+1 < len(n.Content); i += 2 {
 			var w OrbitWeight
@@ -327,7 +337,7 @@ func (p *parser) against(n *yaml.Node, out *[]OrbitWeight) error {
 			*out = append(*out, w)
 		}
 	default:
-		return lineErr(n, "against must be a list of orbits or a mapping of orbits to weights")
+		return lineErr(n, "%s must be a list of orbits or a mapping of orbits to weights", key)
 	}
 	return nil
 }
