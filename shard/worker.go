@@ -95,6 +95,11 @@ type Worker struct {
 	owners []int32 // owning shard by dense node id, filled as ids appear
 	base   Stats   // counts up to the cut this process started from
 
+	// similar and stored answer nearest-signature queries now and as of
+	// a cut (similar.go).
+	similar *LiveSignatures
+	stored  *StoredSignatures
+
 	// taken lists the cuts handed to the committer and not yet durable,
 	// with what the status and the alerts need of them.
 	takenMu sync.Mutex
@@ -159,6 +164,8 @@ func NewWorker(cfg WorkerConfig) (*Worker, error) {
 		return nil, err
 	}
 	w := &Worker{cfg: cfg, js: js, a: a, derive: cfg.Counting.New(), started: time.Now()}
+	w.similar = NewLiveSignatures(cfg.Counting)
+	w.stored = NewStoredSignatures(cfg.Store, cfg.Counting, w.similar.Metric())
 	if cfg.Alerts != nil {
 		w.alerts = NewAlertStage(cfg.Alerts, cfg.Counting)
 		if err := w.alerts.Restore(cfg.Store, state); err != nil {
@@ -349,6 +356,7 @@ func (w *Worker) onCut(cp *storage.Checkpoint) error {
 	}
 	cp.Blobs[workerBlob] = rec
 	tc := takenCut{seq: cp.Seq, watermark: cp.Watermark, stats: st, readAt: w.readAt}
+	w.similar.Cut(cp)
 	if w.alerts != nil {
 		if tc.alerts, err = w.alerts.Evaluate(w.a, cp, w.owned, time.Now()); err != nil {
 			return fmt.Errorf("cut %d: %w", cp.Seq, err)

@@ -75,6 +75,17 @@ const ShardHeader = "Orbitwatch-Shard"
 //	                     not drawn (shard.Neighbors); now from the worker's
 //	                     graph (v must be a shard.NeighborReader), ?at= or
 //	                     ?seq= as of a cut from the store
+//	GET /v1/nodes/{id}/similar    the ?k=N (default 20, at most
+//	                     MaxSimilar) nodes whose signatures are nearest,
+//	                     with ?min_degree=N (default 1) neighbours or more,
+//	                     now or ?at=TIME / ?seq=N as of a cut (v must be a
+//	                     shard.SimilarReader); see SimilarJSON
+//	GET /v1/drift        GCD-11 between two stored cuts, ?from=TIME&to=TIME
+//	                     or ?from_seq=N&to_seq=N (default the first and the
+//	                     last); see DriftJSON
+//	GET /v1/drift/series GCD-11 at every ?every=SPAN from ?from=TIME to
+//	                     ?to=TIME (default the first and last cut's event
+//	                     time); see DriftSeriesJSON
 //	GET /v1/alerts       this shard's stored alerts, newest first, each
 //	                     with "triage", its verdict in force or null:
 //	                     ?since=SEQ (cuts after it) or ?since=TIME (event
@@ -124,6 +135,9 @@ func New(v shard.View, opts Options) http.Handler {
 	mux.HandleFunc("/v1/nodes/{id...}", a.get(a.node))
 	mux.HandleFunc("/v1/nodes/{id}/history", a.get(a.history))
 	mux.HandleFunc("/v1/nodes/{id}/neighbors", a.get(a.neighbors))
+	mux.HandleFunc("/v1/nodes/{id}/similar", a.get(a.similar))
+	mux.HandleFunc("/v1/drift", a.get(a.drift))
+	mux.HandleFunc("/v1/drift/series", a.get(a.driftSeries))
 	mux.HandleFunc("/v1/alerts", a.get(a.alerts))
 	mux.HandleFunc("/v1/alerts/{id}", a.get(a.oneAlert))
 	mux.HandleFunc("/v1/alerts/{id}/triage", a.triage)
