@@ -69,7 +69,7 @@ func runBackfill(args []string) int {
 	}
 	// Every input is checked before anything is applied, so a file that is
 	// not an edge log changes no state.
-	hashes, total, err := checkInputs(inf)
+	hashes, total, err := checkInputs(&inf)
 	if err != nil {
 		return fail("backfill", err)
 	}
@@ -195,19 +195,19 @@ func (b *backfill) cut(cp *storage.Checkpoint) error {
 
 // checkInputs opens every input once (a bad header is an error here, before
 // any state changes) and hashes its content.
-func checkInputs(inf inputFlags) ([]string, int64, error) {
+func checkInputs(inf *inputFlags) ([]string, int64, error) {
 	if len(inf.inputs) == 0 {
-		return nil, 0, errors.New("no --input given")
+		return nil, 0, usagef("--input FILE is required")
 	}
 	var total int64
 	hashes := make([]string, len(inf.inputs))
 	for i, path := range inf.inputs {
 		if path == "-" {
-			return nil, 0, errors.New("backfill reads files, not standard input: it must know a file again after a crash")
+			return nil, 0, usagef("--input -: backfill reads files, not standard input: it must know a file again after a crash")
 		}
-		r, err := stream.Open(path, inf.options())
+		r, err := inf.open(path)
 		if err != nil {
-			return nil, 0, fmt.Errorf("%s: %w", path, err)
+			return nil, 0, err
 		}
 		r.Close()
 		h, err := stream.HashFile(path)

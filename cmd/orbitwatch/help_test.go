@@ -166,6 +166,8 @@ func TestExitCodes(t *testing.T) {
 		{[]string{"count", "--input", good, "--format", "xml"}, exitUsage, "--format must be csv or jsonl"},
 		{[]string{"replay", "--input", good, "--out", filepath.Join(dir, "r"), "--checkpoint-every", "0"}, exitUsage, "--checkpoint-every must be positive"},
 		{[]string{"count", "--input", noCol}, exitBadInput, "map one with --src-column"},
+		{[]string{"backfill", "--data", filepath.Join(dir, "d"), "--input", noCol}, exitBadInput, "no column src (columns found: payer, payee); map one with --src-column"},
+		{[]string{"backfill", "--data", filepath.Join(dir, "d"), "--input", "-"}, exitUsage, "not standard input"},
 		{[]string{"count", "--input", bad, "--strict"}, exitBadInput, "line 3: self-loop"},
 		{[]string{"count", "--input", bad}, exitOK, ""},
 	} {
