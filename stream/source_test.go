@@ -462,3 +462,42 @@ func TestLargeLogBoundedBuffer(t *testing.T) {
 		t.Errorf("a line buffer of %d bytes was made for lines that fit the read buffer", c)
 	}
 }
+
+// TestOptionsCheck: Check refuses the options that can read nothing and
+// passes the rest, and NewReader refuses with Check's error before it
+// reads a byte.
+func TestOptionsCheck(t *testing.T) {
+	for _, c := range []struct {
+		opts Options
+		want string // "" for none
+	}{
+		{Options{}, ""},
+		{Options{Format: "jsonl", Columns: map[string]string{"src": "payer", "amount": "value"}, MinAmount: "12.50"}, ""},
+		{Options{Format: "xml"}, `unknown format "xml"`},
+		{Options{Columns: map[string]string{"payer": "src"}}, `unknown key "payer"`},
+		{Options{Columns: map[string]string{"src": "dst"}}, `keys src and dst both read "dst"`},
+		{Options{Columns: map[string]string{"src": ""}}, `empty name for key "src"`},
+		{Options{MinAmount: "ten"}, `minimum amount "ten" is not a decimal number`},
+		{Options{MinAmount: "1e3"}, `minimum amount "1e3" is not a decimal number`},
+		{Options{Columns: map[string]string{"amount": "value"}}, "none is given"},
+	} {
+		err := c.opts.Check()
+		if (err == nil) != (c.want == "") || (err != nil && !strings.Contains(err.Error(), c.want)) {
+			t.Errorf("%+v: Check() = %v, want %q", c.opts, err, c.want)
+			continue
+		}
+		r, rerr := NewReader("log", failingReader{}, c.opts)
+		if c.want != "" && (rerr == nil || rerr.Error() != err.Error()) {
+			t.Errorf("%+v: NewReader error %v, want Check's %v", c.opts, rerr, err)
+		}
+		if r != nil {
+			r.Close()
+		}
+	}
+}
+
+// failingReader fails every read: NewReader must refuse bad options
+// before it reads.
+type failingReader struct{}
+
+func (failingReader) Read([]byte) (int, error) { return 0, errors.New("read") }

@@ -161,6 +161,7 @@ func TestExitCodes(t *testing.T) {
 		{[]string{"count", "--input", filepath.Join(dir, "missing.csv")}, exitFailure, "no such file"},
 		{[]string{"count", "--input", good, "--max-nodes", "9"}, exitUsage, "--max-nodes"},
 		{[]string{"catalog", "--kind", "bipartite"}, exitUsage, "--kind"},
+		{[]string{"catalog", "--max-nodes", "9"}, exitUsage, "orbitwatch catalog: --max-nodes: undirected graphlets on 2..9 nodes are not supported"},
 		{[]string{"count", "--input", good, "--amount-column", "value"}, exitUsage, "give --min-amount too"},
 		{[]string{"count", "--input", good, "--min-amount", "ten"}, exitUsage, "--min-amount"},
 		{[]string{"count", "--input", good, "--format", "xml"}, exitUsage, "--format must be csv or jsonl"},
