@@ -6,6 +6,7 @@ import (
 	"net/http"
 	"net/url"
 	"strconv"
+	"strings"
 	"time"
 
 	"orbitwatch/delta/catalog"
@@ -118,11 +119,27 @@ type DriftPoint struct {
 
 // NewDriftSeriesJSON returns the body for the points of a series.
 func NewDriftSeriesJSON(pts []shard.DriftPoint, every time.Duration, cat *catalog.Catalog) DriftSeriesJSON {
-	out := DriftSeriesJSON{Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes, Every: every.String(), Points: make([]DriftPoint, len(pts))}
+	out := DriftSeriesJSON{Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes, Every: FormatSpan(every), Points: make([]DriftPoint, len(pts))}
 	for i, p := range pts {
 		out.Points[i] = DriftPoint{At: p.At.UTC(), Seq: p.Cut.Seq, EventTime: optTime(p.Cut.Watermark), Nodes: p.Nodes, GCD11Previous: p.Previous, GCD11First: p.First}
 	}
 	return out
+}
+
+// FormatSpan writes a span as stream.ParseSpan reads it back: whole days
+// as "1d", else Go's form without zero minutes or seconds ("12h", "1h30m").
+func FormatSpan(d time.Duration) string {
+	if d > 0 && d%(24*time.Hour) == 0 {
+		return strconv.FormatInt(int64(d/(24*time.Hour)), 10) + "d"
+	}
+	s := d.String()
+	if strings.HasSuffix(s, "m0s") {
+		s = strings.TrimSuffix(s, "0s")
+	}
+	if strings.HasSuffix(s, "h0m") {
+		s = strings.TrimSuffix(s, "0m")
+	}
+	return s
 }
 
 // drift answers GET /v1/drift?from=TIME&to=TIME (or from_seq, to_seq):

@@ -99,7 +99,7 @@ func TestAPIDrift(t *testing.T) {
 		t.Fatal(err)
 	}
 	span := snaps[3].watermark.Sub(snaps[0].watermark)
-	if want := int(span/(2*time.Hour)) + 1; len(ser.Points) != want || ser.Every != "2h0m0s" {
+	if want := int(span/(2*time.Hour)) + 1; len(ser.Points) != want || ser.Every != "2h" {
 		t.Fatalf("series: %d points every %s, want %d every 2h", len(ser.Points), ser.Every, want)
 	}
 	for i, p := range ser.Points {
@@ -127,6 +127,12 @@ func TestAPIDrift(t *testing.T) {
 	wantError(t, h, get, "/v1/drift/series", http.StatusBadRequest, "every")
 	wantError(t, h, get, "/v1/drift/series?every=1s", http.StatusBadRequest, "at most")
 	wantError(t, h, get, "/v1/drift/series?every=1h&from=2026-03-01T08:00:00Z", http.StatusNotFound, "no complete cut")
+
+	for d, want := range map[time.Duration]string{24 * time.Hour: "1d", 72 * time.Hour: "3d", 12 * time.Hour: "12h", 90 * time.Minute: "1h30m", 45 * time.Second: "45s", 25 * time.Hour: "25h"} {
+		if got := FormatSpan(d); got != want {
+			t.Errorf("FormatSpan(%v) = %q, want %q", d, got, want)
+		}
+	}
 
 	// GCD-11 is refused by name for a kind without the 2–4 node orbits.
 	dir, err := shard.NewCounting(delta.Directed, 3)
