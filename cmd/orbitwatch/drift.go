@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"cmp"
 	"encoding/csv"
 	"encoding/json"
 	"errors"
@@ -185,7 +186,7 @@ func writeDriftTable(w io.Writer, d api.DriftJSON) error {
 	}
 	fmt.Fprintln(w, "\nper-orbit counts over the nodes with an edge, before → after (KS: largest gap between the two distributions):")
 	shifts := slices.Clone(d.Shifts)
-	slices.SortStableFunc(shifts, func(a, b api.Shift) int { return cmpFloat(b.KS, a.KS) })
+	slices.SortStableFunc(shifts, func(a, b api.Shift) int { return cmp.Compare(b.KS, a.KS) })
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "orbit\tKS\tnon-zero\tp50\tp90\tp99\tmax\tname")
 	for _, s := range shifts {
@@ -193,16 +194,6 @@ func writeDriftTable(w io.Writer, d api.DriftJSON) error {
 			arrow(s.Before.P50, s.After.P50), arrow(s.Before.P90, s.After.P90), arrow(s.Before.P99, s.After.P99), arrow(s.Before.Max, s.After.Max), s.Name)
 	}
 	return tw.Flush()
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // arrow writes "a → b", or "a" when they are equal; counts are whole.

@@ -113,7 +113,9 @@ func threeNetworks(t *testing.T, py, dir string) (string, [3]uint64) {
 	var ends [3]uint64
 	day := time.Date(2026, 5, 1, 0, 0, 0, 0, time.UTC)
 	for i, prefix := range []string{"a", "b", "r"} {
-		at := func() time.Time { return day.Add(time.Duration(i)*24*time.Hour + time.Duration(len(lines))*time.Second) }
+		at := func() time.Time {
+			return day.Add(time.Duration(i)*24*time.Hour + time.Duration(len(lines))*time.Second)
+		}
 		if i > 0 {
 			for _, e := range nets[i-1] {
 				lines = append(lines, edgeLine{at(), "remove", fmt.Sprintf("%s-%d", []string{"a", "b"}[i-1], e[0]), fmt.Sprintf("%s-%d", []string{"a", "b"}[i-1], e[1])})

@@ -1,7 +1,7 @@
 package main
 
 import (
-	"encoding/csv"
+	"cmp"
 	"encoding/json"
 	"fmt"
 	"math/rand/v2"
@@ -111,40 +111,16 @@ func similarJSON(t *testing.T, args ...string) api.SimilarJSON {
 	return s
 }
 
-// readExport reads an orbit matrix CSV that export wrote: node ids in
-// row order and their counts.
-func readExport(t *testing.T, path string) ([]string, [][]uint64) {
-	t.Helper()
-	f, err := os.Open(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer f.Close()
-	recs, err := csv.NewReader(f).ReadAll()
-	if err != nil {
-		t.Fatal(err)
-	}
-	var names []string
-	var rows [][]uint64
-	for _, rec := range recs[1:] {
-		names = append(names, rec[0])
-		row := make([]uint64, len(rec)-1)
-		for i, s := range rec[1:] {
-			if row[i], err = strconv.ParseUint(s, 10, 64); err != nil {
-				t.Fatal(err)
-			}
-		}
-		rows = append(rows, row)
-	}
-	return names, rows
-}
-
 // nearestInExport is the answer computed from an exported matrix alone,
 // the slow way: the distance (gdv.Metric) from node to every other row
 // with at least minDegree neighbours (orbit 0 is the degree), sorted by
 // distance and then row, the first k.
-func nearestInExport(t *testing.T, names []string, rows [][]uint64, node string, k, minDegree int) []api.SimilarNodeJSON {
+func nearestInExport(t *testing.T, names []string, byName map[string][]uint64, node string, k, minDegree int) []api.SimilarNodeJSON {
 	t.Helper()
+	rows := make([][]uint64, len(names))
+	for i, n := range names {
+		rows[i] = byName[n]
+	}
 	cat, err := catalog.New(delta.Undirected, 4)
 	if err != nil {
 		t.Fatal(err)
@@ -165,7 +141,7 @@ func nearestInExport(t *testing.T, names []string, rows [][]uint64, node string,
 		terms := make([]float64, m.NumOrbits())
 		all = append(all, cand{y, m.Distance(sx, m.Signature(nil, row), terms), terms})
 	}
-	slices.SortStableFunc(all, func(a, b cand) int { return cmpFloat(a.d, b.d) })
+	slices.SortStableFunc(all, func(a, b cand) int { return cmp.Compare(a.d, b.d) })
 	out := []api.SimilarNodeJSON{}
 	for _, c := range all[:min(k, len(all))] {
 		n := api.SimilarNodeJSON{Node: names[c.y], Distance: c.d, Degree: int(rows[c.y][0]), Orbits: []api.OrbitName{}}
@@ -203,13 +179,12 @@ func TestSimilarTwinsAndExport(t *testing.T) {
 	matrix := filepath.Join(dir, "day1.csv")
 	day1 := "2026-05-01T23:59:59Z"
 	mustRunCmd(t, "export", "--data", data, "--at", day1, "--format", "csv", "--out", matrix)
-	names, rows := readExport(t, matrix)
+	names, byName := readMatrix(t, matrix)
 	for a, b := range image {
 		// Precondition of the seed: only the image shares a's vector.
-		xa := slices.Index(names, a)
-		for y, row := range rows {
-			if y != xa && names[y] != b && slices.Equal(row, rows[xa]) {
-				t.Fatalf("%s shares the vector of %s besides its image %s: choose another seed", names[y], a, b)
+		for n, row := range byName {
+			if n != a && n != b && slices.Equal(row, byName[a]) {
+				t.Fatalf("%s shares the vector of %s besides its image %s: choose another seed", n, a, b)
 			}
 		}
 		for _, at := range []string{"", day1} {
@@ -231,7 +206,7 @@ func TestSimilarTwinsAndExport(t *testing.T) {
 	for _, q := range []string{"bg-3", "bg-40", "bg-99", "twin-b-2"} {
 		for _, c := range []struct{ k, minDegree int }{{20, 1}, {5, 3}, {400, 0}} {
 			s := similarJSON(t, "--data", data, "--node", q, "--at", day1, "--k", strconv.Itoa(c.k), "--min-degree", strconv.Itoa(c.minDegree))
-			if want := nearestInExport(t, names, rows, q, c.k, c.minDegree); !sameSimilar(s.Similar, want) {
+			if want := nearestInExport(t, names, byName, q, c.k, c.minDegree); !sameSimilar(s.Similar, want) {
 				t.Fatalf("%s as of %s (k %d, min degree %d):\nsimilar %+v\nexport  %+v", q, day1, c.k, c.minDegree, s.Similar, want)
 			}
 		}
