@@ -32,6 +32,14 @@ type Committer struct {
 	// versions older than this much event time before each group's last
 	// watermark (storage.Store.SetDiscardBefore).
 	KeepHistory time.Duration
+	// Gather, when set before the first Put, holds a commit back until
+	// Gather after the last one began (or maxQueued cuts wait), so that a
+	// log applied faster than the disk syncs pays one sync per Gather of
+	// wall time rather than one per cut. A backfill sets it; a worker
+	// serving reads does not (its cuts become durable as soon as they
+	// can).
+	Gather    time.Duration
+	lastStart time.Time
 }
 
 // NewCommitter starts a committer for st that holds at most maxQueued
@@ -105,6 +113,16 @@ func (c *Committer) run() {
 		for len(c.queue) == 0 && !c.closed && c.err == nil {
 			c.cond.Wait()
 		}
+		for c.Gather > 0 && !c.closed && c.err == nil && len(c.queue) < c.maxQueued && time.Since(c.lastStart) < c.Gather {
+			wake := time.AfterFunc(c.Gather-time.Since(c.lastStart), func() {
+				c.mu.Lock()
+				c.cond.Broadcast()
+				c.mu.Unlock()
+			})
+			c.cond.Wait()
+			wake.Stop()
+		}
+		c.lastStart = time.Now()
 		if len(c.queue) == 0 || c.err != nil {
 			c.mu.Unlock()
 			return

@@ -95,6 +95,7 @@ func runBackfill(args []string) int {
 	ctx, cancel := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer cancel()
 	com := shard.NewCommitter(st, 64)
+	com.Gather = backfillGather
 	com.KeepHistory = shard.KeepFor(keep, stage, cuts.cuts())
 	b := &backfill{st: st, com: com, applier: a, stage: stage, records: records}
 	a.OnCut = b.cut
@@ -140,6 +141,10 @@ func runBackfill(args []string) int {
 	}
 	return 0
 }
+
+// backfillGather is how long a backfill's committer gathers cuts before a
+// commit: one sync per second at most, whatever the pace of the cuts.
+const backfillGather = time.Second
 
 // cutFlags are the flags that place cuts.
 type cutFlags struct {
