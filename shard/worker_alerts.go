@@ -50,10 +50,14 @@ type AlertStage struct {
 	// pending are the nodes touched at flushes since the last rule cut,
 	// sorted.
 	pending []uint32
+	// lastRule is the watermark of the last rule cut (zero: none yet), by
+	// which a sweep comes due.
+	lastRule time.Time
 
 	changes []alert.NodeChange
 	vecs    []uint64 // backing store of the cut's vectors
 	primed  uint64
+	swept   uint64
 }
 
 // NewAlertStage returns a stage over ev for applier states counted by c.
@@ -88,7 +92,10 @@ func (s *AlertStage) Restore(st *storage.Store, state *storage.State) error {
 // rebuild sets the baseline state and queue for a stage whose applier is
 // at cut at of st.
 func (s *AlertStage) rebuild(st *storage.Store, at storage.CheckpointInfo) error {
-	s.base, s.queue = nil, nil
+	s.base, s.queue, s.lastRule = nil, nil, time.Time{}
+	if c, ok := baseCut(st.Checkpoints(), at.Watermark, at.Seq); ok && at.Seq > 0 {
+		s.lastRule = c.Watermark
+	}
 	if !s.lookback() || at.Seq == 0 {
 		return nil
 	}
@@ -143,9 +150,16 @@ func (s *AlertStage) Evaluator() *alert.Evaluator { return s.ev }
 // the log did not yet reach back a look-back.
 func (s *AlertStage) Primed() uint64 { return s.primed }
 
+// Swept counts the rule cuts at which every node was scored (a sweep,
+// alert.Config.Sweep).
+func (s *AlertStage) Swept() uint64 { return s.swept }
+
 // Evaluate takes the cut cp of a (a's state is the cut's): at a rule cut
 // it scores the nodes touched since the last rule cut (cp.Records and the
-// flushes' since) that owned accepts (nil: all), and returns the cut's
+// flushes' since), or every node with an edge when a sweep is due (the
+// first rule cut at or after a multiple of alert.Config.Sweep of event
+// time past the last rule cut), that owned accepts (nil: all), and
+// returns the cut's
 // alerts (nil while primed), also put in cp.Alerts; at a flush it only
 // remembers the touched nodes. Either way it puts its state in cp.Blobs.
 func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x uint32) bool, wall time.Time) ([]alert.Alert, error) {
@@ -162,6 +176,16 @@ func (s *AlertStage) Evaluate(a *Applier, cp *storage.Checkpoint, owned func(x u
 	}
 	nodes := mergeNodes(s.pending, touched)
 	s.pending = nil
+	if sweep := s.ev.Config().Sweep; sweep > 0 && !s.lastRule.IsZero() && !cp.Watermark.Before(nextBoundary(s.lastRule, sweep)) {
+		nodes = nodes[:0]
+		for x := range a.dict.Len() {
+			if a.graph.Degree(uint32(x)) > 0 {
+				nodes = append(nodes, uint32(x))
+			}
+		}
+		s.swept++
+	}
+	s.lastRule = cp.Watermark
 	priming := false
 	if s.lookback() {
 		if err := s.advance(cp.Watermark.Add(-s.ev.Config().Lookback)); err != nil {

@@ -119,8 +119,10 @@ func sameAlerts(t *testing.T, what string, got, want []alertKey) {
 func TestAlertsIgnoreArrival(t *testing.T) {
 	dir := t.TempDir()
 	whole, parts, sc := demoLog(t, dir, 1, 3)
+	// The demo's rules with a sweep of every node every ten minutes of
+	// event time, which restarts must also keep in step.
 	rules := filepath.Join(dir, "rules.yaml")
-	if err := os.WriteFile(rules, demo.AlertsYAML, 0o644); err != nil {
+	if err := os.WriteFile(rules, append(slices.Clone(demo.AlertsYAML), "\nsweep: 10m\n"...), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	cutFlags := []string{"--cut-every", "1m", "--alerts", rules}

@@ -138,7 +138,7 @@ type OrbitWeight struct {
 // own, so its share is about the part of its co-customers' shops that
 // are also its shops, however many 4-cycles it closes. A shop's share is
 // the like overlap of its customers' other shops; in a market of few
-// shops it is not small (0.63 for the busiest shop of the demo's small
+// shops it is not small (0.64 for the busiest shop of the demo's small
 // scenario), so a ring rule needs a fire level well above one half.
 func RingAgainst(cat *catalog.Catalog) []OrbitWeight {
 	return []OrbitWeight{
@@ -155,6 +155,12 @@ type Config struct {
 	// (BaselineLookback); HalfLife is the event-time half-life of the
 	// decayed average (BaselineDecayed).
 	Lookback, HalfLife time.Duration
+	// Sweep, when above zero, scores every node at the first cut after
+	// each multiple of Sweep of event time, not only the nodes whose
+	// records the cut touched: a node whose signature moved only because
+	// its neighbours' did (a counterparty grew busy) is scored then.
+	// Off by default: a sweep costs a scoring of the whole graph.
+	Sweep time.Duration
 	// MaxPerMinute caps the alerts emitted per minute of event time (per
 	// Evaluator, that is per shard); 0 means no cap. Alerts over the cap
 	// are held back: counted in Stats.Held, not emitted.
@@ -279,6 +285,8 @@ func (cfg *Config) check(cat *catalog.Catalog) (rule int, key, msg string) {
 		return -1, "lookback", "lookback must be positive"
 	case cfg.Baseline == BaselineDecayed && cfg.HalfLife <= 0:
 		return -1, "half_life", "half_life must be positive"
+	case cfg.Sweep < 0:
+		return -1, "sweep", "sweep must not be negative"
 	case cfg.MaxPerMinute < 0:
 		return -1, "max_per_minute", "max_per_minute must not be negative"
 	case cfg.TopOrbits < 1 || cfg.TopOrbits > cat.NumOrbits():

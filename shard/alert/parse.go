@@ -31,6 +31,7 @@ func LoadConfig(path string, cat *catalog.Catalog) (Config, error) {
 //	baseline: lookback        # or decayed
 //	lookback: 6h              # Go duration; for baseline: lookback
 //	half_life: 6h             # for baseline: decayed
+//	sweep: 24h                # score every node once per 24h of event time (default: off)
 //	max_per_minute: 60        # 0: no cap
 //	top_orbits: 5
 //	defaults:                 # gates every rule gets unless it sets its own
@@ -94,6 +95,8 @@ func ParseConfig(data []byte, cat *catalog.Catalog) (Config, error) {
 			return p.duration(v, &cfg.Lookback)
 		case "half_life":
 			return p.duration(v, &cfg.HalfLife)
+		case "sweep":
+			return p.duration(v, &cfg.Sweep)
 		case "max_per_minute":
 			return p.integer(v, &cfg.MaxPerMinute)
 		case "top_orbits":
