@@ -164,9 +164,11 @@ func (r *alertsRun) run(w io.Writer) error {
 		return printAlerts(w, alerts, verdicts, r.json)
 	}
 	if r.confirmed {
-		for _, a := range alerts {
-			if v, ok := verdicts[a.ID]; ok && v.Verdict == storage.VerdictConfirmed {
-				cases = append(cases, alert.Case{ID: "triage:" + a.ID, Node: a.Node, Known: a.EventTime})
+		// A verdict carries its alert's node and cut: the case was known
+		// when the alert was raised.
+		for _, v := range verdicts {
+			if v.Verdict == storage.VerdictConfirmed {
+				cases = append(cases, alert.Case{ID: "triage:" + v.AlertID, Node: v.Node, Known: v.EventTime})
 			}
 		}
 	}

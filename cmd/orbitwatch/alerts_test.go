@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"orbitwatch/bench/demo"
+	"orbitwatch/storage"
 	"orbitwatch/stream"
 )
 
@@ -288,6 +289,52 @@ func checkLabels(t *testing.T, data string, sc *demo.Scenario, alerts []alertKey
 			}
 		}
 	}
+	// An investigator confirms an alert on a node of no case; after the
+	// store is closed and opened again (a restart) the verdict is there,
+	// and with --confirmed it is one more case, alerted.
+	var pick alertKey
+	for _, a := range alerts {
+		if len(caseOf[a.Node]) == 0 {
+			pick = a
+		}
+	}
+	if pick.ID == "" {
+		t.Fatal("every alert is on a case node: nothing to confirm")
+	}
+	ro, err := storage.OpenReadOnly(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := ro.Settings()
+	ro.Close()
+	st, err := storage.Open(data, set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st.PutVerdict(storage.Verdict{AlertID: pick.ID, AlertSeq: pick.Seq, Verdict: storage.VerdictConfirmed, Note: "mule, case 17", By: "test", Role: "admin", At: time.Now()}); err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+	listed := mustRunCmd(t, "alerts", "--data", data, "--verdict", storage.VerdictConfirmed, "--json")
+	if !strings.Contains(listed.stdout, pick.ID) || strings.Count(strings.TrimSpace(listed.stdout), "\n") != 0 || !strings.Contains(listed.stdout, `"mule, case 17"`) {
+		t.Fatalf("alerts --verdict confirmed after a reopen:\n%s", listed.stdout)
+	}
+	with := mustRunCmd(t, "alerts", "--data", data, "--labels", cases, "--confirmed", "--json")
+	var m2 struct {
+		Cases int `json:"cases"`
+		Rules []struct {
+			Rule    string `json:"rule"`
+			Alerted int    `json:"cases_alerted"`
+		} `json:"rules"`
+	}
+	if err := json.Unmarshal([]byte(with.stdout), &m2); err != nil {
+		t.Fatal(err)
+	}
+	all := m.Rules[len(m.Rules)-1]
+	if all2 := m2.Rules[len(m2.Rules)-1]; m2.Cases != m.Cases+1 || all2.Alerted != all.Alerted+1 {
+		t.Fatalf("with the confirmed verdict as a case: %d cases, %d alerted; before %d, %d", m2.Cases, all2.Alerted, m.Cases, all.Alerted)
+	}
+
 	table := mustRunCmd(t, "alerts", "--data", data, "--labels", cases)
 	if !strings.Contains(table.stdout, "cases alerted") || !strings.Contains(table.stdout, "per 10k nodes/day") {
 		t.Fatalf("the measurement table lacks its headings:\n%s", table.stdout)
