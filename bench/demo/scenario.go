@@ -7,13 +7,14 @@ import (
 	"time"
 
 	"orbitwatch/bench/gen"
+	"orbitwatch/delta"
 	"orbitwatch/stream"
 )
 
 // Config describes the scenario. The opening puts every household's first
 // payments (payroll, a few shops, a partner) at Start; the steady traffic
 // then runs for Steady, one payment every Gap of event time; the patterns
-// are planted from one hour into it (see Generate).
+// are planted from twenty minutes into it (see Generate).
 type Config struct {
 	Households, Shops, Payrolls int
 	Start                       time.Time
@@ -31,7 +32,7 @@ func DefaultConfig() Config {
 
 // SmallConfig is a scenario for tests: 600 households, 15 shops, 2 payroll
 // providers, five simulated hours of steady traffic (the patterns end
-// 3 h 40 min in).
+// 3 h 45 min in).
 func SmallConfig() Config {
 	c := DefaultConfig()
 	c.Households, c.Shops, c.Payrolls, c.Steady = 600, 15, 2, 5*time.Hour
@@ -40,31 +41,61 @@ func SmallConfig() Config {
 
 // Pattern is one planted structure, the ground truth of the evaluation.
 type Pattern struct {
-	// Name is short ("fan-out", "ring", "clique", "hub"); Title says in
-	// plain words what was planted.
+	// Name is short ("fan-out", "cycle-3", "dispute-ring", "hub", …);
+	// Title says in plain words what was planted.
 	Name, Title string
 	// Nodes are every node of the pattern; Expect those whose alert shows
-	// the pattern was found (nil for the quiet hub).
+	// the pattern was found (nil for a quiet pattern).
 	Nodes, Expect []string
-	// Quiet marks a normal pattern that must raise no alert.
+	// Quiet marks a normal pattern that must raise no alert, whatever
+	// the graph kind.
 	Quiet bool
+	// FoundBy are the counting configurations whose demo rules are to
+	// find the pattern, each with the rule meant to (empty for a quiet
+	// pattern). Under other configurations the pattern is neither to be
+	// found nor a source of false alerts.
+	FoundBy []Finder
 	// First and Complete are the event times of its first and last
 	// payment; FirstIndex and CompleteIndex their places in Events.
 	First, Complete           time.Time
 	FirstIndex, CompleteIndex int
 }
 
+// Finder is a counting configuration that shows a pattern: a graph kind,
+// the least graphlet size (max nodes) whose orbits tell the pattern, and
+// the demo rule that is to fire on an expected node.
+type Finder struct {
+	Kind     delta.Kind
+	MinNodes int
+	Rule     string
+}
+
+// FoundWith returns the rule that is to find p when counting kind on
+// graphlets of up to maxNodes nodes, and whether there is one.
+func (p *Pattern) FoundWith(kind delta.Kind, maxNodes int) (rule string, ok bool) {
+	for _, f := range p.FoundBy {
+		if f.Kind == kind && maxNodes >= f.MinNodes {
+			return f.Rule, true
+		}
+	}
+	return "", false
+}
+
 // Scenario is the generated stream with what is planted in it.
 type Scenario struct {
 	Config Config
-	// Events are every payment in log order, all adds with event times
-	// that never go back and ids "demo-<seed>-<index>"; the first Opening
-	// of them are the opening, all at Config.Start.
+	// Events are every payment and dispute in log order, all adds with
+	// event times that never go back and ids "demo-<seed>-<index>"; the
+	// first Opening of them are the opening, all at Config.Start. A
+	// dispute (chargeback, or a payment returned on a fraud report) is a
+	// negative event (Neg) from the party that pays back to the one that
+	// disputed: the kinds that ignore signs read it as a reverse payment.
 	Events   []stream.Event
 	Opening  int
 	Patterns []Pattern
-	// Background counts the nodes of the stream outside every pattern but
-	// the hub (the hub is background traffic that must stay quiet).
+	// Background counts the nodes of the stream outside every pattern
+	// but the quiet ones (the hub and the payroll provider are background
+	// traffic that must stay quiet).
 	Background int
 }
 
@@ -89,20 +120,22 @@ func (s *Scenario) Member(node string) string {
 	return ""
 }
 
-// planted account counts: the mule, its inflow source is a household;
-// ring 2 senders and 5 receivers; clique 5.
-const (
-	muleOut    = 3  // payees of the mule in its first, ordinary hour
-	fanOut     = 30 // payees of the fan-out
-	ringSend   = 2
-	ringRecv   = 5
-	cliqueSize = 5
-	planted    = 1 + ringSend + ringRecv + cliqueSize
-)
+// Expected returns the patterns the demo rules of kind on up to maxNodes
+// nodes are to find, and the quiet ones, in the scenario's order.
+func (s *Scenario) Expected(kind delta.Kind, maxNodes int) []Pattern {
+	var out []Pattern
+	for _, p := range s.Patterns {
+		if _, ok := p.FoundWith(kind, maxNodes); ok || p.Quiet {
+			out = append(out, p)
+		}
+	}
+	return out
+}
 
 // builder holds the background's state while the stream is made.
 type builder struct {
 	r        *rand.Rand
+	c        Config
 	pop      gen.Population
 	name     []string
 	house    []uint32   // background household node ids
@@ -112,48 +145,51 @@ type builder struct {
 	shopPerm []uint32   // shop node id by popularity rank
 	zipf     *rand.Zipf
 	hub      uint32
+	payroll  uint32 // the biggest payroll provider
 	events   []timed
 }
 
 type timed struct {
 	at       time.Time
 	src, dst uint32
-	order    int // patterns after background at equal times
+	neg      bool
+	pattern  int // 1 + index of the planted pattern, 0 for the background
 }
+
+// chargebackShare is the share of steady events that are a household's
+// chargeback of a purchase at a shop it paid: about one dispute per hundred
+// payments, a rate of our own choosing for the fiction.
+const chargebackShare = 0.01
 
 // Generate makes the scenario. Background: every household pays two to
 // five shops (popularity Zipf, s = 1.1, v = 4, over a shuffled shop order),
-// 60 % are paid by a payroll provider, and households are paired off with
-// a partner they pay with probability 0.3. Steady payments are: 50 %
-// repeat purchases, 10 % refunds (the shop paying the household back),
-// 12 % a purchase at a shop new to the household, 10 % a purchase at the
-// hub (the most popular shop, which thus keeps gaining customers),
-// 10 % payroll, 8 % partner transfers. Shops and payroll providers never
-// pay each other and partners pair off, so the background has no K4.
+// 60 % are paid by a payroll provider (two thirds of them by the biggest), and
+// households are paired off with a partner they pay with probability 0.3.
+// Steady events are: 1 % chargebacks (a shop pays a household back on a
+// disputed purchase: a negative event), 9 % refunds (the shop paying the
+// household back), 12 % a purchase at a shop new to the household, 10 % a
+// purchase at the hub (the most popular shop, which thus keeps gaining
+// customers), 10 % payroll, 8 % partner transfers, the rest repeat
+// purchases. Shops and payroll providers never pay each other and
+// partners pair off, so the background has no K4; only shops pay
+// households back, and only households they were paid by, so every tie
+// that goes both ways is a purchase and its refund or chargeback, and the
+// background has no directed cycle whose ties all go one way.
 //
-// Planted, on fresh accounts at random account numbers:
-//
-//   - fan-out: a mule account is paid by a household 60 min in and pays 3
-//     households in the next 3 min; from 2 h 15 min it pays 30 more
-//     households, one a minute;
-//   - ring: from 2 h 50 min two accounts each pay the same five accounts,
-//     a payment every 2 min (K_{2,5}: ten 4-cycles through each sender);
-//   - clique: from 3 h 15 min five accounts pay each other, every pair,
-//     a payment every 3 min (K5: four K4s through each);
-//   - hub: the busiest shop, busy but normal.
-//
-// Steady must be at least 4 h so that every pattern is complete.
+// The planted patterns are described at plant; each is on fresh accounts
+// or households drawn for it alone, so that patterns do not touch each
+// other. Steady must be at least 4 h so that every pattern is complete.
 func Generate(c Config) *Scenario {
-	if c.Households < 100 || c.Shops < 5 || c.Payrolls < 1 || c.Gap <= 0 || c.Steady < 4*time.Hour {
+	if c.Households < 300 || c.Shops < 5 || c.Payrolls < 1 || c.Gap <= 0 || c.Steady < 4*time.Hour {
 		panic(fmt.Sprintf("demo: invalid config %+v", c))
 	}
-	b := &builder{r: rand.New(rand.NewPCG(c.Seed, 0x6f7262)), pop: gen.Population{Accounts: c.Households + planted, Shops: c.Shops, Payrolls: c.Payrolls}}
+	b := &builder{r: rand.New(rand.NewPCG(c.Seed, 0x6f7262)), c: c, pop: gen.Population{Accounts: c.Households + freshAccounts, Shops: c.Shops, Payrolls: c.Payrolls}}
 	for id := range uint32(b.pop.Nodes()) {
 		b.name = append(b.name, string(b.pop.AppendName(nil, id)))
 	}
 	accts := b.r.Perm(b.pop.Accounts)
-	fresh := accts[:planted]
-	for _, a := range accts[planted:] {
+	fresh := accts[:freshAccounts]
+	for _, a := range accts[freshAccounts:] {
 		b.house = append(b.house, uint32(a))
 	}
 	slices.Sort(b.house)
@@ -162,38 +198,38 @@ func Generate(c Config) *Scenario {
 		b.shopPerm[i] = b.pop.ShopID(s)
 	}
 	b.hub = b.shopPerm[0]
+	b.payroll = b.pop.PayrollID(0)
 	b.zipf = rand.NewZipf(b.r, 1.1, 4, uint64(c.Shops-1))
-	b.opening(c)
+	b.opening()
 	opening := len(b.events)
-	b.steady(c)
-	pats := b.plant(c, fresh)
+	b.steady()
+	pats := b.plant(fresh)
 	slices.SortStableFunc(b.events, func(x, y timed) int {
 		if d := x.at.Compare(y.at); d != 0 {
 			return d
 		}
-		return x.order - y.order
+		return min(x.pattern, 1) - min(y.pattern, 1) // planted after background at equal times
 	})
-	s := &Scenario{Config: c, Opening: opening}
+	s := &Scenario{Config: c, Opening: opening, Patterns: pats}
 	for i, e := range b.events {
 		s.Events = append(s.Events, stream.Event{ID: fmt.Sprintf("demo-%d-%d", c.Seed, i), TS: e.at, HasTS: true, Op: stream.OpAdd,
-			Src: b.name[e.src], Dst: b.name[e.dst], Line: i + 1})
+			Neg: e.neg, Src: b.name[e.src], Dst: b.name[e.dst], Line: i + 1})
 	}
-	s.Patterns = pats
-	s.locate()
+	s.locate(b.events)
 	seen := map[string]bool{}
 	for _, e := range s.Events {
 		seen[e.Src], seen[e.Dst] = true, true
 	}
 	for n := range seen {
-		if m := s.Member(n); m == "" || m == "hub" {
+		if m := s.Member(n); m == "" || s.Pattern(m).Quiet {
 			s.Background++
 		}
 	}
 	return s
 }
 
-func (b *builder) add(at time.Time, src, dst uint32, order int) {
-	b.events = append(b.events, timed{at, src, dst, order})
+func (b *builder) add(at time.Time, src, dst uint32) {
+	b.events = append(b.events, timed{at: at, src: src, dst: dst})
 }
 
 // newShop returns a shop household i has not paid yet, by popularity, or
@@ -208,7 +244,8 @@ func (b *builder) newShop(i int) (uint32, bool) {
 	return 0, false
 }
 
-func (b *builder) opening(c Config) {
+func (b *builder) opening() {
+	c := b.c
 	n := len(b.house)
 	b.shops = make([][]uint32, n)
 	b.employer = make([]int32, n)
@@ -216,13 +253,17 @@ func (b *builder) opening(c Config) {
 	for i, h := range b.house {
 		b.employer[i], b.partner[i] = -1, -1
 		if b.r.Float64() < 0.6 {
-			b.employer[i] = int32(b.pop.PayrollID(b.r.IntN(c.Payrolls)))
-			b.add(c.Start, uint32(b.employer[i]), h, 0)
+			p := b.payroll
+			if c.Payrolls > 1 && b.r.Float64() >= 2.0/3 {
+				p = b.pop.PayrollID(1 + b.r.IntN(c.Payrolls-1))
+			}
+			b.employer[i] = int32(p)
+			b.add(c.Start, p, h)
 		}
 		for range 2 + b.r.IntN(4) {
 			if s, ok := b.newShop(i); ok {
 				b.shops[i] = append(b.shops[i], s)
-				b.add(c.Start, h, s, 0)
+				b.add(c.Start, h, s)
 			}
 		}
 	}
@@ -231,12 +272,13 @@ func (b *builder) opening(c Config) {
 		i, j := order[k], order[k+1]
 		b.partner[i], b.partner[j] = int32(j), int32(i)
 		if b.r.Float64() < 0.3 {
-			b.add(c.Start, b.house[i], b.house[j], 0)
+			b.add(c.Start, b.house[i], b.house[j])
 		}
 	}
 }
 
-func (b *builder) steady(c Config) {
+func (b *builder) steady() {
+	c := b.c
 	steps := int(c.Steady / c.Gap)
 	for k := range steps {
 		at := c.Start.Add(time.Duration(k+1) * c.Gap)
@@ -244,12 +286,14 @@ func (b *builder) steady(c Config) {
 		h := b.house[i]
 		x := b.r.Float64()
 		switch {
+		case x < chargebackShare && len(b.shops[i]) > 0:
+			b.events = append(b.events, timed{at: at, src: b.shops[i][b.r.IntN(len(b.shops[i]))], dst: h, neg: true})
 		case x < 0.10 && len(b.shops[i]) > 0:
-			b.add(at, b.shops[i][b.r.IntN(len(b.shops[i]))], h, 0)
+			b.add(at, b.shops[i][b.r.IntN(len(b.shops[i]))], h)
 		case x < 0.22:
 			if s, ok := b.newShop(i); ok {
 				b.shops[i] = append(b.shops[i], s)
-				b.add(at, h, s, 0)
+				b.add(at, h, s)
 				continue
 			}
 			fallthrough
@@ -257,96 +301,30 @@ func (b *builder) steady(c Config) {
 			if !slices.Contains(b.shops[i], b.hub) {
 				b.shops[i] = append(b.shops[i], b.hub)
 			}
-			b.add(at, h, b.hub, 0)
+			b.add(at, h, b.hub)
 		case x < 0.42 && b.employer[i] >= 0:
-			b.add(at, uint32(b.employer[i]), h, 0)
+			b.add(at, uint32(b.employer[i]), h)
 		case x >= 0.92 && b.partner[i] >= 0:
-			b.add(at, h, b.house[b.partner[i]], 0)
+			b.add(at, h, b.house[b.partner[i]])
 		case len(b.shops[i]) > 0:
-			b.add(at, h, b.shops[i][b.r.IntN(len(b.shops[i]))], 0)
+			b.add(at, h, b.shops[i][b.r.IntN(len(b.shops[i]))])
 		default:
-			b.add(at, h, b.hub, 0)
+			b.add(at, h, b.hub)
 			b.shops[i] = append(b.shops[i], b.hub)
 		}
 	}
 }
 
-// households returns k distinct background households, drawn at random.
-func (b *builder) households(k int) []uint32 {
-	out := make([]uint32, 0, k)
-	for _, i := range b.r.Perm(len(b.house))[:k] {
-		out = append(out, b.house[i])
-	}
-	return out
-}
-
-func (b *builder) plant(c Config, fresh []int) []Pattern {
-	at := func(d time.Duration) time.Time { return c.Start.Add(d) }
-	names := func(ids []uint32) []string {
-		out := make([]string, len(ids))
-		for i, x := range ids {
-			out[i] = b.name[x]
-		}
-		return out
-	}
-	ids := make([]uint32, len(fresh))
-	for i, a := range fresh {
-		ids[i] = uint32(a)
-	}
-	mule, senders, receivers, clique := ids[0], ids[1:1+ringSend], ids[1+ringSend:1+ringSend+ringRecv], ids[1+ringSend+ringRecv:]
-
-	payees := b.households(1 + muleOut + fanOut)
-	b.add(at(time.Hour), payees[0], mule, 1)
-	for k, p := range payees[1 : 1+muleOut] {
-		b.add(at(time.Hour+time.Duration(k+1)*time.Minute), mule, p, 1)
-	}
-	for k, p := range payees[1+muleOut:] {
-		b.add(at(2*time.Hour+15*time.Minute+time.Duration(k)*time.Minute), mule, p, 1)
-	}
-	fan := Pattern{Name: "fan-out", Title: "a mule account that, an hour after opening, pays 30 households in half an hour",
-		Nodes: append([]string{b.name[mule]}, names(payees)...), Expect: []string{b.name[mule]}}
-
-	t := 2*time.Hour + 50*time.Minute
-	for _, s := range senders {
-		for _, r := range receivers {
-			b.add(at(t), s, r, 1)
-			t += 2 * time.Minute
-		}
-	}
-	ring := Pattern{Name: "ring", Title: "two accounts paying the same five accounts (ten 4-cycles through each sender)",
-		Nodes: names(append(slices.Clone(senders), receivers...)), Expect: names(senders)}
-
-	t = 3*time.Hour + 15*time.Minute
-	for i, x := range clique {
-		for _, y := range clique[i+1:] {
-			b.add(at(t), x, y, 1)
-			t += 3 * time.Minute
-		}
-	}
-	cl := Pattern{Name: "clique", Title: "five accounts that all pay each other (K5: four K4s through each)",
-		Nodes: names(clique), Expect: names(clique)}
-
-	hub := Pattern{Name: "hub", Title: "the busiest shop: new customers all day, busy but normal",
-		Nodes: []string{b.name[b.hub]}, Quiet: true}
-	return []Pattern{fan, ring, cl, hub}
-}
-
-// locate fills each pattern's first and last payment from the events:
-// for the hub its whole traffic, for the others the payments among their
-// own nodes and, for the fan-out, the mule's payments.
-func (s *Scenario) locate() {
+// locate fills each pattern's first and last event: for the hub its
+// whole traffic, for the others the events planted for them.
+func (s *Scenario) locate(events []timed) {
 	for pi := range s.Patterns {
 		p := &s.Patterns[pi]
 		p.FirstIndex, p.CompleteIndex = -1, -1
 		for i, e := range s.Events {
-			in := false
-			switch p.Name {
-			case "hub":
+			in := events[i].pattern == pi+1
+			if p.Name == "hub" {
 				in = e.Src == p.Nodes[0] || e.Dst == p.Nodes[0]
-			case "fan-out":
-				in = e.Src == p.Nodes[0] || e.Dst == p.Nodes[0]
-			default:
-				in = slices.Contains(p.Nodes, e.Src) && slices.Contains(p.Nodes, e.Dst)
 			}
 			if !in {
 				continue

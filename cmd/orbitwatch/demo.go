@@ -14,6 +14,7 @@ import (
 	"github.com/nats-io/nats.go/jetstream"
 
 	"orbitwatch/bench/demo"
+	"orbitwatch/delta"
 	"orbitwatch/shard"
 	"orbitwatch/stream"
 )
@@ -35,12 +36,28 @@ func runDemo(args []string) int {
 	seed := fs.Uint64("seed", 1, "seed of the scenario")
 	webhook := fs.String("webhook", "", "URL to POST every alert to as JSON, with retries (never holds up counting)")
 	small := fs.Bool("small", false, "a smaller scenario (600 households, five simulated hours) for quick trials and tests")
+	var cf countingFlags
+	fs.StringVar(&cf.kind, "kind", "directed", "graph kind counted: directed (who pays whom: cycles of funds, pass-through, fan-in, fan-out), undirected (rings, cliques) or signed (payments and disputes)")
+	fs.IntVar(&cf.maxNodes, "max-nodes", 0, "largest graphlet size counted (default 3, for undirected 4; directed 4 also finds cycles of four accounts)")
 	if code := parseFlags(fs, args); code != 0 {
 		return code
 	}
 	if *rate <= 0 {
 		fmt.Fprintln(os.Stderr, "orbitwatch demo: --rate must be positive")
 		return 2
+	}
+	if cf.maxNodes == 0 {
+		cf.maxNodes = 3
+		if cf.kind == "undirected" {
+			cf.maxNodes = 4
+		}
+	}
+	counting, err := cf.counting()
+	if err != nil {
+		return fail("demo", err)
+	}
+	if counting.Catalog.Kind == delta.Undirected && cf.maxNodes < 4 {
+		return fail("demo", usagef("--max-nodes: the undirected demo rules need graphlets of 4 nodes"))
 	}
 	dir := *data
 	if dir == "" {
@@ -58,13 +75,16 @@ func runDemo(args []string) int {
 	cfg.Seed = *seed
 	sc := demo.Generate(cfg)
 
-	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(dir, "nats"), Listen: "127.0.0.1:0"})
+	// As serve: the embedded server admits only the holder of the key
+	// made in DATA/nats-user.nk.
+	srv, err := stream.StartEmbedded(stream.EmbeddedOptions{StoreDir: filepath.Join(dir, "nats"), Listen: "127.0.0.1:0", NKeyFile: filepath.Join(dir, natsKeyFile)})
 	if err != nil {
 		return fail("demo", err)
 	}
 	defer srv.Shutdown()
 	fmt.Printf("orbitwatch demo: NATS %s\n", srv.URL())
-	nf := natsFlags{url: srv.URL()}
+	fmt.Printf("orbitwatch demo: its clients authenticate with --nkey %s\n", srv.NKeyFile())
+	nf := natsFlags{url: srv.URL(), nkey: srv.NKeyFile()}
 	nc, err := nf.connect("demo")
 	if err != nil {
 		return fail("demo", err)
@@ -72,14 +92,19 @@ func runDemo(args []string) int {
 	defer nc.Close()
 	wf := workerFlags{data: filepath.Join(dir, "state"), http: *httpAddr, stream: shard.DefaultStream, subject: shard.DefaultSubject,
 		cuts: cutFlags{every: demoCutEvery}}
-	wf.counting = countingFlags{kind: "undirected", maxNodes: 4}
-	wf.alerts.yaml, wf.alerts.webhook = demo.AlertsYAML, *webhook
+	wf.counting = cf
+	// The undirected demo runs its own rules file; the directed and signed
+	// ones the built-in rules (demo.AlertConfig).
+	wf.alerts.webhook = *webhook
+	if counting.Catalog.Kind == delta.Undirected {
+		wf.alerts.yaml = demo.AlertsYAML
+	}
 
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
 	played := make(chan error, 1)
 	ready := func(httpURL string) {
-		fmt.Print(demoIntro(sc, httpURL, *rate))
+		fmt.Print(demoIntro(sc, counting.Catalog.Kind, cf.maxNodes, httpURL, *rate))
 		go func() { played <- playDemo(ctx, nc, sc, *rate) }()
 		go func() {
 			err := <-played
@@ -95,22 +120,26 @@ func runDemo(args []string) int {
 	return runShard("demo", nc, &wf, shard.WorkerConfig{Shard: 0, Shards: 1, Replicas: 1}, ready)
 }
 
-// demoIntro says where the page is and what to look for.
-func demoIntro(sc *demo.Scenario, httpURL string, rate float64) string {
+// demoIntro says where the page is and what to look for when counting
+// kind on up to k nodes: the patterns meant for it, with the rule that is
+// to find each, and the quiet ones.
+func demoIntro(sc *demo.Scenario, kind delta.Kind, k int, httpURL string, rate float64) string {
 	var b strings.Builder
 	steady := len(sc.Events) - sc.Opening
 	fmt.Fprintf(&b, "orbitwatch demo: a fictional payments network of %d households, %d shops and %d payroll providers (all names invented)\n",
 		sc.Config.Households, sc.Config.Shops, sc.Config.Payrolls)
 	fmt.Fprintf(&b, "orbitwatch demo: %d opening payments at once, then %d more at %.0f a second (about %.0f s)\n", sc.Opening, steady, rate, float64(steady)/rate)
+	fmt.Fprintf(&b, "orbitwatch demo: counting the %v graph on 2–%d nodes; --kind undirected, directed or signed shows other patterns\n", kind, k)
 	fmt.Fprintf(&b, "orbitwatch demo: open %s/ in a browser\n", httpURL)
-	fmt.Fprintln(&b, "orbitwatch demo: planted, to look for:")
-	for _, p := range sc.Patterns {
-		at := float64(p.CompleteIndex-sc.Opening) / rate
-		who := p.Expect
+	fmt.Fprintln(&b, "orbitwatch demo: planted, to look for (pattern, rule, accounts):")
+	for _, p := range sc.Expected(kind, k) {
 		if p.Quiet {
-			who = p.Nodes
+			fmt.Fprintf(&b, "  %-16s %-21s %s: %s\n", p.Name, "quiet", strings.Join(p.Nodes, " "), p.Title)
+			continue
 		}
-		fmt.Fprintf(&b, "  %-8s %s: %s (complete about %.0f s into the steady part)\n", p.Name, strings.Join(who, " "), p.Title, max(at, 0))
+		at := float64(p.CompleteIndex-sc.Opening) / rate
+		rule, _ := p.FoundWith(kind, k)
+		fmt.Fprintf(&b, "  %-16s %-21s %s: %s (complete about %.0f s into the steady part)\n", p.Name, rule, strings.Join(p.Expect, " "), p.Title, max(at, 0))
 	}
 	fmt.Fprintln(&b, "orbitwatch demo: alerts are leads for a trained investigator, not findings about people")
 	return b.String()

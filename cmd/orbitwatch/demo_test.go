@@ -20,6 +20,7 @@ import (
 	"github.com/nats-io/nats.go"
 
 	"orbitwatch/bench/demo"
+	"orbitwatch/delta"
 	"orbitwatch/shard"
 )
 
@@ -77,12 +78,61 @@ func waitStory(t *testing.T, c *child, sc *demo.Scenario) string {
 	}
 }
 
+// checkDemoAlerts demands from alerts (newest first) an alert of its rule
+// on an expected node of every pattern meant for kind on up to k nodes,
+// and none on a quiet pattern (the busiest shop, the biggest payroll
+// provider).
+func checkDemoAlerts(t *testing.T, sc *demo.Scenario, kind delta.Kind, k int, alerts []alertReply) {
+	t.Helper()
+	for i := 1; i < len(alerts); i++ {
+		if alerts[i].Seq > alerts[i-1].Seq {
+			t.Fatalf("alerts not newest first: seq %d after %d", alerts[i].Seq, alerts[i-1].Seq)
+		}
+	}
+	for _, p := range sc.Expected(kind, k) {
+		var on []alertReply
+		for _, a := range alerts {
+			if slices.Contains(p.Nodes, a.Node) {
+				on = append(on, a)
+			}
+		}
+		if p.Quiet {
+			if len(on) != 0 {
+				t.Errorf("%v: quiet %s %v: alerts %+v", kind, p.Name, p.Nodes, on)
+			}
+			continue
+		}
+		rule, _ := p.FoundWith(kind, k)
+		if !slices.ContainsFunc(on, func(a alertReply) bool { return a.Rule == rule && slices.Contains(p.Expect, a.Node) }) {
+			t.Errorf("%v: %s: no %s alert on %v (alerts on its nodes: %+v)", kind, p.Name, rule, p.Expect, on)
+		}
+	}
+}
+
+// demoNATS connects to the NATS server of a demo with its data in data,
+// with the key the demo made there.
+func demoNATS(t *testing.T, c *child, data string) *nats.Conn {
+	t.Helper()
+	opt, err := nats.NkeyOptionFromSeed(filepath.Join(data, natsKeyFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	nc, err := nats.Connect(c.waitFor(t, "NATS "), opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return nc
+}
+
 // TestDemoAlertsEndToEnd plays the small demo story through the real
-// binary (embedded NATS server, one worker, Badger) and demands from
-// /v1/alerts an alert on an expected node of every planted pattern and
-// none on the quiet hub; every alert also reaches the bus subject and a
-// webhook that refuses its first two requests. It checks the history and
-// neighbours endpoints against the node read and the scenario.
+// binary (embedded NATS server, one worker, Badger) with the default
+// kind, directed on 2–3 nodes, and demands from /v1/alerts an alert of
+// its rule on an expected node of every pattern meant for that kind and
+// none on the quiet hub and payroll provider; every alert also reaches the
+// bus subject and a webhook that refuses its first two requests. The
+// embedded server refuses a client without the demo's key. It checks the
+// history and neighbours endpoints against the node read and the
+// scenario.
 func TestDemoAlertsEndToEnd(t *testing.T) {
 	sc := demo.Generate(demo.SmallConfig())
 
@@ -109,10 +159,11 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 
 	data := filepath.Join(t.TempDir(), "demo")
 	c := startDemo(t, data, "--webhook", hook.URL)
-	nc, err := nats.Connect(c.waitFor(t, "NATS "))
-	if err != nil {
-		t.Fatal(err)
+	if open, err := nats.Connect(c.waitFor(t, "NATS ")); err == nil {
+		open.Close()
+		t.Fatal("the demo's NATS server admitted a client without its key")
 	}
+	nc := demoNATS(t, c, data)
 	defer nc.Close()
 	var busMu sync.Mutex
 	var onBus []string
@@ -134,32 +185,7 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 	if code := getJSON(t, base+"/v1/alerts?limit=1000", &got); code != http.StatusOK || len(got.Alerts) == 0 {
 		t.Fatalf("/v1/alerts: status %d, %d alerts", code, len(got.Alerts))
 	}
-	for i := 1; i < len(got.Alerts); i++ {
-		if got.Alerts[i].Seq > got.Alerts[i-1].Seq {
-			t.Fatalf("alerts not newest first: seq %d after %d", got.Alerts[i].Seq, got.Alerts[i-1].Seq)
-		}
-	}
-	for _, p := range sc.Patterns {
-		var on []alertReply
-		for _, a := range got.Alerts {
-			if slices.Contains(p.Nodes, a.Node) {
-				on = append(on, a)
-			}
-		}
-		if p.Quiet {
-			if len(on) != 0 {
-				t.Errorf("quiet %s %v: alerts %+v", p.Name, p.Nodes, on)
-			}
-			continue
-		}
-		found := false
-		for _, a := range on {
-			found = found || slices.Contains(p.Expect, a.Node)
-		}
-		if !found {
-			t.Errorf("%s: no alert on %v (alerts on its nodes: %+v)", p.Name, p.Expect, on)
-		}
-	}
+	checkDemoAlerts(t, sc, delta.Directed, 3, got.Alerts)
 	// Filters: by node and by rule, and since a cut.
 	mule := sc.Pattern("fan-out").Expect[0]
 	var byNode struct{ Alerts []alertReply }
@@ -168,9 +194,9 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 		t.Fatalf("alerts of node %s: %+v", mule, byNode.Alerts)
 	}
 	var byRule struct{ Alerts []alertReply }
-	getJSON(t, base+"/v1/alerts?rule=clique", &byRule)
-	if len(byRule.Alerts) == 0 || slices.ContainsFunc(byRule.Alerts, func(a alertReply) bool { return a.Rule != "clique" }) {
-		t.Fatalf("alerts of rule clique: %+v", byRule.Alerts)
+	getJSON(t, base+"/v1/alerts?rule=round-trip", &byRule)
+	if len(byRule.Alerts) == 0 || slices.ContainsFunc(byRule.Alerts, func(a alertReply) bool { return a.Rule != "round-trip" }) {
+		t.Fatalf("alerts of rule round-trip: %+v", byRule.Alerts)
 	}
 	last := got.Alerts[0].Seq
 	var since struct{ Alerts []alertReply }
@@ -182,9 +208,10 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 		t.Fatalf("limit=0: status %d, want 400", code)
 	}
 
-	// History: the last version is the node's current vector.
-	var node nodeReply
-	getJSON(t, base+"/v1/nodes/"+mule, &node)
+	// History: the last version is the node's vector as of the last cut
+	// (events after it are in the read now but in no cut; a directed
+	// vector also changes when a payee pays on, without a change of the
+	// mule's own record).
 	var hist struct {
 		Versions []struct {
 			Seq    uint64   `json:"seq"`
@@ -194,11 +221,15 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 	if code := getJSON(t, base+"/v1/nodes/"+mule+"/history", &hist); code != http.StatusOK || len(hist.Versions) < 2 {
 		t.Fatalf("history of %s: status %d, %d versions", mule, code, len(hist.Versions))
 	}
-	if v := hist.Versions[len(hist.Versions)-1]; !slices.Equal(v.Orbits, node.Orbits) {
-		t.Fatalf("last history version %v, node read %v", v.Orbits, node.Orbits)
+	var node nodeReply
+	v := hist.Versions[len(hist.Versions)-1]
+	getJSON(t, fmt.Sprintf("%s/v1/nodes/%s?seq=%d", base, mule, v.Seq), &node)
+	if !slices.Equal(v.Orbits, node.Orbits) || node.Seq != v.Seq {
+		t.Fatalf("last history version at %d: %v, node read as of it: %+v", v.Seq, v.Orbits, node)
 	}
-	if hist.Versions[0].Orbits[0] >= node.Orbits[0] {
-		t.Fatalf("the mule's first version has %d edges, its last %d: want growth", hist.Versions[0].Orbits[0], node.Orbits[0])
+	// Directed orbit 1 is "payer of a one-way arc": the mule's payees.
+	if hist.Versions[0].Orbits[1] >= node.Orbits[1] {
+		t.Fatalf("the mule's first version has %d payees, its last %d: want growth", hist.Versions[0].Orbits[1], node.Orbits[1])
 	}
 	if code := getJSON(t, base+"/v1/nodes/acct-nobody/history", &hist); code != http.StatusNotFound {
 		t.Fatalf("history of an unknown node: status %d, want 404", code)
@@ -257,7 +288,8 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 
 	// Again on the same data: the story is republished under the same
 	// event ids, so nothing new is stored; the worker restores its alert
-	// state from the checkpoint and lists the same alerts, none twice.
+	// state from the checkpoint and lists the same alerts, none twice. The
+	// key made at the first start is used again.
 	c = startDemo(t, data)
 	base = waitStory(t, c, sc)
 	var again struct{ Alerts []alertReply }
@@ -266,6 +298,29 @@ func TestDemoAlertsEndToEnd(t *testing.T) {
 		t.Fatalf("after a restart %d alerts, before %d", len(again.Alerts), len(got.Alerts))
 	}
 	c.stop(t)
+}
+
+// TestDemoOtherKinds plays the small story counted as an undirected and
+// as a signed graph (the disputes reach the worker over the bus with their
+// sign) and demands the patterns meant for each, and quiet quiet ones.
+func TestDemoOtherKinds(t *testing.T) {
+	sc := demo.Generate(demo.SmallConfig())
+	for _, c := range []struct {
+		kind delta.Kind
+		k    int
+	}{{delta.Undirected, 4}, {delta.Signed, 3}} {
+		ch := startDemo(t, filepath.Join(t.TempDir(), "demo"), "--kind", c.kind.String())
+		base := waitStory(t, ch, sc)
+		var got struct{ Alerts []alertReply }
+		if code := getJSON(t, base+"/v1/alerts?limit=1000", &got); code != http.StatusOK {
+			t.Fatalf("%v: /v1/alerts: status %d", c.kind, code)
+		}
+		checkDemoAlerts(t, sc, c.kind, c.k, got.Alerts)
+		ch.stop(t)
+	}
+	if out, code := run(t, "demo", "--kind", "undirected", "--max-nodes", "3"); code != 2 || !strings.Contains(out, "4 nodes") {
+		t.Fatalf("demo --kind undirected --max-nodes 3: exit %d\n%s", code, out)
+	}
 }
 
 // chromiumPath finds Debian's chromium; the test fails without it.
@@ -323,10 +378,10 @@ func TestDemoPage(t *testing.T) {
 		re   string
 		min  int
 	}{
-		{"signature bars (15 orbits)", `<g class="orbit-bar" data-orbit="\d+">`, 15},
-		{"bar rectangles", `<rect class="bar"`, 15},
+		{"signature bars (33 directed orbits)", `<g class="orbit-bar" data-orbit="\d+">`, 33},
+		{"bar rectangles", `<rect class="bar"`, 33},
 		{"history series", `<path class="series" data-orbit="\d+"`, 1},
-		{"neighbour dots", `<circle class="nbr"`, 24},
+		{"neighbour dots (the page draws the busiest, at least 16 of the mule's 34)", `<circle class="nbr"`, 16},
 		{"the node's alerts", `(?s)id="node-alert-list".*?<li class="alert" data-rule="fan-out"`, 1},
 		{"recent alerts", `(?s)id="recent".*?<li class="alert"`, 1},
 		{"shard status", `class="shard-status"`, 1},
@@ -337,8 +392,8 @@ func TestDemoPage(t *testing.T) {
 			t.Errorf("%s: %d matches of %s, want ≥ %d", ch.what, n, ch.re, ch.min)
 		}
 	}
-	if n := count(`<g class="orbit-bar"`); n != 15 {
-		t.Errorf("%d signature bars, want one per orbit (15)", n)
+	if n := count(`<g class="orbit-bar"`); n != 33 {
+		t.Errorf("%d signature bars, want one per orbit of the directed 2–3 catalog (33)", n)
 	}
 	if t.Failed() {
 		t.Logf("DOM:\n%s", dom)

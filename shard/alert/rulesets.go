@@ -49,7 +49,12 @@ func weights1(cat *catalog.Catalog, names ...string) []OrbitWeight {
 //     every day.
 //
 // The levels are rules of thumb checked on the demo scenario (package
-// bench/demo), not fitted to real data.
+// bench/demo; seeds 1 and 2, one simulated day, every touched background
+// node at every evaluated cut), not fitted to real data: there the
+// payroll provider's pairs of payees grew at most ×1.26 while it took on
+// 150 staff in an hour, a shop's pairs of payers at most ×1.11, a
+// household's (payer, payee) pairs reached at most 14, and no background
+// node was on a one-way cycle.
 func DirectedRules(cat *catalog.Catalog) []Rule {
 	if cat.Kind != delta.Directed {
 		panic("alert: DirectedRules of a " + cat.Kind.String() + " catalog")
@@ -96,7 +101,14 @@ func DirectedRules(cat *catalog.Catalog) []Rule {
 //     as a go-between whose buyers and sellers fall out.
 //
 // The levels are rules of thumb checked on the demo scenario (package
-// bench/demo), not fitted to real data.
+// bench/demo; seeds 1 and 2, one simulated day, every touched background
+// node at every evaluated cut, a chargeback for one payment in a
+// hundred), not fitted to real data: there a shop had at most 11
+// disputed ties, a share of at most 0.015; no household had 8; the most
+// unbalanced triangles of a background node was 5 (a busy shop, among
+// hundreds of balanced ones), and no background node was on the positive
+// tie of a triangle with two disputes (that needs two partners disputing
+// the same shop).
 func SignedRules(cat *catalog.Catalog) []Rule {
 	if cat.Kind != delta.Signed {
 		panic("alert: SignedRules of a " + cat.Kind.String() + " catalog")

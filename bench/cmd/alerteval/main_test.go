@@ -7,57 +7,38 @@ import (
 	"time"
 
 	"orbitwatch/bench/demo"
+	"orbitwatch/bench/demo/evaluate"
 	"orbitwatch/delta"
-	"orbitwatch/shard"
 )
 
-// TestSmallScenario runs the evaluation on the small scenario: every
-// planted pattern is alerted on an expected node no later than 10 s of
-// event time after its last payment, the hub raises nothing, and the
-// report carries one line per pattern.
-func TestSmallScenario(t *testing.T) {
+// TestReport runs the small scenario for each kind and checks the report
+// has a line, with its rule, for every pattern meant for the kind and for
+// the quiet ones, and none for the others. Whether the rules find the
+// patterns is bench/demo's TestDemoRules.
+func TestReport(t *testing.T) {
 	sc := demo.Generate(demo.SmallConfig())
-	counting, err := shard.NewCounting(delta.Undirected, 4)
-	if err != nil {
-		t.Fatal(err)
-	}
-	ac, err := demo.AlertConfig(counting.Catalog)
-	if err != nil {
-		t.Fatal(err)
-	}
-	res, err := Run(sc, counting, ac, t.TempDir(), 10*time.Second)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if res.Primed == 0 || res.From.Before(sc.Config.Start.Add(ac.Lookback)) {
-		t.Fatalf("%d priming cuts, evaluation from %s: want priming for the first look-back after %s", res.Primed, res.From, sc.Config.Start)
-	}
-	out, _ := Score(sc, res.Alerts)
-	for _, o := range out {
-		switch {
-		case o.Pattern.Quiet && o.Alerts != 0:
-			t.Errorf("quiet %s: %d alerts (%v)", o.Pattern.Name, o.Alerts, o.Rules)
-		case !o.Pattern.Quiet && o.First == nil:
-			t.Errorf("%s: no alert on %v", o.Pattern.Name, o.Pattern.Expect)
-		case !o.Pattern.Quiet && o.Delay > 10*time.Second:
-			t.Errorf("%s: first alert %s after completion", o.Pattern.Name, o.Delay)
+	for _, c := range []struct {
+		kind delta.Kind
+		k    int
+	}{{delta.Undirected, 4}, {delta.Directed, 3}, {delta.Signed, 3}} {
+		res, ac, err := evaluate.RunDemo(sc, c.kind, c.k, t.TempDir(), time.Minute)
+		if err != nil {
+			t.Fatal(err)
 		}
-	}
-	var buf bytes.Buffer
-	Report(&buf, sc, res, "demo rules", 10*time.Second)
-	for _, p := range sc.Patterns {
-		if !strings.Contains(buf.String(), "| "+p.Name) {
-			t.Errorf("report has no line for %s:\n%s", p.Name, buf.String())
+		if res.Primed == 0 || res.From.Before(sc.Config.Start.Add(ac.Lookback)) {
+			t.Fatalf("%d priming cuts, evaluation from %s: want priming for the first look-back after %s", res.Primed, res.From, sc.Config.Start)
 		}
-	}
-}
-
-func TestFalseRate(t *testing.T) {
-	// 3 alerts on 20k nodes over 12 h: 3 / 2 / 0.5 = 3 per 10k per day.
-	if got := FalseRate(3, 20000, 12*time.Hour); got != 3 {
-		t.Fatalf("FalseRate = %v, want 3", got)
-	}
-	if got := FalseRate(3, 20000, 0); got != 0 {
-		t.Fatalf("FalseRate over no time = %v, want 0", got)
+		var buf bytes.Buffer
+		Report(&buf, sc, c.kind, c.k, res, "demo rules", time.Minute)
+		for _, p := range sc.Patterns {
+			rule, meant := p.FoundWith(c.kind, c.k)
+			line := "| " + p.Name + " | " + rule + " |"
+			if p.Quiet {
+				line = "| " + p.Name + " (" + p.Nodes[0] + ", quiet)"
+			}
+			if has := strings.Contains(buf.String(), line); has != (meant || p.Quiet) {
+				t.Errorf("%v 2–%d: report has line %q: %v, want %v:\n%s", c.kind, c.k, line, has, meant || p.Quiet, buf.String())
+			}
+		}
 	}
 }
