@@ -595,7 +595,7 @@ func TestKubernetesManifestsAgree(t *testing.T) {
 		t.Errorf("selectors %v / %v do not match the pod labels %v", svc.Spec.Selector, sts.Spec.Selector, pod.Metadata.Labels)
 	}
 	if sts.Spec.PodManagementPolicy != "Parallel" {
-		t.Errorf("podManagementPolicy %q: with OrderedReady pod 1 waits for pod 0 to be ready, which needs pod 1's deltas", sts.Spec.PodManagementPolicy)
+		t.Errorf("podManagementPolicy %q: with OrderedReady a restart of the set catches up one shard after another", sts.Spec.PodManagementPolicy)
 	}
 	if shards, err := strconv.Atoi(cm.Data["ORBITWATCH_SHARDS"]); err != nil || shards != sts.Spec.Replicas {
 		t.Errorf("ConfigMap ORBITWATCH_SHARDS %q, StatefulSet replicas %d: they must be equal", cm.Data["ORBITWATCH_SHARDS"], sts.Spec.Replicas)
