@@ -55,6 +55,9 @@ type HoodNode struct {
 	Degree int    `json:"degree"`
 	// Hidden is how many of the node's ties the drawing leaves out.
 	Hidden int `json:"hidden"`
+	// Via is, for a second-hop node, the index in Nodes of the neighbour
+	// whose pick it was (a drawing puts it beside that one).
+	Via int `json:"via,omitempty"`
 }
 
 // Tie is one tie between Nodes[A] and Nodes[B]. Dir, for directed kinds,
@@ -282,6 +285,7 @@ func drawHood(ctx context.Context, g hoodGraph, kind delta.Kind, x uint32, q Nei
 	}
 	// Ties among the first hop, and each neighbour's candidates.
 	adj := make([][]delta.Adj, len(ids))
+	var via []int // the picking neighbour of each node drawn, from the second hop on
 	seen := map[uint32]*candidate{}
 	var cands []*candidate
 	for i := 1; i < len(ids); i++ {
@@ -319,6 +323,7 @@ func drawHood(ctx context.Context, g hoodGraph, kind delta.Kind, x uint32, q Nei
 		}
 		// Each neighbour in turn picks its best candidates not yet taken.
 		taken := 0
+		via = make([]int, len(ids))
 		for i := 1; i <= len(first) && taken < MaxFarNodes; i++ {
 			var mine []candidate
 			for _, a := range adj[i] {
@@ -332,6 +337,7 @@ func drawHood(ctx context.Context, g hoodGraph, kind delta.Kind, x uint32, q Nei
 			for _, c := range mine[:min(len(mine), far, MaxFarNodes-taken)] {
 				pos[c.x] = len(ids)
 				ids = append(ids, c.x)
+				via = append(via, i)
 				taken++
 			}
 		}
@@ -344,7 +350,13 @@ func drawHood(ctx context.Context, g hoodGraph, kind delta.Kind, x uint32, q Nei
 			}
 		}
 	}
-	return fillHood(g, ids, len(first), r)
+	if err := fillHood(g, ids, len(first), r); err != nil {
+		return err
+	}
+	for i := len(first) + 1; i < len(ids); i++ {
+		r.Nodes[i].Via = via[i]
+	}
+	return nil
 }
 
 // fillHood writes the nodes drawn (ids; 1..nFirst the first hop) with

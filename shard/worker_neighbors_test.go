@@ -151,6 +151,9 @@ func checkHood(t *testing.T, a *Applier, p *plainGraph, q NeighborQuery, nb Neig
 			if n.Hop != 2 || nearCentre || !reached {
 				t.Fatalf("%s: %+v is no second-hop node of the drawing", x, n)
 			}
+			if _, _, ok := p.link(nb.Nodes[n.Via].ID, n.ID); n.Via < 1 || n.Via > len(want) || !ok {
+				t.Fatalf("%s: %+v is drawn via %d, not a neighbour joined to it", x, n, n.Via)
+			}
 		}
 	}
 	if far := len(nb.Nodes) - 1 - len(want); far > min(q.Far*len(want), MaxFarNodes) {

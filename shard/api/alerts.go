@@ -113,10 +113,17 @@ func (a *api) unknownRule(rule string) string {
 	return fmt.Sprintf("unknown rule %s: the rules are %s", quoted(rule), strings.Join(names, ", "))
 }
 
+// orbitJSON is one orbit of the catalog: its names, and its graphlet's
+// name, size, tie count and negative tie count (the sign pattern the page
+// groups signed orbits by; 0 for unsigned kinds).
 type orbitJSON struct {
-	ID       int    `json:"id"`
-	Name     string `json:"name"`
-	Graphlet string `json:"graphlet"`
+	ID           int    `json:"id"`
+	Name         string `json:"name"`
+	Short        string `json:"short"`
+	Graphlet     string `json:"graphlet"`
+	Nodes        int    `json:"nodes"`
+	Ties         int    `json:"ties"`
+	NegativeTies int    `json:"negative_ties"`
 }
 
 func (a *api) catalog(w http.ResponseWriter, r *http.Request) {
@@ -127,7 +134,14 @@ func (a *api) catalog(w http.ResponseWriter, r *http.Request) {
 		Orbits   []orbitJSON `json:"orbits"`
 	}{Kind: a.kind, MaxNodes: a.maxNodes}
 	for _, o := range cat.Orbits {
-		out.Orbits = append(out.Orbits, orbitJSON{ID: o.ID, Name: o.Name, Graphlet: cat.Graphlets[o.Graphlet].Name})
+		g := &cat.Graphlets[o.Graphlet]
+		neg := 0
+		for _, n := range g.Neg {
+			if n {
+				neg++
+			}
+		}
+		out.Orbits = append(out.Orbits, orbitJSON{ID: o.ID, Name: o.Name, Short: o.Short, Graphlet: g.Name, Nodes: g.Nodes, Ties: len(g.Edges), NegativeTies: neg})
 	}
 	writeJSON(w, http.StatusOK, out)
 }

@@ -297,6 +297,9 @@ func TestAPICatalogAndNeighborsWithoutAdjacency(t *testing.T) {
 	if cat.Kind != "undirected" || cat.MaxNodes != 4 || len(cat.Orbits) != 15 || cat.Orbits[14].Name != "K4" || cat.Orbits[8].Graphlet != "4-cycle" {
 		t.Fatalf("catalog: %+v", cat)
 	}
+	if k4, c4, e := cat.Orbits[14], cat.Orbits[8], cat.Orbits[0]; k4.Nodes != 4 || k4.Ties != 6 || c4.Ties != 4 || e.Nodes != 2 || e.Ties != 1 || k4.NegativeTies != 0 {
+		t.Fatalf("catalog sizes: K4 %+v, 4-cycle %+v, edge %+v", k4, c4, e)
+	}
 	for i, o := range cat.Orbits {
 		if o.ID != i {
 			t.Fatalf("catalog orbit %d has id %d", i, o.ID)

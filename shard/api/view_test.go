@@ -141,7 +141,12 @@ func openStore(t testing.TB, c *shard.Counting, dir string) *storage.Store {
 // of 1) and the recounted state at each cut and, last, at the end.
 func buildView(t testing.TB, events []stream.Event, cuts []uint64, alerts map[uint64][]alert.Alert) (*applierView, []snapshot) {
 	t.Helper()
-	c := undirected4(t)
+	return buildViewOf(t, undirected4(t), events, cuts, alerts)
+}
+
+// buildViewOf is buildView for the kind and size c counts.
+func buildViewOf(t testing.TB, c *shard.Counting, events []stream.Event, cuts []uint64, alerts map[uint64][]alert.Alert) (*applierView, []snapshot) {
+	t.Helper()
 	st := openStore(t, c, t.TempDir())
 	a := shard.NewApplier(c, 0, shard.Cuts{})
 	a.OnCut = func(cp *storage.Checkpoint) error {
