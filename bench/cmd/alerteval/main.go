@@ -14,7 +14,8 @@
 // Targets it reports against: every planted pattern alerted within 10 s of
 // event time after it completes (with -cut 10s; with coarser cuts, by the
 // first cut after it); at most 1 false alert per 10k background nodes per
-// simulated day.
+// simulated day. With -margins it also prints, per orbit rule, the
+// highest score and count any background node reached.
 package main
 
 import (
@@ -41,6 +42,7 @@ func main() {
 	cut := flag.Duration("cut", time.Minute, "event time between cuts")
 	rules := flag.String("alerts", "", "alert rules file (default: the demo's rules of the kind, see bench/demo AlertConfig)")
 	defaults := flag.Bool("default-rules", false, "use the alert package's default rules instead of the demo's")
+	margins := flag.Bool("margins", false, "also print how close the background came to each orbit rule (evaluate.Margins)")
 	flag.Parse()
 	kind, err := delta.ParseKind(*kindName)
 	if err != nil {
@@ -87,6 +89,31 @@ func main() {
 	}
 	fmt.Fprintf(os.Stderr, "alerteval: %d events, %d cuts in %.1f s\n", len(sc.Events), res.Cuts, time.Since(began).Seconds())
 	Report(os.Stdout, sc, kind, k, res, label, *cut)
+	if *margins {
+		ms, err := evaluate.Margins(sc, counting, ac, *cut)
+		if err != nil {
+			fail(err)
+		}
+		ReportMargins(os.Stdout, ms)
+	}
+}
+
+// ReportMargins writes the margins as a Markdown table.
+func ReportMargins(w io.Writer, ms []evaluate.Margin) {
+	fmt.Fprintln(w, "\n### How close the background came (every touched background node, every evaluated cut)")
+	fmt.Fprintln(w, "\n| rule | kind | fires at | highest score past min_count | on | highest count | on |")
+	fmt.Fprintln(w, "| --- | --- | --- | --- | --- | --- | --- |")
+	for _, m := range ms {
+		score, on := "— (none past min_count)", "—"
+		if m.HasScore {
+			score, on = fmt.Sprintf("%.3g", m.Score), m.Node+" at "+m.At.Format(time.TimeOnly)
+		}
+		who := m.CountNode
+		if who == "" {
+			who = "—"
+		}
+		fmt.Fprintf(w, "| %s | %s | %g (min_count %d) | %s | %s | %.0f | %s |\n", m.Rule.Name, m.Rule.Kind, m.Rule.Fire, m.Rule.MinCount, score, on, m.Count, who)
+	}
 }
 
 func fail(err error) {
