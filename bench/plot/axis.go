@@ -149,8 +149,9 @@ var timeSteps = []float64{1, 2, 5, 10, 15, 30, 60, 120, 300, 600, 900, 1800,
 
 // timeTicks returns ticks for a time axis over unix seconds lo..hi: the
 // first spacing giving at most 8 ticks, at multiples of it since the Unix
-// epoch (UTC), labelled by clock time, or by date when a tick is a day or
-// more apart.
+// epoch (UTC), labelled by date when a tick is a day or more apart, else
+// by clock time with the date before it on the first tick and wherever
+// the date changes.
 func timeTicks(lo, hi float64) []tick {
 	step := timeSteps[len(timeSteps)-1]
 	for _, st := range timeSteps {
@@ -167,9 +168,15 @@ func timeTicks(lo, hi float64) []tick {
 		layout = "Jan 2"
 	}
 	var ts []tick
+	lastDay := ""
 	for v := math.Ceil(lo/step) * step; v <= hi; v += step {
 		sec, frac := math.Modf(v)
-		ts = append(ts, tick{v, time.Unix(int64(sec), int64(frac*1e9)).UTC().Format(layout)})
+		t := time.Unix(int64(sec), int64(frac*1e9)).UTC()
+		label := t.Format(layout)
+		if day := t.Format("Jan 2"); step < 86400 && day != lastDay {
+			label, lastDay = day+" "+label, day
+		}
+		ts = append(ts, tick{v, label})
 	}
 	return ts
 }

@@ -34,7 +34,8 @@ type point struct{ x, y float64 }
 type canvas interface {
 	rect(x, y, w, h float64, fill color.RGBA, class string)
 	line(x1, y1, x2, y2, width float64, c color.RGBA)
-	polyline(pts []point, width float64, c color.RGBA, class, name string)
+	// polyline draws dashed when dash (on, off, on, … lengths) is set.
+	polyline(pts []point, width float64, c color.RGBA, dash []float64, class, name string)
 	// text draws s with its baseline at y.
 	text(x, y float64, s string, a anchor, c color.RGBA, class string)
 }
@@ -107,8 +108,12 @@ func (s *svgCanvas) line(x1, y1, x2, y2, width float64, c color.RGBA) {
 	s.printf(`<line x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f" stroke="%s" stroke-width="%.1f"/>`+"\n", x1, y1, x2, y2, hex(c), width)
 }
 
-func (s *svgCanvas) polyline(pts []point, width float64, c color.RGBA, class, name string) {
-	s.printf(`<path class="%s" data-name="%s" fill="none" stroke="%s" stroke-width="%.1f" stroke-linejoin="round" d="`, class, escape(name), hex(c), width)
+func (s *svgCanvas) polyline(pts []point, width float64, c color.RGBA, dash []float64, class, name string) {
+	s.printf(`<path class="%s" data-name="%s" fill="none" stroke="%s" stroke-width="%.1f" stroke-linejoin="round"`, class, escape(name), hex(c), width)
+	if len(dash) > 0 {
+		s.printf(` stroke-dasharray="%s"`, strings.Trim(fmt.Sprint(dash), "[]"))
+	}
+	s.printf(` d="`)
 	pen := false
 	for _, p := range pts {
 		if math.IsNaN(p.x) || math.IsNaN(p.y) {
@@ -174,17 +179,39 @@ func (p *pngCanvas) line(x1, y1, x2, y2, width float64, c color.RGBA) {
 	p.fill(c)
 }
 
-func (p *pngCanvas) polyline(pts []point, width float64, c color.RGBA, _, _ string) {
+func (p *pngCanvas) polyline(pts []point, width float64, c color.RGBA, dash []float64, _, _ string) {
 	p.z.DrawOp = draw.Over
+	k, left := 0, 0.0 // the dash pattern's current part and what is left of it
+	if len(dash) > 0 {
+		left = dash[0]
+	}
 	for i := 1; i < len(pts); i++ {
 		a, b := pts[i-1], pts[i]
 		if math.IsNaN(a.x+a.y) || math.IsNaN(b.x+b.y) {
 			continue
 		}
-		p.quad(a, b, width)
+		if len(dash) == 0 {
+			p.quad(a, b, width)
+			continue
+		}
+		// Walk the segment part by part; even parts are drawn.
+		n := math.Hypot(b.x-a.x, b.y-a.y)
+		for at := 0.0; at < n; {
+			step := math.Min(left, n-at)
+			if k%2 == 0 {
+				p.quad(lerp(a, b, at/n), lerp(a, b, (at+step)/n), width)
+			}
+			at += step
+			if left -= step; left <= 0 {
+				k = (k + 1) % len(dash)
+				left = dash[k]
+			}
+		}
 	}
 	p.fill(c)
 }
+
+func lerp(a, b point, f float64) point { return point{a.x + (b.x-a.x)*f, a.y + (b.y-a.y)*f} }
 
 // asciiFold replaces what the PNG font (ASCII only) cannot draw: letters
 // with accents by the bare letter, dashes by '-', other runes by '?'.

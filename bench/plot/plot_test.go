@@ -3,6 +3,7 @@ package plot
 import (
 	"bytes"
 	"encoding/xml"
+	"fmt"
 	"image/png"
 	"io"
 	"math"
@@ -285,7 +286,102 @@ func TestTimeTicks(t *testing.T) {
 		t.Errorf("30 days: %v", day)
 	}
 	hour := timeTicks(lo, lo+3*3600)
-	if len(hour) == 0 || len(hour) > 8 || hour[0].label != "00:00" {
+	if len(hour) == 0 || len(hour) > 8 || hour[0].label != "Jan 1 00:00" || hour[1].label != "00:30" {
 		t.Errorf("3 hours: %v", hour)
+	}
+	// Across midnight the new date is named where it starts.
+	night := timeTicks(lo+20*3600, lo+30*3600)
+	var labels []string
+	for _, tk := range night {
+		labels = append(labels, tk.label)
+	}
+	if all := strings.Join(labels, " "); !strings.HasPrefix(all, "Jan 1 20:00") || !strings.Contains(all, "Jan 2 00:00") || strings.Count(all, "Jan") != 2 {
+		t.Errorf("20:00 to 06:00: %s", all)
+	}
+}
+
+// TestLineChartHistory: a node's history as `orbitwatch history --plot`
+// draws it: step series (a corner at each change), each series with its
+// own dash pattern and a width no less than the next one's, a legend
+// below the plot whose names all fit the chart, one per row and column
+// slot, and the date on the time axis where it changes.
+func TestLineChartHistory(t *testing.T) {
+	t0 := time.Date(2026, 3, 1, 9, 0, 0, 0, time.UTC)
+	names := []string{"4 end of 4-path", "5 middle of 4-path", "7 centre of 3-star", "8 4-cycle", "10 degree-2 node of tailed triangle", "12 degree-2 node of diamond"}
+	var x []time.Time
+	series := make([]Series, len(names))
+	for i := range 40 {
+		x = append(x, t0.Add(time.Duration(i*37)*time.Minute))
+		for k := range names {
+			series[k].Name, series[k].Step = names[k], true
+			series[k].Y = append(series[k].Y, float64((i/3+1)*(k%3+1))) // series 0 and 3 are equal
+		}
+	}
+	for _, long := range []bool{false, true} {
+		if long {
+			series[2].Name = "node paying 1, paid by 2 of a triangle with 1 reciprocal pair, out-degrees 2-1-1 (form a)"
+		}
+		var buf bytes.Buffer
+		if err := LineChartSVG(&buf, "node \"acct-000123\": orbit counts by event time", x, series, true); err != nil {
+			t.Fatal(err)
+		}
+		els := parseSVG(t, buf.Bytes())
+		paths := byClass(els, "path", "series")
+		dashSeen := map[string]bool{}
+		prevW := math.Inf(1)
+		for i, p := range paths {
+			changes := 0
+			for j := 1; j < len(series[i].Y); j++ {
+				if series[i].Y[j] != series[i].Y[j-1] {
+					changes++
+				}
+			}
+			if n := strings.Count(p.attr["d"], "M") + strings.Count(p.attr["d"], "L"); n != len(series[i].Y)+changes {
+				t.Errorf("step series %d: %d points, want %d values and %d corners", i, n, len(series[i].Y), changes)
+			}
+			if dashSeen[p.attr["stroke-dasharray"]] {
+				t.Errorf("series %d repeats dash pattern %q", i, p.attr["stroke-dasharray"])
+			}
+			dashSeen[p.attr["stroke-dasharray"]] = true
+			w, _ := strconv.ParseFloat(p.attr["stroke-width"], 64)
+			if w > prevW {
+				t.Errorf("series %d is wider (%v) than the one before (%v)", i, w, prevW)
+			}
+			prevW = w
+		}
+		legend := byClass(els, "text", "legend")
+		type slot struct{ x, y string }
+		taken := map[slot]bool{}
+		for _, l := range legend {
+			lx, _ := strconv.ParseFloat(l.attr["x"], 64)
+			if end := lx + float64(charWidth*len([]rune(l.text))); end > Width {
+				t.Errorf("long=%v: legend %q ends at %v, past the chart's %d", long, l.text, end, Width)
+			}
+			s := slot{l.attr["x"], l.attr["y"]}
+			if taken[s] {
+				t.Errorf("long=%v: two legend names at %v", long, s)
+			}
+			taken[s] = true
+			if y, _ := strconv.ParseFloat(l.attr["y"], 64); y > Height-4 {
+				t.Errorf("long=%v: legend %q below the chart (y %v)", long, l.text, y)
+			}
+		}
+		if len(legend) != len(series) {
+			t.Fatalf("%d legend names", len(legend))
+		}
+		var labels []string
+		for _, tk := range byClass(els, "text", "tick") {
+			labels = append(labels, tk.text)
+		}
+		if all := strings.Join(labels, " "); !strings.Contains(all, "Mar 1 ") || !strings.Contains(all, "Mar 2 00:00") {
+			t.Errorf("time ticks without dates: %s", all)
+		}
+		if dir := os.Getenv("ORBITWATCH_PLOT_DIR"); dir != "" {
+			var png bytes.Buffer
+			if err := LineChartPNG(&png, "node \"acct-000123\": orbit counts by event time", x, series, true); err != nil {
+				t.Fatal(err)
+			}
+			_ = os.WriteFile(fmt.Sprintf("%s/history-long-%v.png", dir, long), png.Bytes(), 0o644)
+		}
 	}
 }

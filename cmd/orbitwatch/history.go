@@ -235,7 +235,8 @@ func drawHistory(w io.Writer, ext string, cat *catalog.Catalog, node string, ver
 		for j, v := range vers {
 			y[j] = float64(v.Vector[o])
 		}
-		series[i] = plot.Series{Name: fmt.Sprintf("%d %s", o, cat.Orbits[o].Name), Y: y}
+		// A count holds from one cut to the next: steps, not slopes.
+		series[i] = plot.Series{Name: fmt.Sprintf("%d %s", o, cat.Orbits[o].Name), Y: y, Step: true}
 	}
 	timed := true
 	for _, v := range vers {
