@@ -1,6 +1,7 @@
 package shard
 
 import (
+	"errors"
 	"fmt"
 	"net/http"
 	"time"
@@ -148,19 +149,32 @@ type Drift struct {
 
 // DriftAt returns the Drift from the latest complete cut with Seq ≤
 // fromSeq to the latest with Seq ≤ toSeq (one profile when both name the
-// same cut).
+// same cut). The two cuts are loaded and profiled at once, one per core
+// (loading a state is mostly one core's work).
 func DriftAt(st *storage.Store, c *Counting, fromSeq, toSeq uint64) (Drift, error) {
 	var d Drift
+	same := toSeq == fromSeq
+	if !same {
+		from, err1 := CheckpointAt(st, fromSeq)
+		to, err2 := CheckpointAt(st, toSeq)
+		same = err1 == nil && err2 == nil && from.Seq == to.Seq
+	}
+	var errB error
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		if !same {
+			d.B, d.To, errB = ProfileAt(st, c, toSeq)
+		}
+	}()
 	var err error
-	if d.A, d.From, err = ProfileAt(st, c, fromSeq); err != nil {
+	d.A, d.From, err = ProfileAt(st, c, fromSeq)
+	<-done
+	if err = errors.Join(err, errB); err != nil {
 		return Drift{}, err
 	}
-	if d.B, d.To = d.A, d.From; toSeq != fromSeq {
-		if cut, err := CheckpointAt(st, toSeq); err != nil || cut.Seq != d.From.Seq {
-			if d.B, d.To, err = ProfileAt(st, c, toSeq); err != nil {
-				return Drift{}, err
-			}
-		}
+	if same {
+		d.B, d.To = d.A, d.From
 	}
 	if d.Drift, err = gdv.Compare(d.A, d.B); err != nil {
 		return Drift{}, err

@@ -327,6 +327,7 @@ func (l *LiveSignatures) Similar(a *Applier, rl sync.Locker, req SimilarRequest)
 // read lock. After an error the next refresh derives every node.
 func (l *LiveSignatures) refresh(a *Applier) error {
 	if l.sig != nil && l.sig.seq == a.Seq() {
+		l.last = Refresh{}
 		return nil
 	}
 	start := time.Now()
