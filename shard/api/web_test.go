@@ -1,12 +1,14 @@
 package api
 
 import (
+	"context"
 	"encoding/json"
 	"fmt"
 	"hash/fnv"
 	"io/fs"
 	"net/http"
 	"net/url"
+	"path/filepath"
 	"regexp"
 	"slices"
 	"strconv"
@@ -434,4 +436,74 @@ func TestPageSignedAndDirected(t *testing.T) {
 	}
 	b.screenshot("page-directed", true)
 	b.screenshotOf("#neighbourhood", "page-directed-neighbourhood")
+}
+
+// TestPageOverWorker: the page over a real worker following a real
+// JetStream log into a real Badger store lists the accounts with the
+// nearest signatures as the API gives them, each a link that opens it,
+// and draws the network's drift when its panel is opened.
+func TestPageOverWorker(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
+	defer cancel()
+	dir := t.TempDir()
+	const name, subject = "PAGELOG", "pagelog.events"
+	events := paymentsLog(7, 600)
+	nc := publishLog(t, ctx, dir, name, subject, events)
+	c := undirected4(t)
+	st := openStore(t, c, filepath.Join(dir, "state"))
+	w, err := shard.NewWorker(shard.WorkerConfig{Conn: nc, Stream: name, Subject: subject, Shard: 0, Shards: 1, Counting: c, Cuts: shard.Cuts{Every: time.Hour}, Store: st})
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := New(w, Options{})
+	wctx, wstop := context.WithCancel(ctx)
+	done := make(chan error, 1)
+	go func() { done <- w.Run(wctx) }()
+	defer func() {
+		wstop()
+		if err := <-done; err != nil {
+			t.Errorf("worker: %v", err)
+		}
+	}()
+	for s := w.Status(); s.AppliedSeq < uint64(len(events)) || s.CommittedSeq < s.CutSeq; s = w.Status() {
+		select {
+		case err := <-done:
+			t.Fatalf("worker stopped: %v", err)
+		case <-ctx.Done():
+			t.Fatalf("worker at %+v", s)
+		case <-time.After(10 * time.Millisecond):
+		}
+	}
+	base := serve(t, ServerConfig{Addr: "127.0.0.1:0"}, h).URL()
+
+	var sim struct {
+		Similar []struct {
+			Node     string
+			Distance float64
+		}
+	}
+	apiGet(t, base, "/v1/nodes/acct-005/similar?k=8", "", &sim)
+	if len(sim.Similar) == 0 {
+		t.Fatal("fixture: no similar accounts for acct-005")
+	}
+	b := newBrowser(t)
+	b.open(base + "/#node=acct-005")
+	b.waitFor(`document.querySelectorAll("#similar-list li a").length > 0 && document.querySelectorAll("#nb-chart circle.nbr").length > 0`)
+	var listed []string
+	b.eval(`[...document.querySelectorAll("#similar-list li a")].map((a) => a.textContent)`, &listed)
+	want := make([]string, len(sim.Similar))
+	for i, s := range sim.Similar {
+		want[i] = s.Node
+	}
+	if !slices.Equal(listed, want) {
+		t.Errorf("similar accounts on the page %v, the API gives %v", listed, want)
+	}
+	b.click(`#drift summary`)
+	b.waitFor(`document.querySelectorAll("#drift-chart path.series").length === 2 || document.querySelector("#drift-chart p:not(:empty)") && !document.querySelector("#drift-chart p").textContent.includes("computing")`)
+	if n := b.num(`document.querySelectorAll("#drift-chart path.series").length`); n != 2 {
+		t.Errorf("drift chart: %v series; the panel says %q", n, b.str(`document.getElementById("drift-chart").innerText`))
+	}
+	b.screenshot("page-worker", true)
+	b.click(`#similar-list li a`)
+	b.waitFor(fmt.Sprintf(`document.getElementById("node-title").textContent === %q && document.getElementById("node-meta").textContent.startsWith("Now")`, want[0]))
 }

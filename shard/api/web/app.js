@@ -219,7 +219,7 @@
   const dashes = ["", "7 4", "2 3", "10 3 2 3", "4 2", "1 2", "12 5"];
   function stepChart(opts) {
     const {xs, series, width, height, logY, mark, yLabel} = opts;
-    const left = 52, right = 14, top = 10, bottom = 34;
+    const left = 52, right = 14, top = yLabel ? 22 : 10, bottom = 34;
     const svg = el("svg:svg", {viewBox: `0 0 ${width} ${height}`, role: "img", "aria-label": opts.label});
     const t0 = Math.min(...xs), t1 = Math.max(...xs, mark || -Infinity, t0 + minute);
     const ys = series.flatMap((s) => s.y);
@@ -233,7 +233,7 @@
       svg.append(el("svg:line", {class: "axis", x1: left, x2: width - right, y1: Y(v), y2: Y(v)}));
       svg.append(el("svg:text", {x: left - 5, y: Y(v) + 4, "font-size": 10, "text-anchor": "end"}, logY ? fmtCount(v) : fmtCount(Math.round(v * 1000) / 1000)));
     }
-    if (yLabel) svg.append(el("svg:text", {x: 4, y: top + 2, "font-size": 10, class: "muted-text"}, yLabel));
+    if (yLabel) svg.append(el("svg:text", {x: 4, y: 11, "font-size": 10, class: "muted-text"}, yLabel));
     for (const tk of timeTicks(t0, t1, Math.floor((width - left - right) / 95))) {
       svg.append(el("svg:line", {class: "axis", x1: X(tk.t), x2: X(tk.t), y1: top, y2: height - bottom + 4}));
       svg.append(el("svg:text", {class: "tick", x: X(tk.t), y: height - bottom + 16, "font-size": 10, "text-anchor": "middle"}, tk.label));
