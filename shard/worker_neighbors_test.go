@@ -304,3 +304,54 @@ func TestNeighborhoodErrors(t *testing.T) {
 		t.Errorf("c as of a time after the last cut: %+v", nb)
 	}
 }
+
+// BenchmarkNeighborhood reads a two-hop drawing (16 neighbours, 3 each
+// beyond) around a merchant with 5000 customers, each paying 3 other
+// merchants of 50: now from the in-memory graph and as of the cut from
+// the store (every degree a key scan there).
+func BenchmarkNeighborhood(b *testing.B) {
+	c, err := NewCounting(delta.Undirected, 3)
+	if err != nil {
+		b.Fatal(err)
+	}
+	st, err := storage.Open(b.TempDir(), storage.Settings{Kind: delta.Undirected, MaxNodes: 3, NumOrbits: c.Catalog.NumOrbits()})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	a := NewApplier(c, 0, Cuts{})
+	a.OnCut = func(cp *storage.Checkpoint) error { return st.Commit(cp) }
+	r := rand.New(rand.NewPCG(3, 3))
+	seq := uint64(0)
+	for i := range 5000 {
+		cust := fmt.Sprintf("cust-%05d", i)
+		for k, m := range []string{"merchant-big", fmt.Sprintf("m-%02d", r.IntN(50)), fmt.Sprintf("m-%02d", r.IntN(50)), fmt.Sprintf("m-%02d", r.IntN(50))} {
+			seq++
+			if err := a.Apply(seq, stream.Event{Op: stream.OpAdd, Src: cust, Dst: m, TS: t0.Add(time.Duration(seq) * time.Second), HasTS: true}); err != nil && k == 0 {
+				b.Fatal(err)
+			}
+		}
+	}
+	if err := a.Cut(); err != nil {
+		b.Fatal(err)
+	}
+	ctx := context.Background()
+	for _, node := range []string{"merchant-big", "cust-00042"} {
+		q := NeighborQuery{Node: node, Limit: 16, Far: 3}
+		b.Run("now/"+node, func(b *testing.B) {
+			for b.Loop() {
+				if nb := NeighborhoodNow(ctx, a, q); !nb.Found {
+					b.Fatal(nb.Error)
+				}
+			}
+		})
+		q.Seq = a.Seq()
+		b.Run("stored/"+node, func(b *testing.B) {
+			for b.Loop() {
+				if nb := NeighborhoodStored(ctx, st, q); !nb.Found {
+					b.Fatal(nb.Error)
+				}
+			}
+		})
+	}
+}

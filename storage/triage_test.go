@@ -2,11 +2,14 @@ package storage
 
 import (
 	"errors"
+	"fmt"
 	"maps"
 	"slices"
 	"strings"
 	"testing"
 	"time"
+
+	"orbitwatch/delta"
 )
 
 // TestVerdicts: a verdict names a stored alert and copies its node, rule
@@ -134,4 +137,32 @@ func TestVerdicts(t *testing.T) {
 	re := openAlertStore(t, dir)
 	defer re.st.Close()
 	check(re.st)
+}
+
+// BenchmarkFindAlert finds an alert by id among 100k stored (100 cuts of
+// 1000), the last one in key order: the walk over alert keys a verdict
+// given by id costs.
+func BenchmarkFindAlert(b *testing.B) {
+	st, err := Open(b.TempDir(), Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: 15})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer st.Close()
+	var last string
+	for seq := uint64(1); seq <= 100; seq++ {
+		recs := make([]AlertRecord, 1000)
+		for i := range recs {
+			id := fmt.Sprintf("%016x", seq*1000+uint64(i))
+			recs[i] = AlertRecord{Seq: seq, ID: id, EventTime: alertWatermark(seq), Node: fmt.Sprintf("acct-%d", i), Rule: "ring", Body: []byte(`{}`)}
+			last = id
+		}
+		if err := st.Commit(&Checkpoint{Seq: seq, Watermark: alertWatermark(seq), Alerts: recs}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	for b.Loop() {
+		if _, err := st.FindAlert(last); err != nil {
+			b.Fatal(err)
+		}
+	}
 }

@@ -74,6 +74,14 @@ func TestTriage(t *testing.T) {
 			t.Errorf("POST verdict %.60s with token %.6q: %d %s, want %d mentioning %q", c.body, c.token, code, body, c.code, c.want)
 		}
 	}
+	// With several shards, an alert this worker does not hold is said to
+	// live with the owner of its node.
+	v2, _ := buildView(t, tailedTriangle(), []uint64{4, 5}, stored)
+	v2.n = 2
+	s2 := serve(t, ServerConfig{Addr: "127.0.0.1:0"}, New(v2, Options{}))
+	if code, body := postVerdict(t, client, s2.URL(), "", "0123456789abcdef", `{"verdict":"confirmed"}`); code != 404 || !strings.Contains(body, "shard 0 of 2") || !strings.Contains(body, "owns its node") {
+		t.Errorf("verdict on another shard's alert: %d %s", code, body)
+	}
 	if code, body := do(t, client, base, call{path: "/v1/alerts/" + ring.ID + "/triage", token: adminToken}); code != 405 {
 		t.Errorf("GET on the triage endpoint: %d %s", code, body)
 	}
