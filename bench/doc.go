@@ -2,9 +2,12 @@
 // own fictional payments scenario (made by bench/gen): the cost of one edge
 // event for each incremental engine under churn, the time of a full
 // recount, their ratio, and the recount against networkx's triangle count
-// on the same graph. The Benchmark functions of this package and the
-// program bench/cmd/orbitbench both run the measurements defined here;
-// bench/plot draws the charts of the reports.
+// on the same graph (the Benchmark functions of this package). Product
+// measures the product's own counting state (shard.Applier with the
+// counter it picks) for bench/cmd/orbitbench: the cost of an event by
+// endpoint degree, reads, and the heap of the state (MeasureState);
+// backfillbench and livebench build the orbitwatch binary (BuildBinary)
+// and time its commands. bench/plot draws the charts of the reports.
 //
 //	go test -run '^$' -bench . -timeout 0 ./bench/
 //	go test -run '^$' -bench Churn ./bench/ -bench.nodes 20000

@@ -35,34 +35,48 @@ func Python() (string, error) {
 }
 
 // trianglesScript loads an edge list (one "u v" per line), then times only
-// networkx.triangles(G) with time.perf_counter, and prints the seconds and
-// Σ_x triangles(x) (= 3 × the number of triangles).
+// networkx.triangles(G) with time.perf_counter (wall) and
+// time.process_time (CPU), and prints both in seconds and Σ_x triangles(x)
+// (= 3 × the number of triangles).
 const trianglesScript = `
 import sys, time
 import networkx as nx
 G = nx.Graph()
 with open(sys.argv[1]) as f:
     G.add_edges_from((int(a), int(b)) for a, b in (line.split() for line in f))
-t0 = time.perf_counter()
+t0, c0 = time.perf_counter(), time.process_time()
 tri = nx.triangles(G)
-t1 = time.perf_counter()
-print(t1 - t0, sum(tri.values()))
+t1, c1 = time.perf_counter(), time.process_time()
+print(t1 - t0, c1 - c0, sum(tri.values()))
 `
 
+// NetworkxRun is one timed call of networkx.triangles.
+type NetworkxRun struct {
+	Wall, CPU time.Duration
+	// Sum is Σ_x triangles(x), three times the number of triangles.
+	Sum uint64
+}
+
 // NetworkxTriangles writes edges to a temporary edge list, runs
-// networkx.triangles (networkx 2.8) on it in python and returns the time
-// of that call alone (interpreter start-up and graph loading excluded) and
-// Σ_x triangles(x), the sum of per-node triangle counts.
+// networkx.triangles (networkx 2.8) on it in python and returns the wall
+// time of that call alone (interpreter start-up and graph loading
+// excluded) and Σ_x triangles(x), the sum of per-node triangle counts.
 func NetworkxTriangles(python string, edges []gen.Edge) (time.Duration, uint64, error) {
+	r, err := TimeNetworkxTriangles(python, edges)
+	return r.Wall, r.Sum, err
+}
+
+// TimeNetworkxTriangles is NetworkxTriangles with the call's CPU time too.
+func TimeNetworkxTriangles(python string, edges []gen.Edge) (NetworkxRun, error) {
 	dir, err := os.MkdirTemp("", "orbitwatch-bench-")
 	if err != nil {
-		return 0, 0, err
+		return NetworkxRun{}, err
 	}
 	defer os.RemoveAll(dir)
 	path := filepath.Join(dir, "edges.txt")
 	f, err := os.Create(path)
 	if err != nil {
-		return 0, 0, err
+		return NetworkxRun{}, err
 	}
 	w := bufio.NewWriter(f)
 	var line []byte
@@ -74,23 +88,37 @@ func NetworkxTriangles(python string, edges []gen.Edge) (time.Duration, uint64, 
 		w.Write(line)
 	}
 	if err := errors.Join(w.Flush(), f.Close()); err != nil {
-		return 0, 0, fmt.Errorf("writing edge list: %w", err)
+		return NetworkxRun{}, fmt.Errorf("writing edge list: %w", err)
 	}
 	var stderr bytes.Buffer
 	cmd := exec.Command(python, "-c", trianglesScript, path)
 	cmd.Stderr = &stderr
 	out, err := cmd.Output()
 	if err != nil {
-		return 0, 0, fmt.Errorf("%s networkx.triangles: %v: %s", python, err, bytes.TrimSpace(stderr.Bytes()))
+		return NetworkxRun{}, fmt.Errorf("%s networkx.triangles: %v: %s", python, err, bytes.TrimSpace(stderr.Bytes()))
 	}
 	fields := strings.Fields(string(out))
-	if len(fields) != 2 {
-		return 0, 0, fmt.Errorf("networkx.triangles script printed %q, want seconds and a sum", out)
+	if len(fields) != 3 {
+		return NetworkxRun{}, fmt.Errorf("networkx.triangles script printed %q, want two times and a sum", out)
 	}
-	sec, err1 := strconv.ParseFloat(fields[0], 64)
-	sum, err2 := strconv.ParseUint(fields[1], 10, 64)
-	if err := errors.Join(err1, err2); err != nil {
-		return 0, 0, fmt.Errorf("networkx.triangles script printed %q: %w", out, err)
+	wall, err1 := strconv.ParseFloat(fields[0], 64)
+	cpu, err2 := strconv.ParseFloat(fields[1], 64)
+	sum, err3 := strconv.ParseUint(fields[2], 10, 64)
+	if err := errors.Join(err1, err2, err3); err != nil {
+		return NetworkxRun{}, fmt.Errorf("networkx.triangles script printed %q: %w", out, err)
 	}
-	return time.Duration(sec * float64(time.Second)), sum, nil
+	return NetworkxRun{Wall: seconds(wall), CPU: seconds(cpu), Sum: sum}, nil
+}
+
+func seconds(s float64) time.Duration { return time.Duration(s * float64(time.Second)) }
+
+// LoadAverage returns the one-minute load average of the machine as
+// /proc/loadavg gives it, or "?" where there is none: with the core count
+// it says how much of the machine the measurement had.
+func LoadAverage() string {
+	b, err := os.ReadFile("/proc/loadavg")
+	if f := strings.Fields(string(b)); err == nil && len(f) > 0 {
+		return f[0]
+	}
+	return "?"
 }

@@ -3,69 +3,45 @@ package main
 import (
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
-	"strconv"
-	"strings"
 
 	"orbitwatch/bench"
 	"orbitwatch/bench/plot"
-	"orbitwatch/delta"
 )
 
-// parseSizes parses a comma-separated list of node counts, each > m.
-func parseSizes(s string, m int) ([]int, error) {
-	var sizes []int
-	for _, f := range strings.Split(s, ",") {
-		n, err := strconv.Atoi(strings.TrimSpace(f))
-		if err != nil || n <= m {
-			return nil, fmt.Errorf("-scaling %q: %q is not a node count above -m %d", s, f, m)
+// plotClasses draws µs of CPU per event against the graph's node count,
+// one series per endpoint-degree class and one for uniform edges, as
+// dir/per-event.svg and dir/per-event.png (log y). Graphs of the same node
+// count (the merchant's) are left out after the first.
+func plotClasses(stderr io.Writer, dir string, rows []row) error {
+	var x []float64
+	series := []plot.Series{{Name: "uniform edges"}}
+	for _, name := range bench.BucketNames {
+		series = append(series, plot.Series{Name: name})
+	}
+	for _, r := range rows {
+		if len(x) > 0 && x[len(x)-1] == float64(r.nodes) {
+			continue
 		}
-		sizes = append(sizes, n)
-	}
-	return sizes, nil
-}
-
-// scaling measures each undirected engine's churn cost on Barabási–Albert
-// graphs of the given sizes, prints a Markdown table of ns/event and, when
-// dir is not empty, draws it as dir/scaling.svg and dir/scaling.png (log y).
-func scaling(w, stderr io.Writer, sizes []int, m int, seed uint64, events int, dir string) error {
-	counters := bench.Counters(delta.Undirected)
-	series := make([]plot.Series, len(counters))
-	for i, c := range counters {
-		series[i].Name = c.Name + " ns/event"
-	}
-	x := make([]float64, len(sizes))
-	for j, n := range sizes {
-		f := bench.BAFixture(n, m, seed, max(events, 1000))
-		fmt.Fprintln(stderr, "orbitbench: scaling", f.Describe())
-		x[j] = float64(n)
-		for i, c := range counters {
-			series[i].Y = append(series[i].Y, f.MeasureChurn(c, events).NsPerEvent())
+		x = append(x, float64(r.nodes))
+		series[0].Y = append(series[0].Y, r.uniform.CPUUs())
+		for i, c := range r.class {
+			y := math.NaN() // a class the graph lacks leaves a gap
+			if c.Events > 0 {
+				y = c.CPUUs()
+			}
+			series[i+1].Y = append(series[i+1].Y, y)
 		}
 	}
-	fmt.Fprintf(w, "\n| BA nodes (m = %d) |", m)
-	for _, c := range counters {
-		fmt.Fprintf(w, " %s ns/event |", c.Name)
-	}
-	fmt.Fprintf(w, "\n| ---: |%s\n", strings.Repeat(" ---: |", len(counters)))
-	for j, n := range sizes {
-		fmt.Fprintf(w, "| %d |", n)
-		for i := range counters {
-			fmt.Fprintf(w, " %.0f |", series[i].Y[j])
-		}
-		fmt.Fprintln(w)
-	}
-	if dir == "" {
-		return nil
-	}
-	title := fmt.Sprintf("Churn cost per event, Barabási–Albert m=%d", m)
+	title := "µs of CPU per edge event by node count, Barabási–Albert m=5"
 	for _, out := range []struct {
 		name string
 		draw func(io.Writer) error
 	}{
-		{"scaling.svg", func(f io.Writer) error { return plot.LineChartSVG(f, title, x, series, true) }},
-		{"scaling.png", func(f io.Writer) error { return plot.LineChartPNG(f, title, x, series, true) }},
+		{"per-event.svg", func(f io.Writer) error { return plot.LineChartSVG(f, title, x, series, true) }},
+		{"per-event.png", func(f io.Writer) error { return plot.LineChartPNG(f, title, x, series, true) }},
 	} {
 		path := filepath.Join(dir, out.name)
 		f, err := os.Create(path)
