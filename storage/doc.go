@@ -2,8 +2,9 @@
 // directory: the node dictionary (string id ↔ dense uint32), the adjacency
 // with multiplicities, every node's orbit vector with its history, the
 // applied sequence and event-time watermark, opaque records the applier
-// needs to resume (input progress, pending window expiries), and the alerts
-// raised at each cut.
+// needs to resume (input progress, pending window expiries), the alerts
+// raised at each cut, and investigators' verdicts on them (not versioned
+// by cut: they are what people said, not a function of the log).
 //
 // Badger runs in managed mode: a checkpoint at sequence s writes every
 // record at Badger version s, and a checkpoint is complete once its small

@@ -315,6 +315,7 @@ func TestPageTriage(t *testing.T) {
 	b.key("Space")
 	b.click(`#recent li.alert textarea`)
 	b.typeText("mule account, case 4417")
+	b.screenshot("page-review-form", false)
 	b.click(`#recent li.alert .triage-form button[type=submit]`)
 	b.waitFor(`document.querySelector("#recent li.alert .verdict") !== null`)
 	var one struct {
