@@ -222,6 +222,15 @@ func TestPageAccount(t *testing.T) {
 	var nv NodeVector
 	apiGet(t, base, "/v1/nodes/"+first, "", &nv)
 	checkBars(t, b, first+" after a click", nv.Orbits)
+	// The drawing's accounts are links in the tab order: Enter on one
+	// opens it too.
+	b.waitFor(`document.querySelectorAll('#nb-chart a.nbr-link[data-hop="1"]').length > 1`)
+	next := b.str(`(() => { const a = document.querySelectorAll('#nb-chart a.nbr-link[data-hop="1"]')[1]; a.focus(); return document.activeElement === a && a.tabIndex >= 0 ? a.getAttribute("href") : ""; })()`)
+	if next == "" {
+		t.Fatal("a neighbour in the drawing takes no keyboard focus")
+	}
+	b.key("Enter")
+	b.waitFor(fmt.Sprintf(`location.hash === %q && document.getElementById("node-meta").textContent.startsWith("Now")`, next))
 
 	// As of 12:00 on the first day.
 	const at = "2026-03-01T12:00:00Z"
