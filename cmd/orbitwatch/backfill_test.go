@@ -323,13 +323,17 @@ func TestBackfillKeepHistory(t *testing.T) {
 	kept := filepath.Join(dir, "kept")
 	all := filepath.Join(dir, "all")
 	alerted := filepath.Join(dir, "alerted")
+	rules := filepath.Join(dir, "rules.yaml")
+	if err := os.WriteFile(rules, []byte("lookback: 20m\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
 	for _, d := range []string{kept, all, alerted} {
 		args := []string{"backfill", "--data", d, "--input", log, "--checkpoint-every", "500", "--no-alerts"}
 		switch d {
 		case kept:
 			args = append(args, "--keep-history", "30m")
 		case alerted:
-			args = append(args[:len(args)-1], "--keep-history", "30m")
+			args = append(args[:len(args)-1], "--keep-history", "10m", "--alerts", rules, "--cut-every", "10m")
 		}
 		if out, code := run(t, args...); code != 0 {
 			t.Fatalf("backfill: exit %d\n%s", code, out)
@@ -346,10 +350,12 @@ func TestBackfillKeepHistory(t *testing.T) {
 	defer sk.Close()
 	defer sa.Close()
 	defer sl.Close()
-	// The built-in rules look back an hour: 6000 s − 3600 s = 2400 s,
-	// whose checkpoint is at seq 2000.
-	if sl.Floor() != 2000 {
-		t.Fatalf("retention floor with alert rules %d, want 2000 (an hour's look-back kept)", sl.Floor())
+	// Rules that look back 20 minutes, with cuts every 10 minutes, keep
+	// two look-backs and a cut spacing (50 minutes), more than the 10
+	// minutes asked for: 6000 s − 3000 s = 3000 s, whose checkpoint is at
+	// seq 3000.
+	if sl.Floor() != 3000 {
+		t.Fatalf("retention floor with alert rules %d, want 3000 (two look-backs and a cut spacing kept)", sl.Floor())
 	}
 	// The last watermark is 6000 s in; 30 minutes back is 4200 s, so the
 	// floor is the checkpoint at seq 4000 (its watermark 4000 s ≤ 4200 s).
