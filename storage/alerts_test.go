@@ -154,7 +154,7 @@ func TestAlertsStoredAndListed(t *testing.T) {
 	// reopen, and the recomputed cut writes the same records again.
 	torn := alertsOfCut(130)
 	cp := &Checkpoint{Seq: 130, Watermark: alertWatermark(130), Alerts: torn}
-	if err := a.st.writeRecords([]*Checkpoint{cp}, []CheckpointInfo{{Seq: 130, Nodes: a.st.dictLen}}); err != nil {
+	if err := a.st.writeUncompleted([]*Checkpoint{cp}, []CheckpointInfo{{Seq: 130, Nodes: a.st.dictLen}}); err != nil {
 		t.Fatal(err)
 	}
 	if err := a.st.Close(); err != nil {

@@ -96,6 +96,7 @@ func (st *Store) Commit(cps ...*Checkpoint) error {
 	}
 	st.mu.RLock()
 	complete, dictLen, failed := st.complete, st.dictLen, st.failed
+	stays := complete
 	var lastWM time.Time
 	if n := len(st.cps); n > 0 {
 		lastWM = st.cps[n-1].Watermark
@@ -123,7 +124,16 @@ func (st *Store) Commit(cps ...*Checkpoint) error {
 		complete, lastWM = cp.Seq, cp.Watermark
 		infos[i] = CheckpointInfo{Seq: cp.Seq, Watermark: watermarkTime(mustBits(cp.Watermark)), Nodes: dictLen, Flush: cp.Flush}
 	}
-	if err := st.writeRecords(cps, infos); err != nil {
+	w, err := st.prepareRecords(cps, infos)
+	if err != nil {
+		return fmt.Errorf("storage: commit %d: %w", last, err)
+	}
+	// Nothing has reached Badger yet: a refusal for want of space leaves
+	// the store as it was, and the same commit may be tried again.
+	if err := checkRoom(st.dir, fmt.Sprintf("commit the cut at seq %d", last), w.size(), stays); err != nil {
+		return fmt.Errorf("storage: commit %d: %w", last, err)
+	}
+	if err := st.writeRecords(w); err != nil {
 		st.fail(err)
 		return fmt.Errorf("storage: commit %d: %w", last, err)
 	}
@@ -241,6 +251,16 @@ func (w *batchWriter) at(k, v []byte, del bool, ts uint64) error {
 	return nil
 }
 
+// size bounds the bytes the entries add to Badger's log, the meta
+// record's transaction included.
+func (w *batchWriter) size() uint64 {
+	n := uint64(2 * entryOverhead)
+	for _, e := range w.entries {
+		n += uint64(len(e.key)+len(e.val)) + entryOverhead
+	}
+	return n
+}
+
 // flush hands the entries to Badger sorted by key, then version, keeping
 // the order they were put in among equal ones (the last put wins).
 func (w *batchWriter) flush() error {
@@ -265,18 +285,26 @@ func (w *batchWriter) flush() error {
 	return w.wb.Flush()
 }
 
-func (st *Store) writeRecords(cps []*Checkpoint, infos []CheckpointInfo) error {
-	wb := st.db.NewManagedWriteBatch()
-	defer wb.Cancel()
-	w := &batchWriter{wb: wb, torn: st.torn}
+// prepareRecords puts every entry of cps in a batch writer without
+// writing anything.
+func (st *Store) prepareRecords(cps []*Checkpoint, infos []CheckpointInfo) (*batchWriter, error) {
+	w := &batchWriter{torn: st.torn}
 	next := infos[0].Nodes - len(cps[0].Names)
 	for i, cp := range cps {
 		w.seq = cp.Seq
 		var err error
 		if next, err = st.writeCheckpoint(w, cp, next, infos[i]); err != nil {
-			return err
+			return nil, err
 		}
 	}
+	return w, nil
+}
+
+// writeRecords hands w's entries to Badger in one managed write batch and
+// syncs them.
+func (st *Store) writeRecords(w *batchWriter) error {
+	w.wb = st.db.NewManagedWriteBatch()
+	defer w.wb.Cancel()
 	if err := w.flush(); err != nil {
 		return err
 	}

@@ -35,6 +35,14 @@ func TestMain(m *testing.M) {
 		}
 		os.Exit(0)
 	}
+	if dir := os.Getenv(fillChildEnv); dir != "" {
+		checkSpace = os.Getenv(fillCheckEnv) != "off"
+		if err := fillChild(dir); err != nil {
+			fmt.Println("refused:", err)
+			os.Exit(1)
+		}
+		os.Exit(0)
+	}
 	os.Exit(m.Run())
 }
 
@@ -104,16 +112,20 @@ func TestCrashMidCheckpoint(t *testing.T) {
 		if took > 0 {
 			commitTime = took
 		}
-		// Badger cannot replay a crashed writer's log read-only; the error
-		// must say so, and a read-write open recovers.
-		if ro, err := OpenReadOnly(dir); err == nil {
-			if ro.Seq() < lastDone {
-				t.Fatalf("round %d: read-only store at %d, child had completed %d", rounds, ro.Seq(), lastDone)
-			}
-			ro.Close()
-		} else if !strings.Contains(err.Error(), "not closed cleanly") {
+		// A reader reads the crashed writer's store as it stands (Badger
+		// cannot replay its log without writing; a private copy can), and
+		// sees every checkpoint the child completed.
+		ro, err := OpenReadOnly(dir)
+		if err != nil {
 			t.Fatalf("round %d: read-only open after a crash: %v", rounds, err)
 		}
+		if ro.Seq() < lastDone {
+			t.Fatalf("round %d: read-only store at %d, child had completed %d", rounds, ro.Seq(), lastDone)
+		}
+		if s, err := ro.Load(); err != nil || s.Seq != ro.Seq() {
+			t.Fatalf("round %d: read-only load: %v", rounds, err)
+		}
+		ro.Close()
 		st := mustOpen(t, dir, undirected4)
 		if len(st.torn) > 0 {
 			torn++

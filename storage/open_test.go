@@ -213,14 +213,35 @@ func TestCreateInterrupted(t *testing.T) {
 	}
 }
 
-// TestInUse: a store open for writing cannot be opened again, and the
-// error says why.
+// TestInUse: a store open for writing cannot be opened for writing again,
+// and the error says why; a reader meanwhile reads a private copy of its
+// last complete checkpoint (view.go), removed when it closes.
 func TestInUse(t *testing.T) {
 	dir := t.TempDir()
 	st := mustOpen(t, dir, undirected4)
 	defer st.Close()
-	if _, err := OpenReadOnly(dir); err == nil || !strings.Contains(err.Error(), "in use") {
+	m := newModel(delta.Undirected, 15, 3, 400)
+	m.run(500)
+	if err := st.Commit(m.checkpoint()); err != nil {
+		t.Fatal(err)
+	}
+	ro, err := OpenReadOnly(dir)
+	if err != nil {
 		t.Fatalf("read-only open of a store open for writing: %v", err)
+	}
+	if ro.view == "" || ro.Seq() != 500 {
+		t.Fatalf("reader beside a writer: view %q at %d, want a copy at 500", ro.view, ro.Seq())
+	}
+	s, err := ro.Load()
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkState(t, ro, s, m)
+	if err := ro.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(ro.view); !os.IsNotExist(err) {
+		t.Fatalf("the reader's copy %s is left after Close: %v", ro.view, err)
 	}
 	if _, err := Open(dir, undirected4); err == nil || !strings.Contains(err.Error(), "in use") {
 		t.Fatalf("second open of a store open for writing: %v", err)

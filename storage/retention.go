@@ -25,6 +25,9 @@ func (st *Store) SetDiscardBefore(seq uint64) error {
 		return nil
 	}
 	floor := st.cps[i].Seq
+	if err := checkRoom(st.dir, "record the retention floor", 64, st.complete); err != nil {
+		return fmt.Errorf("storage: retention: %w", err)
+	}
 	txn := st.db.NewTransactionAt(st.complete, true)
 	defer txn.Discard()
 	if err := txn.Set([]byte{pFloor}, binary.AppendUvarint(nil, floor)); err != nil {

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"sync"
 	"sync/atomic"
+	"syscall"
 	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
@@ -30,6 +31,7 @@ type Store struct {
 	dir      string
 	settings Settings
 	readOnly bool
+	view     string // a reader's private copy (view.go), removed on Close
 
 	mu       sync.RWMutex
 	complete uint64              // last complete checkpoint, 0 if none
@@ -66,7 +68,13 @@ func Open(dir string, s Settings) (*Store, error) {
 		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
 	}
 	fresh, err := prepareDir(dir)
+	if err == nil {
+		err = checkWritable(dir)
+	}
 	if err != nil {
+		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
+	}
+	if err := checkOpenRoom(dir); err != nil {
 		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
 	}
 	st, err := openBadger(dir, false)
@@ -103,11 +111,14 @@ func Open(dir string, s Settings) (*Store, error) {
 }
 
 // OpenReadOnly opens an existing store for queries, history, export and
-// verification. Its settings are those recorded in it. It reads as of the
-// last checkpoint complete when it was opened. Badger cannot replay a
-// crashed writer's log without writing, so a store whose writer was killed
-// must be opened read-write once (which recovers it) before it opens
-// read-only; the error says so. A missing directory is an error.
+// verification; it never writes to dir, which may be read-only. Its
+// settings are those recorded in it. It reads as of the last checkpoint
+// complete when it was opened. While a writer holds the store, or after
+// one stopped without closing it, it reads a private copy of the store
+// made in a temporary directory (see view.go: time and space grow with
+// the store's size); otherwise it reads in place, holding Badger's
+// shared lock, so that a writer cannot open the store until Close. A
+// missing directory is an error.
 func OpenReadOnly(dir string) (*Store, error) {
 	if _, err := os.Stat(filepath.Join(dir, badger.ManifestFilename)); err != nil {
 		if _, derr := os.Stat(dir); derr != nil {
@@ -116,10 +127,13 @@ func OpenReadOnly(dir string) (*Store, error) {
 		return nil, fmt.Errorf("storage: open %s read-only: not an orbitwatch store (no Badger manifest)", dir)
 	}
 	st, err := openBadger(dir, true)
+	if errors.Is(err, errInUse) || err != nil && strings.Contains(err.Error(), "truncate required") {
+		// A writer holds the store, or one stopped without closing it
+		// (its logs end in unwritten space, which Badger will not replay
+		// without writing): read a private copy instead (view.go).
+		st, err = openView(dir)
+	}
 	if err != nil {
-		if strings.Contains(err.Error(), "truncate required") {
-			return nil, fmt.Errorf("storage: open %s read-only: the store was not closed cleanly; open it read-write once to recover it: %w", dir, err)
-		}
 		return nil, err
 	}
 	if err = st.readSettings(); err == nil {
@@ -132,12 +146,48 @@ func OpenReadOnly(dir string) (*Store, error) {
 	return st, nil
 }
 
+// ErrReadOnlyDir is what opening a data directory for writing returns
+// (wrapped) when this process may not write there.
+var ErrReadOnlyDir = errors.New("read-only")
+
+// checkWritable refuses a directory this process cannot write to, naming
+// why (a read-only file system, or permissions), before Badger tries to
+// and fails with an error that reads like damage.
+func checkWritable(dir string) error {
+	err := syscall.Access(dir, 2) // W_OK
+	if err == nil {
+		return nil
+	}
+	return readOnlyError(dir, err)
+}
+
+// readOnlyError says that dir is read-only when err is the system's
+// refusal to write (EROFS, EACCES, EPERM), else returns err.
+func readOnlyError(dir string, err error) error {
+	why := ""
+	switch {
+	case errors.Is(err, syscall.EROFS):
+		why = "it is on a read-only file system"
+	case errors.Is(err, syscall.EACCES), errors.Is(err, syscall.EPERM):
+		why = "this user may not write there"
+	default:
+		return err
+	}
+	return fmt.Errorf("data directory %s is %w (%s): the reading commands (query, history, export, verify) open it as it is; to write, make it writable", absDir(dir), ErrReadOnlyDir, why)
+}
+
+// errInUse is Badger's refusal of a directory another store holds.
+var errInUse = errors.New("the store is in use by another open store or process")
+
 // prepareDir makes dir exist and reports whether it was missing, empty, or
 // left by a create interrupted before Badger wrote its manifest.
 func prepareDir(dir string) (fresh bool, err error) {
 	ents, err := os.ReadDir(dir)
 	if errors.Is(err, os.ErrNotExist) {
-		return true, os.MkdirAll(dir, 0o755)
+		if err := os.MkdirAll(dir, 0o755); err != nil {
+			return false, fmt.Errorf("data directory %s cannot be created: %w", absDir(dir), err)
+		}
+		return true, nil
 	}
 	if err != nil {
 		return false, err
@@ -179,7 +229,7 @@ func openBadger(dir string, readOnly bool) (st *Store, err error) {
 	}()
 	db, err := badger.OpenManaged(opts)
 	if err != nil && strings.Contains(err.Error(), "Cannot acquire directory lock") {
-		return nil, fmt.Errorf("storage: open %s: the store is in use by another open store or process: %w", dir, err)
+		return nil, fmt.Errorf("storage: open %s: %w: %v", dir, errInUse, err)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("storage: open %s: damaged or unreadable Badger directory: %w", dir, err)
@@ -401,14 +451,28 @@ func (st *Store) CollectValueLog() error {
 }
 
 // Close stops the background GC and closes Badger. It returns the GC
-// loop's error, if any, joined with Badger's.
+// loop's error, if any, joined with Badger's. Badger's close writes its
+// memtable out as a table and compacts level 0 through mapped files (see
+// space.go); when the file system lacks the room for that, Close leaves
+// Badger open and returns a *SpaceError: everything committed is in
+// Badger's synced log, which the next Open replays as after a crash, and
+// the process's exit releases the directory.
 func (st *Store) Close() error {
 	if st.gcStop != nil {
 		close(st.gcStop)
 		<-st.gcDone
 		st.gcStop = nil
 	}
-	return errors.Join(st.gcErr, st.db.Close())
+	if !st.readOnly {
+		if err := checkRoom(st.dir, "close it (write its memory table out)", 0, st.Seq()); err != nil {
+			return errors.Join(st.gcErr, fmt.Errorf("storage: close %s: %w", st.dir, err))
+		}
+	}
+	err := errors.Join(st.gcErr, st.db.Close())
+	if st.view != "" {
+		err = errors.Join(err, os.RemoveAll(st.view))
+	}
+	return err
 }
 
 // memTableSize is Badger's memtable size. A smaller memtable than Badger's

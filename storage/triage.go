@@ -135,6 +135,9 @@ func (st *Store) PutVerdict(v Verdict) (Verdict, error) {
 	} else if ok && stamp <= last {
 		stamp = last + 1
 	}
+	if err := checkRoom(st.dir, "record a verdict", uint64(len(body))+128, st.Seq()); err != nil {
+		return Verdict{}, fmt.Errorf("storage: verdict on alert %s: %w", v.AlertID, err)
+	}
 	txn := st.db.NewTransactionAt(math.MaxUint64, true)
 	defer txn.Discard()
 	if err := txn.Set(binary.BigEndian.AppendUint64(verdictPrefix(v.AlertID), stamp), body); err != nil {
