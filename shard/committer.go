@@ -1,6 +1,7 @@
 package shard
 
 import (
+	"context"
 	"errors"
 	"sync"
 	"time"
@@ -40,7 +41,24 @@ type Committer struct {
 	// can).
 	Gather    time.Duration
 	lastStart time.Time
+	// OnStall, when set before the first Put, makes the committer wait
+	// and try again when the store refuses a commit for want of space
+	// (storage.ErrNoSpace: nothing was written), instead of failing: it
+	// hears of every refusal, with the try's number and the pause before
+	// the next one. Without it such a refusal fails the committer like any
+	// other error (a backfill stops and says so). A worker sets it, so
+	// that it goes on by itself once space is freed.
+	OnStall func(err error, try int, pause time.Duration)
+	stalled error  // the refusal being waited out; nil while commits go through
+	retries uint64 // refused commits tried again
 }
+
+// Stall pauses between tries of a refused commit: doubling from
+// stallPauseMin up to stallPauseMax.
+const (
+	stallPauseMin = 250 * time.Millisecond
+	stallPauseMax = 5 * time.Second
+)
 
 // NewCommitter starts a committer for st that holds at most maxQueued
 // cuts not yet being written (at least 1).
@@ -68,6 +86,33 @@ func (c *Committer) Put(cp *storage.Checkpoint) error {
 	c.queue = append(c.queue, cp)
 	c.cond.Broadcast()
 	return nil
+}
+
+// WaitRoom blocks until Put would not block: a cut leaves the queue, the
+// committer fails or closes, or ctx is done. A caller holding a lock that
+// readers need waits here, without the lock, rather than in Put: while
+// the store refuses commits the queue stays full.
+func (c *Committer) WaitRoom(ctx context.Context) {
+	stop := context.AfterFunc(ctx, func() {
+		c.mu.Lock()
+		c.cond.Broadcast()
+		c.mu.Unlock()
+	})
+	defer stop()
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for len(c.queue) >= c.maxQueued && c.err == nil && !c.closed && ctx.Err() == nil {
+		c.cond.Wait()
+	}
+}
+
+// Stalled returns how many refused commits the committer has tried again
+// since it started, and the refusal it is waiting out now (nil while
+// commits go through).
+func (c *Committer) Stalled() (retries uint64, err error) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.retries, c.stalled
 }
 
 // Wait blocks until every cut up to seq is durable (or a commit failed).
@@ -132,12 +177,7 @@ func (c *Committer) run() {
 		c.cond.Broadcast()
 		c.mu.Unlock()
 		t0 := time.Now()
-		err := c.st.Commit(group...)
-		if last := group[len(group)-1]; err == nil && c.KeepHistory > 0 && !last.Watermark.IsZero() {
-			if seq, ok := c.st.SeqAtTime(last.Watermark.Add(-c.KeepHistory)); ok {
-				err = c.st.SetDiscardBefore(seq)
-			}
-		}
+		err := c.commit(group)
 		took := time.Since(t0)
 		if err == nil && c.OnCommit != nil {
 			c.OnCommit(group)
@@ -152,5 +192,70 @@ func (c *Committer) run() {
 		}
 		c.cond.Broadcast()
 		c.mu.Unlock()
+	}
+}
+
+// commit makes group durable and moves the retention floor. With OnStall
+// set it tries again, after growing pauses, while the store refuses the
+// commit for want of space, until the commit goes through or Close is
+// called (then the refusal is the committer's error).
+func (c *Committer) commit(group []*storage.Checkpoint) error {
+	for try := 1; ; try++ {
+		err := c.st.Commit(group...)
+		if err == nil {
+			c.mu.Lock()
+			c.stalled = nil
+			c.mu.Unlock()
+			return c.keepHistory(group[len(group)-1])
+		}
+		if c.OnStall == nil || !errors.Is(err, storage.ErrNoSpace) {
+			return err
+		}
+		c.mu.Lock()
+		c.stalled = err
+		closed := c.closed
+		if !closed {
+			c.retries++
+		}
+		c.mu.Unlock()
+		if closed {
+			return err
+		}
+		pause := min(stallPauseMin<<min(try-1, 8), stallPauseMax)
+		c.OnStall(err, try, pause)
+		c.pause(pause)
+	}
+}
+
+// keepHistory moves the store's retention floor to KeepHistory before
+// last's watermark. A floor refused for want of space waits for a later
+// group: retention is eventual anyway.
+func (c *Committer) keepHistory(last *storage.Checkpoint) error {
+	if c.KeepHistory <= 0 || last.Watermark.IsZero() {
+		return nil
+	}
+	seq, ok := c.st.SeqAtTime(last.Watermark.Add(-c.KeepHistory))
+	if !ok {
+		return nil
+	}
+	if err := c.st.SetDiscardBefore(seq); err != nil && !errors.Is(err, storage.ErrNoSpace) {
+		return err
+	}
+	return nil
+}
+
+// pause waits d, or less when Close is called.
+func (c *Committer) pause(d time.Duration) {
+	deadline := time.Now().Add(d)
+	wake := time.AfterFunc(d, func() {
+		c.mu.Lock()
+		c.cond.Broadcast()
+		c.mu.Unlock()
+	})
+	defer wake.Stop()
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for !c.closed && time.Now().Before(deadline) {
+		c.cond.Wait()
 	}
 }

@@ -44,8 +44,15 @@ type Status struct {
 	// Lag is StreamLastSeq − AppliedSeq (0 when caught up).
 	Lag uint64
 	// Ready is true once the worker has applied the log up to where it
-	// stood when the worker started.
+	// stood when the worker started, while its cuts become durable.
 	Ready bool
+	// CommitRetries counts the commits the store refused for want of
+	// space (storage.ErrNoSpace) and the worker tried again; Stalled says
+	// which refusal it is waiting out now, without paths
+	// (storage.SpaceError.Reason), "" while commits go through. A stalled
+	// worker is not Ready.
+	CommitRetries uint64
+	Stalled       string
 	// Applied counts accepted events, Expired window expiries; Rejected
 	// counts rejected events and malformed bus messages by reason (all up
 	// to AppliedSeq).

@@ -115,6 +115,13 @@ type Worker struct {
 	obs        atomic.Value
 	sent       atomic.Uint64 // alerts published on the bus
 	readAt     time.Time     // when the message that caused the last cut was read
+
+	// retries and stall mirror the committer's refusals for want of
+	// space: refused commits tried again, and the refusal being waited out
+	// ("" while commits go through).
+	retries atomic.Uint64
+	stall   atomic.Value // string
+	runCtx  context.Context
 }
 
 type observerBox struct{ o Observer }
@@ -220,14 +227,34 @@ func (w *Worker) Run(ctx context.Context) error {
 	w.com = NewCommitter(w.cfg.Store, 64)
 	w.com.KeepHistory = KeepFor(w.cfg.KeepHistory, w.alerts, w.cfg.Cuts)
 	w.com.OnCommit = w.committed
+	w.com.OnStall = w.stalled
+	w.runCtx = ctx
 	err := w.run(ctx)
+	if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
+		err = nil
+	}
+	// A stop while the store refuses commits for want of space ends with
+	// that refusal: the cuts taken since the last durable one are not
+	// written (the next Run reads their events again).
 	if cerr := w.com.Close(); err == nil {
 		err = cerr
 	}
-	if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
-		return nil
-	}
 	return err
+}
+
+// stalled hears of a commit the store refused for want of space; the
+// committer tries it again after pause.
+func (w *Worker) stalled(err error, try int, pause time.Duration) {
+	reason := err.Error()
+	var se *storage.SpaceError
+	if errors.As(err, &se) {
+		err, reason = se, se.Reason()
+	}
+	w.retries.Add(1)
+	w.stall.Store(reason)
+	if w.cfg.Logf != nil {
+		w.cfg.Logf("commit refused (try %d, the next in %s): %v", try, pause.Round(time.Millisecond), err)
+	}
 }
 
 func (w *Worker) run(ctx context.Context) error {
@@ -362,6 +389,16 @@ func (w *Worker) onCut(cp *storage.Checkpoint) error {
 			return fmt.Errorf("cut %d: %w", cp.Seq, err)
 		}
 	}
+	// Wait for room in the committer's queue without the lock (onCut runs
+	// under batch's write lock): while the store refuses commits the queue
+	// stays full, and status, readiness and reads must still answer. Only
+	// this goroutine changes the state, which stays the cut's meanwhile.
+	w.mu.Unlock()
+	w.com.WaitRoom(w.runCtx)
+	w.mu.Lock()
+	if err := w.runCtx.Err(); err != nil {
+		return fmt.Errorf("cut %d: %w", cp.Seq, err)
+	}
 	w.takenMu.Lock()
 	w.taken = append(w.taken, tc)
 	w.takenMu.Unlock()
@@ -379,6 +416,7 @@ func (w *Worker) onCut(cp *storage.Checkpoint) error {
 // alerts of those cuts go out and the status moves on. It takes no lock
 // the applier holds while it waits for the committer.
 func (w *Worker) committed(group []*storage.Checkpoint) {
+	w.stall.Store("")
 	last := group[len(group)-1].Seq
 	w.takenMu.Lock()
 	i := 0
@@ -505,7 +543,9 @@ func (w *Worker) Status() Status {
 	st.CutSeq = w.cutSeq.Load()
 	st.StreamLastSeq = max(w.streamLast.Load(), st.AppliedSeq)
 	st.Lag = st.StreamLastSeq - min(st.AppliedSeq, st.StreamLastSeq)
-	st.Ready = st.AppliedSeq >= w.startLast.Load()
+	st.CommitRetries = w.retries.Load()
+	st.Stalled, _ = w.stall.Load().(string)
+	st.Ready = st.AppliedSeq >= w.startLast.Load() && st.Stalled == ""
 	st.AlertsPublished = w.sent.Load()
 	return st
 }

@@ -445,7 +445,7 @@ func TestAPIStatusReadyzAndMetrics(t *testing.T) {
 		t.Fatalf("status %s", body)
 	}
 	wantKeys := []string{"shard", "shard_count", "version", "applied_seq", "cut_seq", "committed_seq", "stream_last_seq", "lag", "ready",
-		"applied", "expired", "rejected", "watermark", "started_at", "committed_at", "alerts_published"}
+		"applied", "expired", "rejected", "watermark", "started_at", "committed_at", "alerts_published", "commit_retries"}
 	decodeStrict(t, mustJSON(t, raw[0]), wantKeys...)
 	for key, val := range map[string]string{"shard": "0", "shard_count": "1", "version": `"v9.9.9-test"`, "applied_seq": "150", "cut_seq": "100",
 		"committed_seq": "100", "lag": "50", "ready": "false", "rejected": `{"self-loop":3}`, "committed_at": "null",
@@ -502,6 +502,22 @@ func TestAPIStatusReadyzAndMetrics(t *testing.T) {
 	}
 	if l := fams["orbitwatch_events_rejected_total"].samples[0].labels; len(l) != 1 || l["reason"] != "self-loop" {
 		t.Errorf("reject labels %v", l)
+	}
+
+	// Caught up, but the store refuses commits for want of space: not
+	// ready, saying why without the store's paths; the retries and the
+	// stall show in the status and the metrics.
+	reason := "3.0 MiB free on the data directory's file system, 24.0 MiB needed to commit the cut at seq 200"
+	v.setStatus(shard.Status{Shard: 0, Shards: 1, AppliedSeq: 200, CutSeq: 200, CommittedSeq: 100, StreamLastSeq: 200, Applied: 190,
+		CommitRetries: 4, Stalled: reason, StartedAt: started})
+	wantError(t, h, http.MethodGet, "/readyz", http.StatusServiceUnavailable, "not ready: cuts are not becoming durable: "+reason+" (applied up to 200, durable up to 100; 4 commits tried again)")
+	_, _, body = get(t, h, "/v1/status")
+	if _, raw = statusBody(t, body); string(raw[0]["stalled"]) != `"`+reason+`"` || string(raw[0]["commit_retries"]) != "4" {
+		t.Errorf("status of a stalled worker: %s", body)
+	}
+	fams = scrapeAPI()
+	if val("orbitwatch_commit_stalled") != 1 || val("orbitwatch_commit_retries_total") != 4 || val("orbitwatch_ready") != 0 {
+		t.Errorf("metrics of a stalled worker: stalled %v retries %v ready %v", val("orbitwatch_commit_stalled"), val("orbitwatch_commit_retries_total"), val("orbitwatch_ready"))
 	}
 	if h := New(v, Options{}); !strings.Contains(string(func() []byte { _, _, b := get(t, h, "/v1/status"); return b }()), `"version":"`+BuildVersion()+`"`) {
 		t.Errorf("default version is not BuildVersion() %q", BuildVersion())

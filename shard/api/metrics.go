@@ -44,6 +44,10 @@ type Metrics struct {
 	appliedSeq, cutSeq, lag       atomic.Uint64
 	committedSeq                  atomic.Uint64
 	ready                         atomic.Bool
+	// commitRetries counts commits the store refused for want of space
+	// and the worker tried again; stalled is set while it waits one out.
+	commitRetries atomic.Uint64
+	stalled       atomic.Bool
 
 	// The webhook's totals: alerts delivered, failed (out of tries or
 	// refused) and dropped (queue full, or unsent at exit); tries after
@@ -93,6 +97,8 @@ func (m *Metrics) SyncStatus(s shard.Status) {
 	m.committedSeq.Store(s.CommittedSeq)
 	m.lag.Store(s.Lag)
 	m.ready.Store(s.Ready)
+	m.commitRetries.Store(s.CommitRetries)
+	m.stalled.Store(s.Stalled != "")
 	if len(s.Rejected) == 0 {
 		return
 	}
@@ -221,12 +227,12 @@ func (m *Metrics) WriteTo(w io.Writer) (int64, error) {
 	sample(b, "orbitwatch_committed_seq", "", m.committedSeq.Load())
 	family(b, "orbitwatch_lag_events", "gauge", "Log positions between the last applied and the end of the log.")
 	sample(b, "orbitwatch_lag_events", "", m.lag.Load())
-	family(b, "orbitwatch_ready", "gauge", "1 once the worker has applied the log up to where it stood when the worker started, else 0.")
-	var ready uint64
-	if m.ready.Load() {
-		ready = 1
-	}
-	sample(b, "orbitwatch_ready", "", ready)
+	family(b, "orbitwatch_ready", "gauge", "1 once the worker has applied the log up to where it stood when the worker started and its cuts become durable, else 0.")
+	sample(b, "orbitwatch_ready", "", bit(m.ready.Load()))
+	family(b, "orbitwatch_commit_retries_total", "counter", "Commits of cuts the store refused for want of free space (nothing written) and the worker tried again.")
+	sample(b, "orbitwatch_commit_retries_total", "", m.commitRetries.Load())
+	family(b, "orbitwatch_commit_stalled", "gauge", "1 while the store refuses the worker's commits for want of free space (the worker waits and tries again), else 0.")
+	sample(b, "orbitwatch_commit_stalled", "", bit(m.stalled.Load()))
 	family(b, "orbitwatch_webhook_alerts_total", "counter", "Alerts handed to the webhook, by outcome: delivered (a 2xx answer), failed (out of tries or refused), dropped (queue full, or unsent at exit).")
 	sample(b, "orbitwatch_webhook_alerts_total", `outcome="delivered"`, m.hookDelivered.Load())
 	sample(b, "orbitwatch_webhook_alerts_total", `outcome="dropped"`, m.hookDropped.Load())
@@ -239,6 +245,13 @@ func (m *Metrics) WriteTo(w io.Writer) (int64, error) {
 	histogram(b, "orbitwatch_cut_seconds", "Time from reading the log message that ends a cut to the cut being durable in the store.", m.cut)
 	err := b.Flush()
 	return cw.n, err
+}
+
+func bit(b bool) uint64 {
+	if b {
+		return 1
+	}
+	return 0
 }
 
 func family(b *bufio.Writer, name, typ, help string) {

@@ -209,7 +209,7 @@ func TestMetricsExposition(t *testing.T) {
 	m := NewMetrics()
 	m.SyncStatus(shard.Status{Applied: 1, Rejected: map[string]uint64{"self-loop": 1}})
 	m.SyncStatus(shard.Status{
-		Applied: 7, Expired: 3, AppliedSeq: 1200, CutSeq: 1024, CommittedSeq: 1000, Lag: 76, Ready: true,
+		Applied: 7, Expired: 3, AppliedSeq: 1200, CutSeq: 1024, CommittedSeq: 1000, Lag: 76, Ready: true, CommitRetries: 9,
 		Rejected: map[string]uint64{"self-loop": 2, "remove of absent edge": 2, "message 7: bad \"op\"\nback\\slash": 1},
 	})
 	// Bucket bounds are inclusive upper bounds (le): 1 ms falls in le=0.001.
@@ -233,6 +233,8 @@ func TestMetricsExposition(t *testing.T) {
 		"orbitwatch_webhook_queue_alerts":  "gauge",
 		"orbitwatch_lag_events":            "gauge",
 		"orbitwatch_ready":                 "gauge",
+		"orbitwatch_commit_retries_total":  "counter",
+		"orbitwatch_commit_stalled":        "gauge",
 		"orbitwatch_batch_seconds":         "histogram",
 		"orbitwatch_cut_seconds":           "histogram",
 	}
@@ -263,6 +265,8 @@ func TestMetricsExposition(t *testing.T) {
 		"orbitwatch_webhook_queue_alerts":  0,
 		"orbitwatch_lag_events":            76,
 		"orbitwatch_ready":                 1,
+		"orbitwatch_commit_retries_total":  9,
+		"orbitwatch_commit_stalled":        0,
 	}
 	for name, v := range single {
 		s := fams[name].samples

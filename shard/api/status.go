@@ -34,6 +34,11 @@ type workerJSON struct {
 	Watermark     *time.Time        `json:"watermark"`
 	StartedAt     *time.Time        `json:"started_at"`
 	CommittedAt   *time.Time        `json:"committed_at"`
+	// CommitRetries counts commits the store refused for want of space
+	// and the worker tried again; Stalled is the refusal being waited out
+	// now (absent while commits go through).
+	CommitRetries uint64 `json:"commit_retries"`
+	Stalled       string `json:"stalled,omitempty"`
 	// AlertsPublished counts the alerts this worker published.
 	AlertsPublished uint64 `json:"alerts_published"`
 	// Error is set, and the rest empty, when a peer did not answer.
@@ -60,6 +65,7 @@ func (a *api) self() workerJSON {
 		Shard: s.Shard, ShardCount: s.Shards, Version: a.opts.Version,
 		AppliedSeq: s.AppliedSeq, CutSeq: s.CutSeq, CommittedSeq: s.CommittedSeq,
 		StreamLastSeq: s.StreamLastSeq, Lag: s.Lag, Ready: s.Ready,
+		CommitRetries: s.CommitRetries, Stalled: s.Stalled,
 		Applied: s.Applied, Expired: s.Expired, Rejected: rej,
 		Watermark: optTime(s.Watermark), StartedAt: optTime(s.StartedAt), CommittedAt: optTime(s.CommittedAt),
 		AlertsPublished: s.AlertsPublished,
@@ -143,6 +149,10 @@ func (a *api) healthz(w http.ResponseWriter, r *http.Request) {
 
 func (a *api) readyz(w http.ResponseWriter, r *http.Request) {
 	s := a.v.Status()
+	if s.Stalled != "" {
+		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: cuts are not becoming durable: %s (applied up to %d, durable up to %d; %d commits tried again)", s.Stalled, s.AppliedSeq, s.CommittedSeq, s.CommitRetries))
+		return
+	}
 	if !s.Ready {
 		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("not ready: applied up to %d, log at %d (lag %d)", s.AppliedSeq, s.StreamLastSeq, s.Lag))
 		return
