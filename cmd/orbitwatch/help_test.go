@@ -101,8 +101,14 @@ func TestEveryCommandsHelpAndUsageErrors(t *testing.T) {
 			checkUsageError(t, name, bad, runCmd(t, append([]string{name}, bad...)...), want)
 		}
 		if len(u.required) > 0 {
-			checkUsageError(t, name, nil, runCmd(t, name), "--"+u.required[0]+" ")
-			checkUsageError(t, name, nil, runCmd(t, name), "is required")
+			r := runCmd(t, name)
+			checkUsageError(t, name, nil, r, "--"+u.required[0]+" ")
+			checkUsageError(t, name, nil, r, "is required")
+			// The flag's value is named for what it is (--data DIR), not
+			// for its Go type (--data string).
+			if strings.Contains(r.stderr, " string is required") {
+				t.Errorf("%s: %q names a type, not the value a user gives", name, r.stderr)
+			}
 		}
 	}
 }

@@ -77,7 +77,7 @@ func TestPublishFailsWhenTheServerRefuses(t *testing.T) {
 	if code != 1 || !strings.Contains(out, "100 stored") || !strings.Contains(strings.ToLower(out), "maximum messages") {
 		t.Fatalf("publish into a full stream: exit %d, want 1 with 100 stored and the server's reason\n%s", code, out)
 	}
-	if out, code := run(t, "publish", "--input", log); code != 1 || !strings.Contains(out, "--nats") {
+	if out, code := run(t, "publish", "--input", log); code != exitUsage || !strings.Contains(out, "--nats URL is required") {
 		t.Fatalf("publish without --nats: exit %d\n%s", code, out)
 	}
 }

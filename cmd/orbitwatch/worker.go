@@ -29,7 +29,7 @@ type natsFlags struct {
 }
 
 func (f *natsFlags) register(fs *flag.FlagSet) {
-	fs.StringVar(&f.url, "nats", "", "NATS server URL(s), comma-separated, e.g. nats://10.0.0.1:4222")
+	fs.StringVar(&f.url, "nats", "", "NATS server `URL`, or several comma-separated, e.g. nats://10.0.0.1:4222")
 	fs.StringVar(&f.creds, "creds", "", "NATS credentials file (JWT and seed)")
 	fs.StringVar(&f.nkey, "nkey", "", "NATS user nkey seed file: DATA/"+natsKeyFile+" for the server of `serve --data DATA`, or a key an external server admits")
 	fs.StringVar(&f.ca, "tls-ca", "", "PEM file of the CA that signed the server certificates")
