@@ -113,7 +113,8 @@ func sameAlerts(t *testing.T, what string, got, want []alertKey) {
 
 // TestAlertsIgnoreArrival is the determinism test: one seeded demo
 // scenario with planted patterns, under the demo's rules, gives the same
-// alerts (node, rule, cut, event time, score) backfilled at once,
+// stored history (cuts and orbit matrices) and the same alerts (node,
+// rule, cut, event time, score) backfilled at once,
 // backfilled in three parts, published at once to a worker, published in
 // three parts with pauses, and published to a worker killed with SIGKILL
 // and restarted three times on the way.
@@ -170,6 +171,7 @@ func TestAlertsIgnoreArrival(t *testing.T) {
 		mustRunCmd(t, append(args, cutFlags...)...)
 	}
 	sameAlerts(t, "backfill in three parts", storedAlerts(t, inParts), want)
+	sameHistory(t, "backfill in three parts", inParts, once)
 
 	srv := startEmbedded(t)
 	run := func(name string, publish func(name string), kills int) {
@@ -198,6 +200,7 @@ func TestAlertsIgnoreArrival(t *testing.T) {
 		waitCommitted(t, w, base, want[len(want)-1].Seq)
 		w.stop(t)
 		sameAlerts(t, name, storedAlerts(t, data), want)
+		sameHistory(t, name, data, once)
 	}
 	pub := func(name string, paths ...string) {
 		for i, p := range paths {
@@ -340,4 +343,48 @@ func checkLabels(t *testing.T, data string, sc *demo.Scenario, alerts []alertKey
 		t.Fatalf("the measurement table lacks its headings:\n%s", table.stdout)
 	}
 	t.Logf("measured against labels:\n%s", table.stdout)
+}
+
+// ruleCuts returns the cuts of the cut rules a data directory holds (not
+// the flushes where an input ended).
+func ruleCuts(t *testing.T, data string) []storage.CheckpointInfo {
+	t.Helper()
+	st, err := storage.OpenReadOnly(resolveData(data))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	var out []storage.CheckpointInfo
+	for _, c := range st.Checkpoints() {
+		if !c.Flush {
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
+// sameHistory holds the stored history of data to that of ref: the same
+// cuts of the cut rules (sequence, event time, nodes), and at every
+// 25th of them and the last the same orbit matrix, exported by
+// `orbitwatch export`.
+func sameHistory(t *testing.T, what, data, ref string) {
+	t.Helper()
+	got, want := ruleCuts(t, data), ruleCuts(t, ref)
+	if len(got) != len(want) {
+		t.Fatalf("%s: %d cuts stored, %d by the backfill at once", what, len(got), len(want))
+	}
+	for i := range want {
+		if got[i].Seq != want[i].Seq || !got[i].Watermark.Equal(want[i].Watermark) || got[i].Nodes != want[i].Nodes {
+			t.Fatalf("%s: cut %d is %+v, the backfill's %+v", what, i, got[i], want[i])
+		}
+		if i%25 != 0 && i != len(want)-1 {
+			continue
+		}
+		seq := fmt.Sprint(want[i].Seq)
+		a := mustRunCmd(t, "export", "--data", data, "--seq", seq, "--format", "csv", "--out", "-")
+		b := mustRunCmd(t, "export", "--data", ref, "--seq", seq, "--format", "csv", "--out", "-")
+		if a.stdout != b.stdout || strings.Count(a.stdout, "\n") < 2 {
+			t.Fatalf("%s: the orbit matrix at cut %s differs from the backfill's (%d and %d bytes)", what, seq, len(a.stdout), len(b.stdout))
+		}
+	}
 }
