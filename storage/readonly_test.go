@@ -7,9 +7,9 @@ import (
 	"regexp"
 	"strconv"
 	"strings"
-	"sync"
 	"sync/atomic"
 	"testing"
+	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
 
@@ -122,17 +122,17 @@ func copyDir(t *testing.T, src, dst string) {
 }
 
 // TestReadersBesideAWriter opens readers again and again while a writer
-// commits checkpoints, flushes memtables and compacts: every reader sees
-// exactly the scenario's state at its checkpoint, never an older
-// checkpoint than the last one committed before it opened, and the
-// writer never notices. Copies made while the writer's files moved are
-// made again (counted).
+// commits checkpoints and Badger flushes its memtables into tables: every
+// reader sees exactly the scenario's state at its checkpoint, never an
+// older checkpoint than the last one committed before it opened, and the
+// writer never notices. The writer goes on until the readers have met
+// unflushed logs and tables several times each.
 func TestReadersBesideAWriter(t *testing.T) {
 	dir := t.TempDir()
 	st := mustOpen(t, dir, undirected4)
-	const seed, accts, step, cps = 13, 20_000, 4000, 60
+	const seed, accts, step = 13, 20_000, 4000
 	var committed atomic.Uint64
-	var done, stop atomic.Bool
+	var stop atomic.Bool
 	writeErr := make(chan error, 1)
 	ended := make(chan struct{})
 	defer func() {
@@ -142,9 +142,8 @@ func TestReadersBesideAWriter(t *testing.T) {
 	}()
 	go func() {
 		defer close(ended)
-		defer done.Store(true)
 		m := newModel(delta.Undirected, 15, seed, accts)
-		for i := 1; i <= cps && !stop.Load(); i++ {
+		for i := 1; !stop.Load(); i++ {
 			m.run(uint64(i) * step)
 			if err := st.Commit(m.checkpoint()); err != nil {
 				writeErr <- err
@@ -153,10 +152,18 @@ func TestReadersBesideAWriter(t *testing.T) {
 			committed.Store(m.seq)
 		}
 	}()
-	var mu sync.Mutex
 	seen := map[uint64]bool{}
 	var reads, withLogs, withTables int
-	for !done.Load() {
+	deadline := time.Now().Add(2 * time.Minute)
+	for len(seen) < 6 || withLogs < 3 || withTables < 3 {
+		if time.Now().After(deadline) {
+			t.Fatalf("in two minutes the readers did not meet the writer's logs and tables: %d reads, %d checkpoints seen, %d with logs, %d with tables", reads, len(seen), withLogs, withTables)
+		}
+		select {
+		case err := <-writeErr:
+			t.Fatal(err)
+		default:
+		}
 		before := committed.Load()
 		logs, tables := countFiles(t, dir)
 		ro, err := OpenReadOnly(dir)
@@ -181,10 +188,8 @@ func TestReadersBesideAWriter(t *testing.T) {
 		if err := ro.Close(); err != nil {
 			t.Fatal(err)
 		}
-		mu.Lock()
-		seen[s.Seq] = true
-		mu.Unlock()
 		reads++
+		seen[s.Seq] = true
 		if logs > 0 && s.Seq > 0 {
 			withLogs++
 		}
@@ -192,15 +197,7 @@ func TestReadersBesideAWriter(t *testing.T) {
 			withTables++
 		}
 	}
-	select {
-	case err := <-writeErr:
-		t.Fatal(err)
-	default:
-	}
 	t.Logf("%d reads at %d distinct checkpoints; %d with unflushed logs, %d with tables", reads, len(seen), withLogs, withTables)
-	if len(seen) < 3 || withLogs == 0 || withTables == 0 {
-		t.Fatalf("the readers did not overlap the writer's logs and tables: %d checkpoints seen, %d with logs, %d with tables", len(seen), withLogs, withTables)
-	}
 }
 
 // countFiles counts a Badger directory's logs with data and its tables.

@@ -71,6 +71,9 @@ func Open(dir string, s Settings) (*Store, error) {
 	if err == nil {
 		err = checkWritable(dir)
 	}
+	if errors.Is(err, ErrReadOnlyDir) {
+		return nil, fmt.Errorf("storage: %w", err) // it names the directory
+	}
 	if err != nil {
 		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
 	}
@@ -140,7 +143,13 @@ func OpenReadOnly(dir string) (*Store, error) {
 		err = st.readMeta()
 	}
 	if err != nil {
-		st.db.Close()
+		view := st.view != ""
+		st.Close()
+		if view && errors.Is(err, errNoSettings) {
+			// Badger has made its files; Open has not yet written the
+			// settings record.
+			return nil, fmt.Errorf("storage: open %s read-only: a writer is creating the store; it holds no checkpoint yet", dir)
+		}
 		return nil, fmt.Errorf("storage: open %s read-only: %w", dir, err)
 	}
 	return st, nil

@@ -42,16 +42,15 @@ func Free(t testing.TB, dir string) int64 {
 }
 
 // Fill allocates a file in dir so that about leave bytes of its file
-// system stay free (never more; less by at most a page), and returns a
+// system stay free (never less; more by less than a page), and returns a
 // function that deletes the file again: "something else filled the disk",
 // then "space was freed".
 func Fill(t testing.TB, dir string, leave int64) (release func()) {
 	t.Helper()
-	n := Free(t, dir) - leave
+	n := (Free(t, dir) - leave) &^ 4095
 	if n <= 0 {
 		return func() {}
 	}
-	n = (n + 4095) &^ 4095
 	f, err := os.CreateTemp(dir, "filler-")
 	if err != nil {
 		t.Fatal(err)
