@@ -75,7 +75,7 @@ func runBackfill(args []string) int {
 	}
 	st, err := storage.Open(*data, storage.Settings{Kind: c.Catalog.Kind, MaxNodes: c.Catalog.MaxNodes, NumOrbits: c.Catalog.NumOrbits(), Window: window})
 	if err != nil {
-		return fail("backfill", err)
+		return fail("backfill", spaceFirst(err))
 	}
 	defer st.Close()
 	a, state, err := shard.LoadApplier(c, window, cuts.cuts(), st)
@@ -137,9 +137,21 @@ func runBackfill(args []string) int {
 		return 130
 	}
 	if runErr != nil {
-		return fail("backfill", runErr)
+		return fail("backfill", spaceFirst(runErr))
 	}
 	return 0
+}
+
+// spaceFirst returns the store's refusal for want of space when err holds
+// one: it names the directory, the free and the needed space and where the
+// store stays, whatever cut or line met it. Other errors are returned as
+// they are.
+func spaceFirst(err error) error {
+	var se *storage.SpaceError
+	if errors.As(err, &se) {
+		return se
+	}
+	return err
 }
 
 // backfillGather is how long a backfill's committer gathers cuts before a

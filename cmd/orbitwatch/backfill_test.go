@@ -80,6 +80,12 @@ type stored struct {
 
 // loadVectors reads a data directory's latest checkpoint as node → vector.
 func loadVectors(t testing.TB, dir string) (map[string][]uint64, stored) {
+	return loadVectorsAt(t, dir, 0)
+}
+
+// loadVectorsAt reads a data directory's checkpoint at seq (0: the
+// latest) as node → vector.
+func loadVectorsAt(t testing.TB, dir string, seq uint64) (map[string][]uint64, stored) {
 	t.Helper()
 	st, err := storage.OpenReadOnly(dir)
 	if err != nil {
@@ -91,9 +97,15 @@ func loadVectors(t testing.TB, dir string) (map[string][]uint64, stored) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	a, cut, err := shard.StateAt(st, c, st.Seq())
+	if seq == 0 {
+		seq = st.Seq()
+	}
+	a, cut, err := shard.StateAt(st, c, seq)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if cut.Seq != seq {
+		t.Fatalf("%s has no checkpoint at %d (the latest before it: %d)", dir, seq, cut.Seq)
 	}
 	vec, err := a.Vectors()
 	if err != nil {
