@@ -15,6 +15,14 @@
 // discard timestamp, "as of" reads (by seq or by event-time watermark) and
 // per-node history come straight from Badger's versions.
 //
+// Badger writes through memory-mapped files, so a full file system would
+// crash the process instead of failing a write: every write first checks
+// that the file system has room for it and for the work Badger does after
+// it, and is refused with a *SpaceError, nothing written, when it has not
+// (space.go). OpenReadOnly never writes to the directory: while a writer
+// holds it, or after one was killed, it reads a private copy of the store
+// (view.go).
+//
 // It is not for computing orbit counts (package delta), deciding when to
 // checkpoint or what changed (package shard), or decoding events (package
 // stream). It does not partition: one Store holds one worker's state.

@@ -78,7 +78,7 @@ func Open(dir string, s Settings) (*Store, error) {
 		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
 	}
 	if err := checkOpenRoom(dir); err != nil {
-		return nil, fmt.Errorf("storage: open %s: %w", dir, err)
+		return nil, fmt.Errorf("storage: %w", err) // it names the directory
 	}
 	st, err := openBadger(dir, false)
 	if err != nil {
