@@ -81,6 +81,15 @@ func TestReadOnlyDirectory(t *testing.T) {
 	copyDir(t, crashed, dir)
 	tmpfs.ReadOnly(t, fs)
 	check("store of a killed writer", true)
+
+	// A writer killed between making a memtable log and sizing it leaves
+	// an empty log, which Badger's read-only mode cannot open.
+	writable()
+	if err := os.WriteFile(filepath.Join(dir, "99999.mem"), nil, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tmpfs.ReadOnly(t, fs)
+	check("store with an empty log", true)
 }
 
 // copyDir copies the files of src into dst (made); Badger's logs keep

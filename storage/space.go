@@ -20,8 +20,10 @@ import (
 // for the bytes it adds plus the room Badger's background work needs after
 // it (Room), and is refused with a *SpaceError, with nothing written, when
 // the file system has less. Measured on tmpfs (storage and cmd/orbitwatch
-// disk-full tests): with this check a backfill or a worker that runs out
-// of space stops or waits with the message, and never faults.
+// disk-full tests): without the check a process filling it dies of SIGBUS;
+// with it a backfill or a worker that runs out of space stops or waits
+// with the message. It cannot help when another process takes more than
+// the room kept between a check and Badger's background work.
 
 // ErrNoSpace is what every *SpaceError matches with errors.Is.
 var ErrNoSpace = errors.New("not enough free space for the data directory")

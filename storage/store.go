@@ -130,14 +130,19 @@ func OpenReadOnly(dir string) (*Store, error) {
 		return nil, fmt.Errorf("storage: open %s read-only: not an orbitwatch store (no Badger manifest)", dir)
 	}
 	st, err := openBadger(dir, true)
-	if errors.Is(err, errInUse) || err != nil && strings.Contains(err.Error(), "truncate required") {
-		// A writer holds the store, or one stopped without closing it
-		// (its logs end in unwritten space, which Badger will not replay
-		// without writing): read a private copy instead (view.go).
-		st, err = openView(dir)
-	}
 	if err != nil {
-		return nil, err
+		// A writer holds the store, or one stopped without closing it: its
+		// logs end in unwritten space (or were just made, empty), which
+		// Badger will not replay without writing. Read a private copy
+		// instead (view.go); when that fails too, the store itself is
+		// damaged, and Badger's own error says how.
+		var verr error
+		if st, verr = openView(dir, errors.Is(err, errInUse)); verr != nil {
+			if errors.Is(err, errInUse) {
+				err = verr
+			}
+			return nil, err
+		}
 	}
 	if err = st.readSettings(); err == nil {
 		err = st.readMeta()

@@ -52,13 +52,19 @@ const viewTries = 20
 var errViewMoved = errors.New("the writer changed its files during the copy")
 
 // openView copies the store in dir into a new temporary directory (under
-// os.TempDir: TMPDIR) and opens the copy read-only.
-func openView(dir string) (*Store, error) {
+// os.TempDir: TMPDIR) and opens the copy read-only. With a writer at work
+// (writing true) a copy that met the writer's changes is made again; the
+// files of a store nobody holds do not change, so one try says it all.
+func openView(dir string, writing bool) (*Store, error) {
+	tries := 1
+	if writing {
+		tries = viewTries
+	}
 	var last error
-	for try := range viewTries {
+	for try := range tries {
 		tmp, err := os.MkdirTemp("", "orbitwatch-view-")
 		if err != nil {
-			return nil, fmt.Errorf("storage: open %s read-only: a writer holds it, and a private copy cannot be made: %w", dir, err)
+			return nil, fmt.Errorf("storage: open %s read-only: a writer holds it or left it unclosed, and a private copy cannot be made: %w", dir, err)
 		}
 		st, err := func() (*Store, error) {
 			if err := copyView(dir, tmp); err != nil {
@@ -77,7 +83,7 @@ func openView(dir string) (*Store, error) {
 		}
 		time.Sleep(time.Duration(try+1) * 10 * time.Millisecond)
 	}
-	return nil, fmt.Errorf("storage: open %s read-only: a writer holds it, and a private copy failed: %w", dir, last)
+	return nil, fmt.Errorf("storage: open %s read-only: a writer holds it or left it unclosed, and no consistent private copy could be made: %w", dir, last)
 }
 
 // copyView copies the store in src into the empty directory dst. The
