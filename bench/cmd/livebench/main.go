@@ -8,14 +8,15 @@
 // sequence.
 //
 //	go run ./bench/cmd/livebench
-//	go run ./bench/cmd/livebench -nodes 20000 -churn 50000 -rate 20000 -rounds 1
+//	go run ./bench/cmd/livebench -nodes 20000 -churn 50000 -rates 10000,20000 -rounds 1
 //
 // Phase 1 (publish): the Barabási–Albert log (every edge added, one second
 // of event time apart; -nodes 60000, -m 5: 299,985 events) published by
 // `orbitwatch publish --nkey DATA/nats-user.nk`: publish's own wall time,
 // and the time from its start until serve has applied the last event.
-// Phase 2 (churn): -churn events removing and at once re-adding random
-// present edges, offered at -rate events/s: visibility, the time from an
+// Phase 2 (churn), once for each of -rates: -churn events removing and at
+// once re-adding random present edges (event time going on from the log),
+// offered at that many events/s: visibility, the time from an
 // event's publish acknowledgement to the first status poll showing it
 // applied (an upper bound, by at most -poll), at p50, p99 and max.
 package main
@@ -57,10 +58,11 @@ func main() {
 }
 
 type config struct {
-	nodes, m, churn, rate, rounds int
-	seed                          uint64
-	poll                          time.Duration
-	serveArgs                     []string
+	nodes, m, churn, rounds int
+	rates                   []int
+	seed                    uint64
+	poll                    time.Duration
+	serveArgs               []string
 }
 
 func run(args []string, stdout, stderr io.Writer) error {
@@ -71,7 +73,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	fs.IntVar(&cfg.m, "m", 5, "Barabási–Albert edges per new node")
 	fs.Uint64Var(&cfg.seed, "seed", 1, "random seed")
 	fs.IntVar(&cfg.churn, "churn", 200000, "churn events (remove/re-add pairs) of phase 2 (0: none)")
-	fs.IntVar(&cfg.rate, "rate", 50000, "offered churn events per second")
+	rates := fs.String("rates", "50000", "offered churn events per second, one churn phase for each (comma-separated)")
 	fs.IntVar(&cfg.rounds, "rounds", 2, "rounds, each with a fresh serve")
 	fs.DurationVar(&cfg.poll, "poll", 5*time.Millisecond, "interval of the status polls")
 	extra := fs.String("serve-args", "", "more serve flags, space-separated (e.g. \"--cut-every 10m\")")
@@ -81,8 +83,15 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if fs.NArg() > 0 {
 		return fmt.Errorf("unexpected arguments %q", fs.Args())
 	}
-	if cfg.nodes <= cfg.m || cfg.m < 1 || cfg.churn < 0 || cfg.churn%2 != 0 || cfg.rate < 1 || cfg.rounds < 1 || cfg.poll <= 0 {
-		return errors.New("need -nodes > -m >= 1, an even -churn >= 0, -rate, -rounds and -poll above 0")
+	for _, f := range strings.Split(*rates, ",") {
+		n, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil || n < 1 {
+			return fmt.Errorf("-rates %q: %q is not a rate", *rates, f)
+		}
+		cfg.rates = append(cfg.rates, n)
+	}
+	if cfg.nodes <= cfg.m || cfg.m < 1 || cfg.churn < 0 || cfg.churn%2 != 0 || cfg.rounds < 1 || cfg.poll <= 0 {
+		return errors.New("need -nodes > -m >= 1, an even -churn >= 0, -rounds and -poll above 0")
 	}
 	cfg.serveArgs = strings.Fields(*extra)
 	work, err := os.MkdirTemp("", "livebench-")
@@ -101,11 +110,16 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err := writeLog(log, grow); err != nil {
 		return err
 	}
-	var churn []stream.Event
-	if cfg.churn > 0 {
-		churn = bench.StreamEvents(bench.AccountNamer(0), gen.Churn(edges, cfg.churn/2, 0, start+int64(len(grow)), cfg.seed+1), "churn-")
+	// Each churn phase has its own events (ids and event times going on),
+	// so that none is a duplicate and cuts keep falling as in a stream.
+	var churn [][]stream.Event
+	for k := range cfg.rates {
+		if cfg.churn > 0 {
+			from := start + int64(len(grow)+k*cfg.churn)
+			churn = append(churn, bench.StreamEvents(bench.AccountNamer(0), gen.Churn(edges, cfg.churn/2, 0, from, cfg.seed+1+uint64(k)), fmt.Sprintf("churn%d-", k)))
+		}
 	}
-	fmt.Fprintf(stderr, "livebench: BA(%d, %d): %d adds published by orbitwatch publish, then %d churn events offered at %d/s\n", cfg.nodes, cfg.m, len(grow), len(churn), cfg.rate)
+	fmt.Fprintf(stderr, "livebench: BA(%d, %d): %d adds published by orbitwatch publish, then %d churn events offered at each of %v events/s\n", cfg.nodes, cfg.m, len(grow), cfg.churn, cfg.rates)
 
 	var rows []row
 	for r := 1; r <= cfg.rounds; r++ {
@@ -152,7 +166,7 @@ type row struct {
 
 // round starts serve on a fresh data directory, runs both phases and
 // stops it.
-func round(stderr io.Writer, bin, data, log string, growEvents int, churn []stream.Event, cfg config) ([]row, error) {
+func round(stderr io.Writer, bin, data, log string, growEvents int, churn [][]stream.Event, cfg config) ([]row, error) {
 	s, err := startServe(bin, data, cfg.serveArgs, stderr)
 	if err != nil {
 		return nil, err
@@ -183,9 +197,9 @@ func round(stderr io.Writer, bin, data, log string, growEvents int, churn []stre
 	one.caughtUp = at.Sub(t0)
 	rows := []row{one}
 
-	if len(churn) > 0 {
-		fmt.Fprintf(stderr, "livebench: churn, %d events at %d/s\n", len(churn), cfg.rate)
-		two, err := churnPhase(s, p, data, churn, cfg.rate)
+	for k, evs := range churn {
+		fmt.Fprintf(stderr, "livebench: churn, %d events at %d/s\n", len(evs), cfg.rates[k])
+		two, err := churnPhase(s, p, data, evs, cfg.rates[k])
 		if err != nil {
 			return nil, err
 		}
