@@ -1,5 +1,7 @@
 package delta
 
+import "fmt"
+
 // Emit receives one orbit change: count (node, orbit) changes by d.
 // An engine may emit the same (node, orbit) more than once for one edge;
 // the changes add up.
@@ -36,7 +38,36 @@ type SignedEngine interface {
 }
 
 // Recounter computes every node's orbit vector from scratch. It is a code
-// path separate from any Engine, used to verify it.
+// path separate from any Engine, used to verify it. Recounts accept graphs
+// whose degrees are at most MaxRecountDegree (CheckRecount says whether g
+// is one) and panic on others.
 type Recounter interface {
 	Recount(g *Graph) *Vectors
+}
+
+// MaxRecountDegree bounds the degrees a Recounter accepts: with d ≤ 2^20
+// every intermediate sum of the combinatorial recounts (at most d·d_max²)
+// fits in int64.
+const MaxRecountDegree = 1 << 20
+
+// DegreeError is CheckRecount's error: Node has Degree neighbours, more
+// than MaxRecountDegree.
+type DegreeError struct {
+	Node   uint32
+	Degree int
+}
+
+func (e *DegreeError) Error() string {
+	return fmt.Sprintf("node %d has %d neighbours, above the %d a static recount counts exactly (its sums could overflow)", e.Node, e.Degree, MaxRecountDegree)
+}
+
+// CheckRecount returns a *DegreeError for the first node of g whose degree
+// is above MaxRecountDegree, or nil when a Recounter can count g.
+func CheckRecount(g *Graph) error {
+	for u := range g.NumNodes() {
+		if d := g.Degree(uint32(u)); d > MaxRecountDegree {
+			return &DegreeError{Node: uint32(u), Degree: d}
+		}
+	}
+	return nil
 }

@@ -64,3 +64,32 @@ func TestVectorsAddGuards(t *testing.T) {
 		t.Fatalf("overflow not refused: %v", err)
 	}
 }
+
+// A star one leaf past MaxRecountDegree is refused by name; one at the
+// bound, and the same graph after the extra leaf leaves, are not. A
+// directed star counts a node joined both ways once.
+func TestCheckRecount(t *testing.T) {
+	for _, kind := range []Kind{Undirected, Directed} {
+		g := NewGraph(kind)
+		g.Grow(MaxRecountDegree + 2)
+		for leaf := uint32(1); leaf <= MaxRecountDegree; leaf++ {
+			g.Link(0, leaf)
+		}
+		if kind == Directed {
+			g.Link(1, 0) // both ways: still one neighbour
+		}
+		if err := CheckRecount(g); err != nil {
+			t.Fatalf("%v: degree %d refused: %v", kind, MaxRecountDegree, err)
+		}
+		g.Link(0, MaxRecountDegree+1)
+		err := CheckRecount(g)
+		var de *DegreeError
+		if !errors.As(err, &de) || de.Node != 0 || de.Degree != MaxRecountDegree+1 {
+			t.Fatalf("%v: degree %d: got %v, want node 0 refused with that degree", kind, MaxRecountDegree+1, err)
+		}
+		g.Unlink(0, MaxRecountDegree+1)
+		if err := CheckRecount(g); err != nil {
+			t.Fatalf("%v: after the leaf left: %v", kind, err)
+		}
+	}
+}

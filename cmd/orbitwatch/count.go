@@ -63,7 +63,10 @@ func runCount(args []string) int {
 		return fail("count", err)
 	}
 	in.summary("count")
-	vec := c.Recount.Recount(a.Graph())
+	vec, err := recount(c, a)
+	if err != nil {
+		return fail("count", err)
+	}
 	w := bufio.NewWriter(os.Stdout)
 	if err := writeMatrix(w, a.Names(), vec); err != nil {
 		return fail("count", err)
@@ -110,7 +113,11 @@ func runReplay(args []string) int {
 			return fmt.Errorf("checkpoint %d: %w", seq, err)
 		}
 		if *verify {
-			if err := compare(a.Names(), vec, c.Recount.Recount(a.Graph())); err != nil {
+			rec, err := recount(c, a)
+			if err == nil {
+				err = compare(a.Names(), vec, rec)
+			}
+			if err != nil {
 				return fmt.Errorf("checkpoint %d: %w", seq, err)
 			}
 		}

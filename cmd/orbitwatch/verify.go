@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 
+	"orbitwatch/delta"
 	"orbitwatch/internal/progress"
 	"orbitwatch/shard"
 )
@@ -40,8 +41,11 @@ func runVerify(args []string) int {
 		prog.Done()
 		return fail("verify", err)
 	}
-	rec := counting.Recount.Recount(a.Graph())
-	derived, err := a.Vectors()
+	rec, err := recount(counting, a)
+	var derived *delta.Vectors
+	if err == nil {
+		derived, err = a.Vectors()
+	}
 	if err == nil {
 		err = compare(a.Names(), derived, rec)
 	}
@@ -56,4 +60,17 @@ func runVerify(args []string) int {
 	fmt.Printf("verify: checkpoint %d (event time %s): %d nodes, %d edges, %d orbits each: every vector derived from the stored records equals the static recount\n",
 		cut.Seq, formatEventTime(eventTime(cut.Watermark), "none"), a.Dict().Len(), a.Graph().NumEdges(), set.NumOrbits)
 	return 0
+}
+
+// recount is c's static recount of a's graph, or an error naming the
+// account whose degree is beyond what a static recount counts exactly.
+func recount(c *shard.Counting, a *shard.Applier) (*delta.Vectors, error) {
+	if err := delta.CheckRecount(a.Graph()); err != nil {
+		var de *delta.DegreeError
+		if errors.As(err, &de) {
+			return nil, fmt.Errorf("cannot recount: %q has %d counterparties, above the %d a static recount counts exactly", a.Dict().Name(de.Node), de.Degree, delta.MaxRecountDegree)
+		}
+		return nil, err
+	}
+	return c.Recount.Recount(a.Graph()), nil
 }

@@ -132,7 +132,7 @@ func (q *Quads) event(g *delta.Graph, u, v uint32, insert bool) error {
 	if err := q.t.event(g, u, v, insert); err != nil {
 		return err
 	}
-	if d := max(degree(&q.t.recs[u]), degree(&q.t.recs[v])); d > maxRecountDegree && q.fault == nil {
+	if d := max(degree(&q.t.recs[u]), degree(&q.t.recs[v])); d > delta.MaxRecountDegree && q.fault == nil {
 		q.fault = fmt.Errorf("directed: degree %d of node %d or %d above 2^20, a read's counts could overflow int64", d, u, v)
 	}
 	q.relink(u, v, now)

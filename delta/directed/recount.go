@@ -7,11 +7,6 @@ import (
 	"orbitwatch/delta"
 )
 
-// maxRecountDegree bounds the degrees Recount accepts: with d ≤ 2^20 every
-// pattern count (at most about d³, e.g. the ordered 3-stars at a node)
-// fits in int64.
-const maxRecountDegree = 1 << 20
-
 type recounter struct {
 	k  int
 	eq *equations
@@ -80,7 +75,7 @@ func (r *recounter) newState(g *delta.Graph) *state {
 	}
 	s := newSnapshot(g)
 	n := s.numNodes()
-	if n > 0 && s.off[n]-s.off[n-1] > maxRecountDegree {
+	if n > 0 && s.off[n]-s.off[n-1] > delta.MaxRecountDegree {
 		panic(fmt.Sprintf("directed: degree %d above 2^20, counts could overflow int64", s.off[n]-s.off[n-1]))
 	}
 	st := &state{s: s, k: r.k, eq: r.eq, vec: delta.NewVectors(n, r.eq.cat.NumOrbits()), tri: make([][3][3][3]int64, n), w: make([][3][3]int64, n),

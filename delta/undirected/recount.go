@@ -18,18 +18,13 @@ func NewRecounter(maxNodes int) delta.Recounter {
 	return &recounter{maxNodes: maxNodes, orbits: numOrbits(maxNodes)}
 }
 
-// maxDegree bounds the degrees Recount accepts: with d ≤ 2^20 every
-// intermediate sum (at most d·d_max², e.g. the 3-edge paths at a node) fits
-// in int64.
-const maxDegree = 1 << 20
-
 // Recount returns every node's orbit vector. g must be Undirected with no
 // degree above 2^20.
 func (r *recounter) Recount(g *delta.Graph) *delta.Vectors {
 	checkKind(g)
 	c := newCSR(g)
 	n := c.numNodes()
-	if n > 0 && c.deg(uint32(n-1)) > maxDegree {
+	if n > 0 && c.deg(uint32(n-1)) > delta.MaxRecountDegree {
 		panic(fmt.Sprintf("undirected: degree %d above 2^20, counts could overflow int64", c.deg(uint32(n-1))))
 	}
 	vec := delta.NewVectors(n, r.orbits)
