@@ -134,7 +134,7 @@ func runBackfill(args []string) int {
 	in.summary("backfill", more...)
 	if errors.Is(runErr, context.Canceled) {
 		fmt.Fprintln(os.Stderr, "orbitwatch backfill: interrupted; rerun with the same arguments to go on")
-		return 130
+		return exitInterrupted
 	}
 	if runErr != nil {
 		return fail("backfill", spaceFirst(runErr))

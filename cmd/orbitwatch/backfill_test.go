@@ -394,3 +394,48 @@ func TestBackfillKeepHistory(t *testing.T) {
 		}
 	}
 }
+
+// TestBackfillInterrupted stops a real backfill with SIGINT part-way: it
+// exits 130 with one line saying how to go on, the directory it leaves
+// passes verify, and a rerun with the same arguments resumes and ends in
+// an uninterrupted run's cut.
+func TestBackfillInterrupted(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "log.csv")
+	events := 200000 // some seconds of work, so that the signal lands part-way
+	writeLog(t, log, events, 3)
+	data := filepath.Join(dir, "data")
+	args := []string{"backfill", "--data", data, "--input", log, "--checkpoint-every", "20000"}
+	cmd := exec.Command(binaryPath(t), args...)
+	var out bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &out
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	time.Sleep(time.Second)
+	if err := cmd.Process.Signal(os.Interrupt); err != nil {
+		t.Fatal(err)
+	}
+	err := cmd.Wait()
+	var ee *exec.ExitError
+	if err == nil {
+		t.Skipf("the backfill finished within a second, before the signal:\n%s", out.String())
+	}
+	if !errors.As(err, &ee) || ee.ExitCode() != exitInterrupted {
+		t.Fatalf("interrupted backfill: %v, want exit %d\n%s", err, exitInterrupted, out.String())
+	}
+	if !strings.Contains(out.String(), "interrupted; rerun with the same arguments to go on") || strings.Contains(out.String(), "goroutine ") {
+		t.Fatalf("interrupted backfill said:\n%s", out.String())
+	}
+	if got, code := run(t, "verify", "--data", data); code != 0 || !strings.Contains(got, "equals the static recount") {
+		t.Fatalf("verify after the interrupt: exit %d\n%s", code, got)
+	}
+	got, code := run(t, args...)
+	if code != 0 || !strings.Contains(got, "resumed at checkpoint") {
+		t.Fatalf("rerun after the interrupt: exit %d\n%s", code, got)
+	}
+	_, st := loadVectors(t, data)
+	if st.cut.Seq != uint64(events) {
+		t.Fatalf("after the rerun the store is at %d, want %d", st.cut.Seq, events)
+	}
+}

@@ -19,6 +19,10 @@ const (
 	exitFailure  = 1 // operational: I/O, disk, storage, network, a server gone
 	exitUsage    = 2 // bad flags or arguments
 	exitBadInput = 3 // --strict stopped at a bad line, or an input file is not a readable edge log
+	// exitInterrupted is the shell's code for a command stopped by SIGINT
+	// (128 + 2): backfill returns it when stopped before the end of its
+	// input, having committed what it applied.
+	exitInterrupted = 130
 )
 
 // exitCodesHelp is the exit-code table of the top-level help.
@@ -27,6 +31,7 @@ const exitCodesHelp = `exit codes:
   1  operational failure: I/O, disk, storage, network, a server gone
   2  usage: a bad or missing flag or argument
   3  bad input: --strict stopped at a bad line, or an input is not a readable edge log
+  130  backfill interrupted (Ctrl-C or SIGTERM) before the end; rerun it to go on
 `
 
 // usageErr marks an error in the command line: a flag value out of range,
