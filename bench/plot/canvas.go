@@ -227,6 +227,12 @@ func asciiFold(s string) string {
 			b.WriteByte('x')
 		case r == '→':
 			b.WriteString("->")
+		case r == '≤':
+			b.WriteString("<=")
+		case r == '≥':
+			b.WriteString(">=")
+		case r == 'µ' || r == 'μ':
+			b.WriteByte('u')
 		default:
 			if f, ok := folds[r]; ok {
 				b.WriteByte(f)

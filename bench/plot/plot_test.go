@@ -263,7 +263,7 @@ func TestLogScale(t *testing.T) {
 }
 
 func TestASCIIFold(t *testing.T) {
-	if got := asciiFold("Barabási–Albert, Pržulj 2007, 2×3 → ok"); got != "Barabasi-Albert, Przulj 2007, 2x3 -> ok" {
+	if got := asciiFold("Barabási–Albert, Pržulj 2007, 2×3 → ok, µs ≤ 16 ≥ 1"); got != "Barabasi-Albert, Przulj 2007, 2x3 -> ok, us <= 16 >= 1" {
 		t.Errorf("asciiFold = %q", got)
 	}
 }

@@ -129,6 +129,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 			if err != nil {
 				return err
 			}
+			r.merchant = true
 			rows = append(rows, r)
 			mr, err := alternate(stderr, plain, heavy, uint32(n), cfg)
 			if err != nil {
@@ -171,6 +172,7 @@ func size(n int) string {
 // row is one graph's figures.
 type row struct {
 	name                string
+	merchant            bool // the graph with the merchant, not in the plot
 	nodes, edges        int
 	maxDeg              int
 	uniform             bench.Cost

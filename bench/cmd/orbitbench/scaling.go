@@ -22,7 +22,7 @@ func plotClasses(stderr io.Writer, dir string, rows []row) error {
 		series = append(series, plot.Series{Name: name})
 	}
 	for _, r := range rows {
-		if len(x) > 0 && x[len(x)-1] == float64(r.nodes) {
+		if r.merchant || len(x) > 0 && x[len(x)-1] == float64(r.nodes) {
 			continue
 		}
 		x = append(x, float64(r.nodes))
