@@ -6,6 +6,7 @@ import (
 	"os"
 
 	"orbitwatch/delta"
+	"orbitwatch/delta/five"
 	"orbitwatch/internal/progress"
 	"orbitwatch/shard"
 )
@@ -32,15 +33,17 @@ func runVerify(args []string) int {
 	if counting.Catalog.NumOrbits() != set.NumOrbits {
 		return fail("verify", fmt.Errorf("the store records %d orbits, the catalog for %s up to %d nodes has %d", set.NumOrbits, set.Kind, set.MaxNodes, counting.Catalog.NumOrbits()))
 	}
-	// The reporter counts the nodes compared; they are compared at once,
-	// after the counter is restored from the stored records (which
-	// Restore holds to the stored adjacency) and the graph recounted.
-	prog := progress.New(os.Stderr, 0, "verify", progress.WithUnit("nodes"))
+	// One reporter while the state is loaded (its records restored and
+	// held to the stored adjacency); the recount shows its own progress
+	// where it takes long (five nodes).
+	prog := progress.New(os.Stderr, 0, "verify", progress.WithUnit("nodes loaded"), progress.Counted())
 	a, cut, err := shard.StateAt(st, counting, st.Seq())
 	if err != nil {
 		prog.Done()
 		return fail("verify", err)
 	}
+	prog.Add(int64(a.Dict().Len()), 0)
+	prog.Done()
 	rec, err := recount(counting, a)
 	var derived *delta.Vectors
 	if err == nil {
@@ -49,8 +52,6 @@ func runVerify(args []string) int {
 	if err == nil {
 		err = compare(a.Names(), derived, rec)
 	}
-	prog.Add(int64(a.Dict().Len()), 0)
-	prog.Done()
 	if errors.Is(err, errMismatch) {
 		return fail("verify", fmt.Errorf("checkpoint %d: vectors derived from the stored records differ from the recount: %w", cut.Seq, err))
 	}
@@ -63,7 +64,9 @@ func runVerify(args []string) int {
 }
 
 // recount is c's static recount of a's graph, or an error naming the
-// account whose degree is beyond what a static recount counts exactly.
+// account whose degree is beyond what a static recount counts exactly, or
+// a count that overflows. The 2–5 node recount, which takes seconds a
+// million edges, reports its progress on standard error.
 func recount(c *shard.Counting, a *shard.Applier) (*delta.Vectors, error) {
 	if err := delta.CheckRecount(a.Graph()); err != nil {
 		var de *delta.DegreeError
@@ -71,6 +74,12 @@ func recount(c *shard.Counting, a *shard.Applier) (*delta.Vectors, error) {
 			return nil, fmt.Errorf("cannot recount: %q has %d counterparties, above the %d a static recount counts exactly", a.Dict().Name(de.Node), de.Degree, delta.MaxRecountDegree)
 		}
 		return nil, err
+	}
+	if _, ok := c.Recount.(*five.Recounter); ok {
+		g := a.Graph()
+		prog := progress.New(os.Stderr, five.Passes*int64(g.NumNodes()), "recount", progress.WithUnit("node passes"), progress.Counted())
+		defer prog.Done()
+		return five.NewRecounter(five.Options{Progress: func(done, _ int64) { prog.Add(done, 0) }}).Count(g)
 	}
 	return c.Recount.Recount(a.Graph()), nil
 }

@@ -26,6 +26,10 @@ type Options struct {
 	Progress func(done, total int64)
 }
 
+// Passes is the number of passes over the nodes a recount makes: its
+// Progress total is Passes times the node count.
+const Passes = 4
+
 // Recounter is the combinatorial static recount of undirected 2–5 node
 // orbits. It implements delta.Recounter.
 type Recounter struct{ opt Options }
@@ -70,7 +74,7 @@ func (r *Recounter) count(g *delta.Graph, eq *equations) (*delta.Vectors, error)
 	for x := range uint32(n) {
 		copy(out.Row(x)[:first5], small.Row(x))
 	}
-	run := &pass{workers: r.opt.Workers, progress: r.opt.Progress, total: 4 * int64(n)}
+	run := &pass{workers: r.opt.Workers, progress: r.opt.Progress, total: Passes * int64(n)}
 	if run.workers <= 0 {
 		run.workers = runtime.GOMAXPROCS(0)
 	}

@@ -27,6 +27,7 @@ type Reporter struct {
 	stopTick func()
 	terminal bool
 	width    int
+	counted  bool // total counts units (events), not bytes
 	interval time.Duration
 
 	start    time.Time
@@ -58,6 +59,11 @@ func WithInterval(d time.Duration) Option {
 // WithUnit names what Add counts (plural, e.g. "nodes", "phases") in the
 // lines; the default is "events".
 func WithUnit(plural string) Option { return func(r *Reporter) { r.unit = plural } }
+
+// Counted makes total a count of what Add's events count (the unit of
+// WithUnit), for work measured in units rather than bytes read: the
+// percentage, bar and ETA follow the events, and no bytes are shown.
+func Counted() Option { return func(r *Reporter) { r.counted = true } }
 
 // WithTerminal forces terminal (redrawn line of the given width) or plain
 // mode instead of asking the writer.
@@ -115,6 +121,9 @@ func (r *Reporter) Done() {
 		ev := r.events.Load()
 		line := fmt.Sprintf("%s: done, %d %s, %s in %s (%s %s/s)",
 			r.label, ev, r.unit, Bytes(r.bytes.Load()), el.Round(time.Millisecond), rate(ev, el), r.unit)
+		if r.counted {
+			line = fmt.Sprintf("%s: done, %d %s in %s (%s %s/s)", r.label, ev, r.unit, el.Round(time.Millisecond), rate(ev, el), r.unit)
+		}
 		r.mu.Lock()
 		defer r.mu.Unlock()
 		if r.terminal {
@@ -142,6 +151,10 @@ func (r *Reporter) loop() {
 func (r *Reporter) render() {
 	el := r.now().Sub(r.start)
 	ev, by := r.events.Load(), r.bytes.Load()
+	if r.counted {
+		r.renderCounted(el, ev)
+		return
+	}
 	var b strings.Builder
 	if r.terminal {
 		b.WriteString("\r")
@@ -163,7 +176,32 @@ func (r *Reporter) render() {
 		b.WriteString(", ETA ")
 		b.WriteString(eta(by, r.total, el))
 	}
-	line := b.String()
+	r.write(b.String())
+}
+
+// renderCounted is render for a Counted total.
+func (r *Reporter) renderCounted(el time.Duration, ev int64) {
+	var b strings.Builder
+	if r.terminal {
+		b.WriteString("\r")
+	}
+	b.WriteString(r.label)
+	if r.terminal && r.total > 0 {
+		b.WriteString(" ")
+		b.WriteString(bar(ev, r.total, 20))
+	} else {
+		b.WriteString(":")
+	}
+	if r.total > 0 {
+		fmt.Fprintf(&b, " %5.1f%%, %d of %d %s, %s %s/s, ETA %s", 100*float64(min(ev, r.total))/float64(r.total), ev, r.total, r.unit, rate(ev, el), r.unit, eta(ev, r.total, el))
+	} else {
+		fmt.Fprintf(&b, " %d %s, %s %s/s", ev, r.unit, rate(ev, el), r.unit)
+	}
+	r.write(b.String())
+}
+
+// write puts one rendered line out: redrawn in place on a terminal.
+func (r *Reporter) write(line string) {
 	r.mu.Lock()
 	defer r.mu.Unlock()
 	if r.terminal {

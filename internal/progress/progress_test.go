@@ -191,3 +191,24 @@ func TestRealTicker(t *testing.T) {
 		t.Fatalf("output %q", got)
 	}
 }
+
+// A Counted total follows the events: 1,000 of 4,000 node passes in 2 s
+// leaves 3,000 at 500/s, 6 s; no bytes are shown.
+func TestCountedLines(t *testing.T) {
+	c := &fakeClock{}
+	ticks := make(chan time.Time)
+	out := make(lines, 8)
+	r := New(out, 4000, "recount", WithClock(c.now), WithTicks(ticks), WithTerminal(false, 80), WithUnit("node passes"), Counted())
+	r.Add(1000, 0)
+	c.advance(2 * time.Second)
+	ticks <- c.now()
+	if got, want := out.next(t), "recount:  25.0%, 1000 of 4000 node passes, 500 node passes/s, ETA 6s\n"; got != want {
+		t.Fatalf("line\n%q, want\n%q", got, want)
+	}
+	r.Add(3000, 0)
+	c.advance(2 * time.Second)
+	r.Done()
+	if got, want := out.next(t), "recount: done, 4000 node passes in 4s (1000 node passes/s)\n"; got != want {
+		t.Fatalf("closing line\n%q, want\n%q", got, want)
+	}
+}
