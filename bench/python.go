@@ -92,6 +92,7 @@ func TimeNetworkxTriangles(python string, edges []gen.Edge) (NetworkxRun, error)
 	}
 	var stderr bytes.Buffer
 	cmd := exec.Command(python, "-c", trianglesScript, path)
+	DieWithParent(cmd)
 	cmd.Stderr = &stderr
 	out, err := cmd.Output()
 	if err != nil {

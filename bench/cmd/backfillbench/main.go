@@ -260,6 +260,7 @@ var summary = regexp.MustCompile(`this run wrote (\d+) cuts \((\d+) records, (\d
 
 func backfill(bin, data, log string, flags []string) (backfillRun, error) {
 	cmd := exec.Command(bin, append([]string{"backfill", "--data", data, "--input", log}, flags...)...)
+	bench.DieWithParent(cmd)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr
 	start := time.Now()

@@ -178,6 +178,7 @@ func round(stderr io.Writer, bin, data, log string, growEvents int, churn [][]st
 	fmt.Fprintf(stderr, "livebench: publishing %s\n", log)
 	one := row{phase: "publish", load: bench.LoadAverage(), events: growEvents}
 	pub := exec.Command(bin, "publish", "--nats", s.natsURL, "--nkey", filepath.Join(data, "nats-user.nk"), "--input", log)
+	bench.DieWithParent(pub)
 	var perr strings.Builder
 	pub.Stderr = &perr
 	t0 := time.Now()
@@ -305,6 +306,7 @@ type serve struct {
 func startServe(bin, data string, extra []string, stderr io.Writer) (*serve, error) {
 	args := append([]string{"serve", "--data", data, "--nats-listen", "127.0.0.1:0", "--http", "127.0.0.1:0"}, extra...)
 	cmd := exec.Command(bin, args...)
+	bench.DieWithParent(cmd)
 	cmd.Stderr = stderr
 	out, err := cmd.StdoutPipe()
 	if err != nil {
