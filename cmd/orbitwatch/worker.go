@@ -108,7 +108,7 @@ func (f *workerFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.deploy, "deployment", "", "name of this set of workers (its rejects stream); default: the stream name")
 	f.cuts.register(fs)
 	f.alerts.register(fs)
-	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for the status of all shards); their host names are admitted in the Host header")
+	fs.StringVar(&f.peers, "peers", "", "comma-separated base URLs of every shard's HTTP API, in shard order (for the status and the alerts of all shards); their host names are admitted in the Host header")
 	f.api.register(fs)
 }
 

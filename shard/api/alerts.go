@@ -1,12 +1,16 @@
 package api
 
 import (
+	"cmp"
 	"encoding/json"
 	"fmt"
+	"maps"
 	"net/http"
+	"net/url"
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 
 	"orbitwatch/storage"
 	"orbitwatch/stream"
@@ -15,11 +19,19 @@ import (
 type alertsJSON struct {
 	Shard  int               `json:"shard"`
 	Alerts []json.RawMessage `json:"alerts"`
+	// With peers (and no local=true): the shards whose alerts the list
+	// holds, this one first, and why any other is missing.
+	Shards []int    `json:"shards,omitempty"`
+	Errors []string `json:"errors,omitempty"`
 }
 
 func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 	q := r.URL.Query()
-	if !queryKeys(w, q, "since", "until", "node", "rule", "verdict", "limit") {
+	if !queryKeys(w, q, "since", "until", "node", "rule", "verdict", "limit", "local") {
+		return
+	}
+	local, ok := queryLocal(w, q)
+	if !ok {
 		return
 	}
 	limit, ok := queryLimit(w, q, 100, 1000)
@@ -92,7 +104,95 @@ func (a *api) alerts(w http.ResponseWriter, r *http.Request) {
 		}
 		out.Alerts[i] = withTriage(rec.Body, t)
 	}
+	if !local && a.hasPeers() {
+		a.gatherAlerts(r, &out, limit)
+	}
 	writeJSON(w, http.StatusOK, out)
+}
+
+// hasPeers reports whether some other shard's API is known.
+func (a *api) hasPeers() bool {
+	self, _ := a.v.Shard()
+	for i, p := range a.opts.Peers {
+		if i != self && p != "" {
+			return true
+		}
+	}
+	return false
+}
+
+// gatherAlerts adds to out, this shard's answer, every peer's answer to
+// the same query, newest first across shards as within one (by cut, then
+// by id, the store's key order read backwards), and cut to limit. Each
+// shard's list holds its limit newest, so the merged limit newest are
+// among them. A peer that does not answer is named in out.Errors.
+func (a *api) gatherAlerts(r *http.Request, out *alertsJSON, limit int) {
+	q := r.URL.Query()
+	q.Del("local")
+	answers := make([]alertsJSON, len(a.opts.Peers))
+	errs := make([]error, len(a.opts.Peers))
+	var wg sync.WaitGroup
+	for i, p := range a.opts.Peers {
+		if i == out.Shard || p == "" {
+			continue
+		}
+		wg.Go(func() { errs[i] = a.peerGet(r.Context(), p, "/v1/alerts", maps.Clone(q), &answers[i]) })
+	}
+	wg.Wait()
+	type entry struct {
+		seq  uint64
+		id   string
+		body json.RawMessage
+	}
+	var all []entry
+	add := func(list []json.RawMessage) {
+		for _, b := range list {
+			var k struct {
+				Seq uint64 `json:"seq"`
+				ID  string `json:"id"`
+			}
+			json.Unmarshal(b, &k) // a body without them sorts last
+			all = append(all, entry{k.Seq, k.ID, b})
+		}
+	}
+	add(out.Alerts)
+	out.Shards = []int{out.Shard}
+	for i, p := range a.opts.Peers {
+		switch {
+		case i == out.Shard || p == "":
+		case errs[i] != nil:
+			out.Errors = append(out.Errors, fmt.Sprintf("shard %d (%s): %v", i, p, errs[i]))
+		case answers[i].Shard != i:
+			out.Errors = append(out.Errors, fmt.Sprintf("shard %d (%s): it says it is shard %d", i, p, answers[i].Shard))
+		default:
+			out.Shards = append(out.Shards, i)
+			add(answers[i].Alerts)
+		}
+	}
+	slices.SortStableFunc(all, func(x, y entry) int {
+		if c := cmp.Compare(y.seq, x.seq); c != 0 {
+			return c
+		}
+		return strings.Compare(y.id, x.id)
+	})
+	out.Alerts = out.Alerts[:0]
+	for _, e := range all[:min(len(all), limit)] {
+		out.Alerts = append(out.Alerts, e.body)
+	}
+}
+
+// queryLocal reads local=true|false (absent: false), answering 400 to
+// another value.
+func queryLocal(w http.ResponseWriter, q url.Values) (local, ok bool) {
+	switch v := q.Get("local"); v {
+	case "", "false":
+		return false, true
+	case "true":
+		return true, true
+	default:
+		writeError(w, http.StatusBadRequest, fmt.Sprintf("local %s: want true or false", quoted(v)))
+		return false, false
+	}
 }
 
 // knownRule reports whether rule is in force or the rule of a stored

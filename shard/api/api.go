@@ -29,10 +29,11 @@ type Options struct {
 	// Peers are the base URLs of every shard's API, indexed by shard
 	// (e.g. "https://orbitwatch-1.orbitwatch:7474" at index 1); this
 	// shard's own entry is not used. With them /v1/status reports every
-	// worker; without, this one only. Node reads never need them: every
-	// worker holds the whole state.
+	// worker and /v1/alerts lists every worker's alerts (each keeps those
+	// of the nodes it owns); without, this one only. Node reads never need
+	// them: every worker holds the whole state.
 	Peers []string
-	// PeerClient makes the peer status requests (a TLS client certificate
+	// PeerClient makes the requests to peers (a TLS client certificate
 	// goes here); nil means a plain client with Timeout. PeerToken, when
 	// set, is sent to peers as a bearer token.
 	PeerClient *http.Client
@@ -86,14 +87,16 @@ const ShardHeader = "Orbitwatch-Shard"
 //	GET /v1/drift/series GCD-11 at every ?every=SPAN from ?from=TIME to
 //	                     ?to=TIME (default the first and last cut's event
 //	                     time); see DriftSeriesJSON
-//	GET /v1/alerts       this shard's stored alerts, newest first, each
+//	GET /v1/alerts       the stored alerts of every shard in Peers
+//	                     (?local=true: this shard's), newest first, each
 //	                     with "triage", its verdict in force or null:
 //	                     ?since=SEQ (cuts after it) or ?since=TIME (event
 //	                     time ≥ it), ?until=TIME (event time ≤ it),
 //	                     ?node=ID, ?rule=NAME, ?verdict=V (confirmed,
 //	                     dismissed, needs-more, or none for alerts not yet
 //	                     triaged), ?limit=N (default 100, at most 1000)
-//	GET /v1/alerts/{id}  one alert with "triage" and "triage_history"
+//	GET /v1/alerts/{id}  one alert with "triage" and "triage_history",
+//	                     from the peer that keeps it if this shard does not
 //	POST /v1/alerts/{id}/triage   {"verdict": V, "note": "…"} records an
 //	                     admin's verdict on the alert (the latest is in
 //	                     force, earlier ones are kept)

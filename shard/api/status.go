@@ -77,14 +77,13 @@ func (a *api) status(w http.ResponseWriter, r *http.Request) {
 	if !queryKeys(w, q, "local") {
 		return
 	}
-	local := q.Get("local")
-	if local != "" && local != "true" && local != "false" {
-		writeError(w, http.StatusBadRequest, fmt.Sprintf("local %s: want true or false", quoted(local)))
+	local, ok := queryLocal(w, q)
+	if !ok {
 		return
 	}
 	self := a.self()
 	out := statusJSON{Version: a.opts.Version, Shard: self.Shard, ShardCount: self.ShardCount, Shards: []workerJSON{self}}
-	if local != "true" && len(a.opts.Peers) > 0 {
+	if !local && len(a.opts.Peers) > 0 {
 		peers := make([]workerJSON, len(a.opts.Peers))
 		var wg sync.WaitGroup
 		for i, p := range a.opts.Peers {
@@ -112,36 +111,58 @@ func (a *api) peerStatus(ctx context.Context, i int, base string) workerJSON {
 	fail := func(err error) workerJSON {
 		return workerJSON{Shard: i, Error: fmt.Sprintf("peer %s: %v", base, err)}
 	}
-	ctx, cancel := context.WithTimeout(ctx, a.opts.Timeout)
-	defer cancel()
-	u, err := url.JoinPath(base, "/v1/status")
-	if err != nil {
-		return fail(err)
-	}
-	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?local=true", nil)
-	if err != nil {
-		return fail(err)
-	}
-	if a.opts.PeerToken != "" {
-		req.Header.Set("Authorization", "Bearer "+a.opts.PeerToken)
-	}
-	resp, err := a.opts.PeerClient.Do(req)
-	if err != nil {
-		return fail(err)
-	}
-	defer resp.Body.Close()
-	if resp.StatusCode != http.StatusOK {
-		return fail(fmt.Errorf("status %s", resp.Status))
-	}
 	var st statusJSON
-	if err := json.NewDecoder(io.LimitReader(resp.Body, 1<<20)).Decode(&st); err != nil {
-		return fail(fmt.Errorf("decoding its status: %w", err))
+	if err := a.peerGet(ctx, base, "/v1/status", url.Values{}, &st); err != nil {
+		return fail(err)
 	}
 	if len(st.Shards) != 1 {
 		return fail(fmt.Errorf("it reported %d shards for a local status, want 1", len(st.Shards)))
 	}
 	return st.Shards[0]
 }
+
+// peerGet asks the worker at base for path with query q and local=true
+// (its own answer, not one gathered from its peers), within the peer
+// timeout, and decodes a 200 answer into out. Another status is an error
+// carrying the peer's own error message.
+func (a *api) peerGet(ctx context.Context, base, path string, q url.Values, out any) error {
+	ctx, cancel := context.WithTimeout(ctx, a.opts.Timeout)
+	defer cancel()
+	u, err := url.JoinPath(base, path)
+	if err != nil {
+		return err
+	}
+	q.Set("local", "true")
+	req, err := http.NewRequestWithContext(ctx, http.MethodGet, u+"?"+q.Encode(), nil)
+	if err != nil {
+		return err
+	}
+	if a.opts.PeerToken != "" {
+		req.Header.Set("Authorization", "Bearer "+a.opts.PeerToken)
+	}
+	resp, err := a.opts.PeerClient.Do(req)
+	if err != nil {
+		return err
+	}
+	defer resp.Body.Close()
+	body := io.LimitReader(resp.Body, maxPeerBody)
+	if resp.StatusCode != http.StatusOK {
+		var e struct {
+			Error string `json:"error"`
+		}
+		if json.NewDecoder(body).Decode(&e) == nil && e.Error != "" {
+			return fmt.Errorf("status %s: %s", resp.Status, e.Error)
+		}
+		return fmt.Errorf("status %s", resp.Status)
+	}
+	if err := json.NewDecoder(body).Decode(out); err != nil {
+		return fmt.Errorf("decoding its answer: %w", err)
+	}
+	return nil
+}
+
+// maxPeerBody bounds a peer's answer: a status, or up to 1,000 alerts.
+const maxPeerBody = 64 << 20
 
 func (a *api) healthz(w http.ResponseWriter, r *http.Request) {
 	writeJSON(w, http.StatusOK, map[string]string{"status": "alive"})

@@ -8,8 +8,10 @@ import (
 	"fmt"
 	"io"
 	"net/http"
+	"net/url"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 
 	"orbitwatch/storage"
@@ -129,8 +131,23 @@ func (a *api) alertRequest(w http.ResponseWriter, r *http.Request) (storage.Aler
 // force ("triage") and every verdict given, oldest first
 // ("triage_history").
 func (a *api) oneAlert(w http.ResponseWriter, r *http.Request) {
-	if !queryKeys(w, r.URL.Query()) {
+	q := r.URL.Query()
+	if !queryKeys(w, q, "local") {
 		return
+	}
+	local, ok := queryLocal(w, q)
+	if !ok {
+		return
+	}
+	if id := r.PathValue("id"); !local && a.hasPeers() {
+		if _, err := a.v.Store().FindAlert(id); errors.Is(err, storage.ErrNoAlert) {
+			if i, m := a.peerAlert(r, id); i >= 0 {
+				writeJSON(w, http.StatusOK, m)
+			} else {
+				writeError(w, http.StatusNotFound, fmt.Sprintf("no alert %s on this worker or on the peers that answered", quoted(id)))
+			}
+			return
+		}
 	}
 	rec, ok := a.alertRequest(w, r)
 	if !ok {
@@ -204,6 +221,16 @@ func (a *api) triage(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusBadRequest, fmt.Sprintf("verdict %s: want one of %s", quoted(in.Verdict), strings.Join(storage.VerdictNames, ", ")))
 		return
 	}
+	if id := r.PathValue("id"); a.hasPeers() {
+		// A verdict is stored beside its alert, on the worker that owns
+		// the alert's node: say which one that is.
+		if _, err := a.v.Store().FindAlert(id); errors.Is(err, storage.ErrNoAlert) {
+			if i, _ := a.peerAlert(r, id); i >= 0 {
+				writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("alert %s is kept by shard %d (%s): send its verdict there", quoted(id), i, a.opts.Peers[i]))
+				return
+			}
+		}
+	}
 	rec, ok := a.alertRequest(w, r)
 	if !ok {
 		return
@@ -225,4 +252,31 @@ func (a *api) triage(w http.ResponseWriter, r *http.Request) {
 		Alert  string      `json:"alert"`
 		Triage *triageJSON `json:"triage"`
 	}{rec.ID, triageOf(v)})
+}
+
+// peerAlert asks every peer for the alert id (each keeps the alerts of
+// the nodes it owns) and returns the shard of the first that has it and
+// its answer to GET /v1/alerts/{id}; shard -1 when none that answered has.
+func (a *api) peerAlert(r *http.Request, id string) (int, json.RawMessage) {
+	self, _ := a.v.Shard()
+	found := make([]json.RawMessage, len(a.opts.Peers))
+	var wg sync.WaitGroup
+	for i, p := range a.opts.Peers {
+		if i == self || p == "" {
+			continue
+		}
+		wg.Go(func() {
+			var m json.RawMessage
+			if a.peerGet(r.Context(), p, "/v1/alerts/"+url.PathEscape(id), url.Values{}, &m) == nil {
+				found[i] = m
+			}
+		})
+	}
+	wg.Wait()
+	for i, m := range found {
+		if m != nil {
+			return i, m
+		}
+	}
+	return -1, nil
 }

@@ -3,6 +3,7 @@ package api
 import (
 	"context"
 	"encoding/json"
+	"net"
 	"net/http"
 	"net/url"
 	"path/filepath"
@@ -279,4 +280,96 @@ func openStoreNoCleanup(t testing.TB, c *shard.Counting, dir string) *storage.St
 		t.Fatal(err)
 	}
 	return st
+}
+
+// TestAlertsAcrossShards: three workers, each holding the alerts of its
+// own nodes, behind tokens. A worker given its peers lists all three's
+// alerts newest first (the order one store holding them all would give),
+// cut to the limit, and names a peer that does not answer; local=true
+// lists its own. One alert is found on whichever shard holds it, and a
+// verdict sent to the wrong worker is told which shard to send it to.
+func TestAlertsAcrossShards(t *testing.T) {
+	stored := storedAlerts()
+	mine := []map[uint64][]alert.Alert{
+		{4: {stored[4][0]}},
+		{4: {stored[4][1]}, 5: {stored[5][0]}},
+		{5: {stored[5][1]}},
+	}
+	tokens := tokensFile(t)
+	rules := Options{Rules: []string{"ring", "fan-out"}}
+	views := make([]*applierView, 3)
+	urls := make([]string, 4)
+	for i := range views {
+		views[i], _ = buildView(t, tailedTriangle(), []uint64{4, 5}, mine[i])
+		views[i].i, views[i].n = i, 3
+		if i > 0 {
+			urls[i] = serve(t, ServerConfig{Addr: "127.0.0.1:0", TokensFile: tokens}, New(views[i], rules)).URL()
+		}
+	}
+	dead, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	urls[3] = "http://" + dead.Addr().String()
+	dead.Close()
+	opts := Options{Rules: rules.Rules, Peers: urls[:3], PeerToken: readToken, Timeout: 2 * time.Second}
+	s0 := serve(t, ServerConfig{Addr: "127.0.0.1:0", TokensFile: tokens}, New(views[0], opts))
+	client, base := http.DefaultClient, s0.URL()
+
+	// What one store holding every alert lists (TestAPIAlerts holds that
+	// store's order: by cut, then by id, newest first).
+	all, _ := buildView(t, tailedTriangle(), []uint64{4, 5}, stored)
+	whole := serve(t, ServerConfig{Addr: "127.0.0.1:0", TokensFile: tokens}, New(all, rules)).URL()
+	key := func(as []listed) []string {
+		var out []string
+		for _, a := range as {
+			out = append(out, a.ID)
+		}
+		return out
+	}
+	for _, q := range []string{"", "?limit=2", "?rule=fan-out", "?since=4"} {
+		got, want := key(listAlerts(t, client, base, readToken, q)), key(listAlerts(t, client, whole, readToken, q))
+		if len(want) == 0 || !slices.Equal(got, want) {
+			t.Errorf("alerts%s across shards: %v, one store: %v", q, got, want)
+		}
+	}
+	_, body := do(t, client, base, call{path: "/v1/alerts", token: readToken})
+	var out alertsJSON
+	if err := json.Unmarshal([]byte(body), &out); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(out.Shards, []int{0, 1, 2}) || len(out.Errors) != 0 {
+		t.Errorf("shards %v, errors %v", out.Shards, out.Errors)
+	}
+	if got := key(listAlerts(t, client, base, readToken, "?local=true")); !slices.Equal(got, []string{stored[4][0].ID}) {
+		t.Errorf("local alerts of shard 0: %v", got)
+	}
+	withDead := serve(t, ServerConfig{Addr: "127.0.0.1:0", TokensFile: tokens}, New(views[0], Options{Rules: rules.Rules, Peers: urls, PeerToken: readToken, Timeout: 2 * time.Second}))
+	_, body = do(t, client, withDead.URL(), call{path: "/v1/alerts", token: readToken})
+	out = alertsJSON{}
+	if err := json.Unmarshal([]byte(body), &out); err != nil {
+		t.Fatal(err)
+	}
+	if len(out.Alerts) != 4 || len(out.Errors) != 1 || !strings.Contains(out.Errors[0], "shard 3 ("+urls[3]+")") {
+		t.Errorf("with a dead peer: %d alerts, errors %v", len(out.Alerts), out.Errors)
+	}
+
+	far := stored[5][1] // kept by shard 2
+	code, body := do(t, client, base, call{path: "/v1/alerts/" + far.ID, token: readToken})
+	if code != 200 || !strings.Contains(body, `"id":"`+far.ID+`"`) || !strings.Contains(body, `"shard":2`) {
+		t.Errorf("GET another shard's alert: %d %s", code, body)
+	}
+	if code, body := do(t, client, base, call{path: "/v1/alerts/" + far.ID + "?local=true", token: readToken}); code != 404 {
+		t.Errorf("GET another shard's alert, local: %d %s", code, body)
+	}
+	if code, body := do(t, client, base, call{path: "/v1/alerts/0123456789abcdef", token: readToken}); code != 404 || !strings.Contains(body, "peers") {
+		t.Errorf("GET an alert no shard has: %d %s", code, body)
+	}
+	code, body = postVerdict(t, client, base, adminToken, far.ID, `{"verdict":"confirmed"}`)
+	if code != http.StatusMisdirectedRequest || !strings.Contains(body, "shard 2 ("+urls[2]+")") {
+		t.Errorf("verdict sent to the wrong shard: %d %s", code, body)
+	}
+	if code, body := postVerdict(t, client, urls[2], adminToken, far.ID, `{"verdict":"confirmed"}`); code != 200 {
+		t.Errorf("verdict sent to the shard that keeps the alert: %d %s", code, body)
+	}
 }

@@ -475,7 +475,8 @@
       if (!force && busy(list)) return;
       list.replaceChildren(...r.alerts.map((a) => alertItem(a, true)));
       const filtered = alertFilterQuery() !== "";
-      $("recent-note").textContent = view.at ? `Alerts raised up to ${fmtTime(view.at)}.` : "";
+      const missing = (r.errors || []).length ? ` Not listed, a worker did not answer: ${r.errors.join("; ")}.` : "";
+      $("recent-note").textContent = (view.at ? `Alerts raised up to ${fmtTime(view.at)}.` : "") + missing;
       if (r.alerts.length === 0) {
         list.append(el("li", {class: "none muted"}, filtered ? "No alerts match these filters. Clear a filter or pick a later time." : "No alerts yet. Alerts are raised at each cut when an account's signature changes in a way a rule looks for."));
       }
