@@ -3,6 +3,7 @@ package api
 import (
 	"bytes"
 	"cmp"
+	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -223,9 +224,17 @@ func (a *api) triage(w http.ResponseWriter, r *http.Request) {
 	}
 	if id := r.PathValue("id"); a.hasPeers() {
 		// A verdict is stored beside its alert, on the worker that owns
-		// the alert's node: say which one that is.
+		// the alert's node: it is sent on there with the caller's own
+		// bearer token (or none, from an open loopback API), so the
+		// worker that keeps the alert judges the caller itself. A caller
+		// known by a client certificate cannot be vouched for that way
+		// and is told where to send it.
 		if _, err := a.v.Store().FindAlert(id); errors.Is(err, storage.ErrNoAlert) {
 			if i, _ := a.peerAlert(r, id); i >= 0 {
+				if auth := r.Header.Get("Authorization"); auth != "" || r.TLS == nil {
+					a.forwardVerdict(w, r, a.opts.Peers[i], id, auth, b)
+					return
+				}
 				writeError(w, http.StatusMisdirectedRequest, fmt.Sprintf("alert %s is kept by shard %d (%s): send its verdict there", quoted(id), i, a.opts.Peers[i]))
 				return
 			}
@@ -279,4 +288,43 @@ func (a *api) peerAlert(r *http.Request, id string) (int, json.RawMessage) {
 		}
 	}
 	return -1, nil
+}
+
+// forwardVerdict posts the verdict body to the triage endpoint of the
+// worker at base for alert id, with the caller's Authorization header
+// auth (none when empty), and relays its answer.
+func (a *api) forwardVerdict(w http.ResponseWriter, r *http.Request, base, id, auth string, body []byte) {
+	status, out, err := a.postPeer(r.Context(), base, id, auth, body)
+	if err != nil {
+		writeError(w, http.StatusBadGateway, fmt.Sprintf("alert %s is kept by %s, which did not take the verdict: %s", quoted(id), base, shorten(err.Error())))
+		return
+	}
+	w.Header().Set("Content-Type", "application/json")
+	w.WriteHeader(status)
+	w.Write(out)
+}
+
+// postPeer is forwardVerdict's request: the peer's status and body.
+func (a *api) postPeer(ctx context.Context, base, id, auth string, body []byte) (int, []byte, error) {
+	ctx, cancel := context.WithTimeout(ctx, a.opts.Timeout)
+	defer cancel()
+	u, err := url.JoinPath(base, "/v1/alerts", url.PathEscape(id), "triage")
+	if err != nil {
+		return 0, nil, err
+	}
+	req, err := http.NewRequestWithContext(ctx, http.MethodPost, u, bytes.NewReader(body))
+	if err != nil {
+		return 0, nil, err
+	}
+	req.Header.Set("Content-Type", "application/json")
+	if auth != "" {
+		req.Header.Set("Authorization", auth)
+	}
+	resp, err := a.opts.PeerClient.Do(req)
+	if err != nil {
+		return 0, nil, err
+	}
+	defer resp.Body.Close()
+	out, err := io.ReadAll(io.LimitReader(resp.Body, maxPeerBody))
+	return resp.StatusCode, out, err
 }

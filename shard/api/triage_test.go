@@ -2,6 +2,7 @@ package api
 
 import (
 	"context"
+	"crypto/tls"
 	"encoding/json"
 	"net"
 	"net/http"
@@ -365,11 +366,31 @@ func TestAlertsAcrossShards(t *testing.T) {
 	if code, body := do(t, client, base, call{path: "/v1/alerts/0123456789abcdef", token: readToken}); code != 404 || !strings.Contains(body, "peers") {
 		t.Errorf("GET an alert no shard has: %d %s", code, body)
 	}
-	code, body = postVerdict(t, client, base, adminToken, far.ID, `{"verdict":"confirmed"}`)
-	if code != http.StatusMisdirectedRequest || !strings.Contains(body, "shard 2 ("+urls[2]+")") {
-		t.Errorf("verdict sent to the wrong shard: %d %s", code, body)
+	// A verdict sent to another worker is stored by the one that keeps
+	// the alert, under the caller's own token: a reader is refused there
+	// and here alike.
+	if code, body := postVerdict(t, client, base, readToken, far.ID, `{"verdict":"confirmed"}`); code != 403 {
+		t.Errorf("reader's verdict via another shard: %d %s", code, body)
 	}
-	if code, body := postVerdict(t, client, urls[2], adminToken, far.ID, `{"verdict":"confirmed"}`); code != 200 {
-		t.Errorf("verdict sent to the shard that keeps the alert: %d %s", code, body)
+	code, body = postVerdict(t, client, base, adminToken, far.ID, `{"verdict":"confirmed","note":"sent to shard 0"}`)
+	if code != 200 || !strings.Contains(body, `"by":"oncall"`) {
+		t.Errorf("verdict sent to another shard: %d %s", code, body)
+	}
+	kept := listAlerts(t, client, urls[2], readToken, "?local=true")
+	if len(kept) != 1 || kept[0].Triage == nil || kept[0].Triage.Verdict != "confirmed" || kept[0].Triage.Note != "sent to shard 0" {
+		t.Errorf("shard 2 after the forwarded verdict: %+v", kept)
+	}
+	if own := listAlerts(t, client, base, readToken, "?local=true&verdict=confirmed"); len(own) != 0 {
+		t.Errorf("shard 0 stored a verdict on an alert it does not keep: %+v", own)
+	}
+	// A caller known by a client certificate cannot be vouched for to the
+	// peer: it is told where to send the verdict.
+	p := newPKI(t)
+	tlsBase := serve(t, ServerConfig{Addr: "127.0.0.1:0", CertFile: p.serverCert, KeyFile: p.serverKey, ClientCAFile: p.caFile, TokensFile: tokens}, New(views[0], opts)).URL()
+	cert := p.client(t, "ops-desk.payments.internal", p.ca, p.caKey)
+	certClient := &http.Client{Transport: &http.Transport{TLSClientConfig: &tls.Config{RootCAs: p.pool, Certificates: []tls.Certificate{cert}}}, Timeout: 10 * time.Second}
+	code, body = postVerdict(t, certClient, tlsBase, "", far.ID, `{"verdict":"dismissed"}`)
+	if code != http.StatusMisdirectedRequest || !strings.Contains(body, "shard 2 ("+urls[2]+")") {
+		t.Errorf("certificate caller's verdict on another shard's alert: %d %s", code, body)
 	}
 }
