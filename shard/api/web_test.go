@@ -349,6 +349,9 @@ func TestPageTriage(t *testing.T) {
 	b.open(base + "/")
 	b.waitFor(`document.querySelectorAll("#recent li.alert").length > 0`)
 	b.click(`#recent li.alert .review`)
+	// The form opens on the click's event, which a loaded machine may
+	// deliver after the next command: wait for it, as above.
+	b.waitFor(`!document.querySelector("#recent li.alert .triage-form").hidden`)
 	b.click(`#recent li.alert .triage-form label`)
 	b.click(`#recent li.alert .triage-form button[type=submit]`)
 	b.waitFor(`document.querySelector("#recent li.alert .msg").textContent.includes("admin token")`)
