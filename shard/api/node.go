@@ -67,6 +67,24 @@ func nodeRequest(w http.ResponseWriter, r *http.Request, allowed ...string) (id 
 	return id, q, queryKeys(w, q, allowed...)
 }
 
+// answered names the answering shard in the header and, unless the view
+// answered status 200, writes its refusal: a 404 or 410 in the view's
+// words (which name id in full; an answer repeats at most maxShown bytes
+// of it), anything else as an internal error about what. It reports
+// whether the caller goes on to write the answer.
+func (a *api) answered(w http.ResponseWriter, shard, status int, msg, id, what string) bool {
+	w.Header().Set(ShardHeader, strconv.Itoa(shard))
+	switch status {
+	case http.StatusOK:
+		return true
+	case http.StatusNotFound, http.StatusGone:
+		writeError(w, status, strings.ReplaceAll(msg, strconv.Quote(id), quoted(id)))
+	default:
+		a.internal(w, what, fmt.Errorf("status %d: %s", status, msg))
+	}
+	return false
+}
+
 func (a *api) node(w http.ResponseWriter, r *http.Request) {
 	id, q, ok := nodeRequest(w, r, "at", "seq")
 	if !ok {
@@ -83,16 +101,7 @@ func (a *api) node(w http.ResponseWriter, r *http.Request) {
 		a.internal(w, "node "+quoted(id), err)
 		return
 	}
-	w.Header().Set(ShardHeader, strconv.Itoa(rep.Shard))
-	switch rep.Status {
-	case http.StatusOK:
-	case http.StatusNotFound, http.StatusGone:
-		// The view's words name the id in full; an answer repeats at most
-		// maxShown bytes of it.
-		writeError(w, rep.Status, strings.ReplaceAll(rep.Error, strconv.Quote(id), quoted(id)))
-		return
-	default:
-		a.internal(w, "node "+quoted(id), fmt.Errorf("status %d: %s", rep.Status, rep.Error))
+	if !a.answered(w, rep.Shard, rep.Status, rep.Error, id, "node "+quoted(id)) {
 		return
 	}
 	writeJSON(w, http.StatusOK, NodeVector{Node: rep.Node, Kind: rep.Kind, MaxNodes: rep.MaxNodes, Seq: rep.Seq, EventTime: optTime(rep.EventTime), Orbits: rep.Orbits})

@@ -5,7 +5,6 @@ import (
 	"net/http"
 	"net/url"
 	"strconv"
-	"strings"
 	"time"
 
 	"orbitwatch/delta/catalog"
@@ -89,14 +88,7 @@ func (a *api) similar(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusServiceUnavailable, fmt.Sprintf("the nodes similar to %s were not read: %v", quoted(id), err))
 		return
 	}
-	w.Header().Set(ShardHeader, strconv.Itoa(rep.Shard))
-	switch rep.Status {
-	case http.StatusOK:
-	case http.StatusNotFound, http.StatusGone:
-		writeError(w, rep.Status, strings.ReplaceAll(rep.Error, strconv.Quote(id), quoted(id)))
-		return
-	default:
-		a.internal(w, "the nodes similar to "+quoted(id), fmt.Errorf("status %d: %s", rep.Status, rep.Error))
+	if !a.answered(w, rep.Shard, rep.Status, rep.Error, id, "the nodes similar to "+quoted(id)) {
 		return
 	}
 	writeJSON(w, http.StatusOK, NewSimilarJSON(rep, a.v.Counting().Catalog))
