@@ -3,6 +3,7 @@ package bench
 import (
 	"bufio"
 	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -32,6 +33,35 @@ func Python() (string, error) {
 		tried = append(tried, fmt.Sprintf("%s: %v %s", p, err, bytes.TrimSpace(out)))
 	}
 	return "", fmt.Errorf("no Python 3 with networkx and python-igraph (set ORBITWATCH_PYTHON); tried: %s", strings.Join(tried, "; "))
+}
+
+// PythonWith is Python checked to import modules too (a comma-separated
+// import list, e.g. "scipy.stats, numpy").
+func PythonWith(modules string) (string, error) {
+	py, err := Python()
+	if err != nil {
+		return "", err
+	}
+	if out, err := exec.Command(py, "-c", "import "+modules).CombinedOutput(); err != nil {
+		return "", fmt.Errorf("%s cannot import %s: %v: %s", py, modules, err, bytes.TrimSpace(out))
+	}
+	return py, nil
+}
+
+// RunPythonJSON runs script by py with args and decodes its standard
+// output, one JSON value, into out; a failing script's error carries its
+// standard error.
+func RunPythonJSON(py, script string, out any, args ...string) error {
+	cmd := exec.Command(py, append([]string{"-c", script}, args...)...)
+	var stdout, stderr bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &stdout, &stderr
+	if err := cmd.Run(); err != nil {
+		return fmt.Errorf("%s: %v: %s", py, err, bytes.TrimSpace(stderr.Bytes()))
+	}
+	if err := json.Unmarshal(stdout.Bytes(), out); err != nil {
+		return fmt.Errorf("decoding the reply of %s: %v", py, err)
+	}
+	return nil
 }
 
 // trianglesScript loads an edge list (one "u v" per line), then times only

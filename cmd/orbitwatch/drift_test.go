@@ -1,11 +1,9 @@
 package main
 
 import (
-	"bytes"
 	"encoding/json"
 	"fmt"
 	"math"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -22,13 +20,7 @@ import (
 // it cannot also import scipy (Debian's python3-scipy, which CI installs).
 func scipyPython(t *testing.T) string {
 	t.Helper()
-	py, err := bench.Python()
-	if err == nil {
-		var out []byte
-		if out, err = exec.Command(py, "-c", "import scipy.stats, numpy").CombinedOutput(); err != nil {
-			err = fmt.Errorf("%v: %s", err, strings.TrimSpace(string(out)))
-		}
-	}
+	py, err := bench.PythonWith("scipy.stats, numpy")
 	if err != nil {
 		t.Skipf("SKIPPED: no Python with networkx and scipy (%v); install python3-networkx and python3-scipy or set ORBITWATCH_PYTHON to run the scipy reference checks", err)
 	}
@@ -37,14 +29,8 @@ func scipyPython(t *testing.T) string {
 
 func runPython(t *testing.T, py, script string, out any, args ...string) {
 	t.Helper()
-	cmd := exec.Command(py, append([]string{"-c", script}, args...)...)
-	var stdout, stderr bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &stdout, &stderr
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("%s: %v: %s", py, err, strings.TrimSpace(stderr.String()))
-	}
-	if err := json.Unmarshal(stdout.Bytes(), out); err != nil {
-		t.Fatalf("decoding the reply of %s: %v", py, err)
+	if err := bench.RunPythonJSON(py, script, out, args...); err != nil {
+		t.Fatal(err)
 	}
 }
 

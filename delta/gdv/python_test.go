@@ -1,31 +1,25 @@
 package gdv_test
 
 import (
-	"bytes"
-	"encoding/json"
 	"fmt"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
 
+	"orbitwatch/bench"
 	"orbitwatch/delta"
 )
 
-// python returns the interpreter of the outside references
-// (ORBITWATCH_PYTHON, else /usr/bin/python3). Without scipy the test is
-// skipped, saying so: the references are scipy.stats (Debian's
-// python3-scipy, which CI installs) and networkx.
+// python returns the interpreter of the outside references (bench.Python:
+// ORBITWATCH_PYTHON, else /usr/bin/python3, with networkx and igraph).
+// Without scipy the test is skipped, saying so: the references are
+// scipy.stats (Debian's python3-scipy, which CI installs) and networkx.
 func python(t *testing.T) string {
 	t.Helper()
-	py := os.Getenv("ORBITWATCH_PYTHON")
-	if py == "" {
-		py = "/usr/bin/python3"
-	}
-	if out, err := exec.Command(py, "-c", "import scipy.stats, numpy").CombinedOutput(); err != nil {
-		t.Skipf("SKIPPED: %s cannot import scipy (%v: %s); install Debian's python3-scipy or set ORBITWATCH_PYTHON to run the scipy reference checks",
-			py, err, strings.TrimSpace(string(out)))
+	py, err := bench.PythonWith("scipy.stats, numpy")
+	if err != nil {
+		t.Skipf("SKIPPED: %v; install Debian's python3-networkx and python3-scipy or set ORBITWATCH_PYTHON to run the scipy reference checks", err)
 	}
 	return py
 }
@@ -34,14 +28,8 @@ func python(t *testing.T) string {
 // into out.
 func runPython(t *testing.T, py, script string, out any, args ...string) {
 	t.Helper()
-	cmd := exec.Command(py, append([]string{"-c", script}, args...)...)
-	var stdout, stderr bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &stdout, &stderr
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("%s: %v: %s", py, err, strings.TrimSpace(stderr.String()))
-	}
-	if err := json.Unmarshal(stdout.Bytes(), out); err != nil {
-		t.Fatalf("decoding the reply of %s: %v", py, err)
+	if err := bench.RunPythonJSON(py, script, out, args...); err != nil {
+		t.Fatal(err)
 	}
 }
 
