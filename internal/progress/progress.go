@@ -147,13 +147,14 @@ func (r *Reporter) loop() {
 }
 
 // render writes the current state. Rates are averages since New; the ETA
-// is (total − bytes) / (bytes per second so far).
+// is (total − done) / (done per second so far), done being the bytes, or
+// the events of a Counted total.
 func (r *Reporter) render() {
 	el := r.now().Sub(r.start)
 	ev, by := r.events.Load(), r.bytes.Load()
+	done := by // what total counts
 	if r.counted {
-		r.renderCounted(el, ev)
-		return
+		done = ev
 	}
 	var b strings.Builder
 	if r.terminal {
@@ -162,40 +163,25 @@ func (r *Reporter) render() {
 	b.WriteString(r.label)
 	if r.terminal && r.total > 0 {
 		b.WriteString(" ")
-		b.WriteString(bar(by, r.total, 20))
+		b.WriteString(bar(done, r.total, 20))
 	} else {
 		b.WriteString(":")
 	}
-	if r.total > 0 {
-		fmt.Fprintf(&b, " %5.1f%% of %s,", 100*float64(min(by, r.total))/float64(r.total), Bytes(r.total))
-	} else {
-		fmt.Fprintf(&b, " %s,", Bytes(by))
+	pct := 100 * float64(min(done, r.total)) / float64(max(r.total, 1))
+	switch {
+	case r.counted && r.total > 0:
+		fmt.Fprintf(&b, " %5.1f%%, %d of %d %s,", pct, ev, r.total, r.unit)
+	case r.counted:
+		fmt.Fprintf(&b, " %d %s,", ev, r.unit)
+	case r.total > 0:
+		fmt.Fprintf(&b, " %5.1f%% of %s, %d %s,", pct, Bytes(r.total), ev, r.unit)
+	default:
+		fmt.Fprintf(&b, " %s, %d %s,", Bytes(by), ev, r.unit)
 	}
-	fmt.Fprintf(&b, " %d %s, %s %s/s", ev, r.unit, rate(ev, el), r.unit)
+	fmt.Fprintf(&b, " %s %s/s", rate(ev, el), r.unit)
 	if r.total > 0 {
 		b.WriteString(", ETA ")
-		b.WriteString(eta(by, r.total, el))
-	}
-	r.write(b.String())
-}
-
-// renderCounted is render for a Counted total.
-func (r *Reporter) renderCounted(el time.Duration, ev int64) {
-	var b strings.Builder
-	if r.terminal {
-		b.WriteString("\r")
-	}
-	b.WriteString(r.label)
-	if r.terminal && r.total > 0 {
-		b.WriteString(" ")
-		b.WriteString(bar(ev, r.total, 20))
-	} else {
-		b.WriteString(":")
-	}
-	if r.total > 0 {
-		fmt.Fprintf(&b, " %5.1f%%, %d of %d %s, %s %s/s, ETA %s", 100*float64(min(ev, r.total))/float64(r.total), ev, r.total, r.unit, rate(ev, el), r.unit, eta(ev, r.total, el))
-	} else {
-		fmt.Fprintf(&b, " %d %s, %s %s/s", ev, r.unit, rate(ev, el), r.unit)
+		b.WriteString(eta(done, r.total, el))
 	}
 	r.write(b.String())
 }
