@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"orbitwatch/bench/gen"
 	"orbitwatch/delta"
 	"orbitwatch/delta/catalog"
 	"orbitwatch/delta/gdv"
@@ -70,17 +71,7 @@ func twinLog(seed uint64, bg, size int) ([]edgeLine, map[string]string) {
 	for range 2 * bg {
 		addBG(day1)
 	}
-	var edges [][2]int
-	for i := 1; i < size; i++ {
-		edges = append(edges, [2]int{r.IntN(i), i})
-	}
-	for range size {
-		i, j := r.IntN(size), r.IntN(size)
-		if i != j && !slices.Contains(edges, [2]int{i, j}) && !slices.Contains(edges, [2]int{j, i}) {
-			edges = append(edges, [2]int{i, j})
-		}
-	}
-	perm := r.Perm(size)
+	edges, perm := gen.Twin(r, size)
 	image := map[string]string{}
 	for i := range size {
 		image[fmt.Sprintf("twin-a-%d", i)] = fmt.Sprintf("twin-b-%d", perm[i])

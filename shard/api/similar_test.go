@@ -11,6 +11,7 @@ import (
 	"testing"
 	"time"
 
+	"orbitwatch/bench/gen"
 	"orbitwatch/delta/gdv"
 	"orbitwatch/shard"
 	"orbitwatch/storage"
@@ -60,17 +61,7 @@ func twinsLog(seed uint64, bg, size int) ([]stream.Event, map[string]string) {
 		seen[[2]int{min(u, v), max(u, v)}] = true
 		out = append(out, pay(stream.OpAdd, fmt.Sprintf("bg-%d", u), fmt.Sprintf("bg-%d", v), len(out)))
 	}
-	var edges [][2]int
-	for i := 1; i < size; i++ {
-		edges = append(edges, [2]int{r.IntN(i), i}) // a random tree: connected
-	}
-	for range size {
-		i, j := r.IntN(size), r.IntN(size)
-		if i != j && !slices.Contains(edges, [2]int{i, j}) && !slices.Contains(edges, [2]int{j, i}) {
-			edges = append(edges, [2]int{i, j})
-		}
-	}
-	perm := r.Perm(size)
+	edges, perm := gen.Twin(r, size)
 	image := map[string]string{}
 	a := func(i int) string { return fmt.Sprintf("twin-a-%d", i) }
 	b := func(i int) string { return fmt.Sprintf("twin-b-%d", perm[i]) }
