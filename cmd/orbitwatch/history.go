@@ -57,10 +57,6 @@ func runHistory(args []string) int {
 	}
 	defer st.Close()
 	set := st.Settings()
-	cat, err := catalog.New(set.Kind, set.MaxNodes)
-	if err != nil {
-		return fail("history", err)
-	}
 	var chosen []int
 	if *orbitList != "" {
 		if chosen, err = parseOrbits(*orbitList, set.NumOrbits); err != nil {
@@ -71,6 +67,7 @@ func runHistory(args []string) int {
 	if err != nil {
 		return fail("history", err)
 	}
+	cat := counting.Catalog
 	vers, err := nodeHistory(st, counting.New(), *node, rng)
 	if err != nil {
 		return fail("history", err)

@@ -63,11 +63,7 @@ func runQuery(args []string) int {
 		}
 		return 0
 	}
-	cat, err := catalog.New(set.Kind, set.MaxNodes)
-	if err != nil {
-		return fail("query", err)
-	}
-	if err := writeVectorTable(os.Stdout, cat, nv, *all); err != nil {
+	if err := writeVectorTable(os.Stdout, counting.Catalog, nv, *all); err != nil {
 		return fail("query", err)
 	}
 	return 0
