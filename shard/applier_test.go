@@ -12,7 +12,7 @@ import (
 	"orbitwatch/stream"
 )
 
-func mustCounting(t *testing.T, kind delta.Kind, k int) *Counting {
+func mustCounting(t testing.TB, kind delta.Kind, k int) *Counting {
 	t.Helper()
 	c, err := NewCounting(kind, k)
 	if err != nil {

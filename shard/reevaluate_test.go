@@ -17,14 +17,8 @@ import (
 func backfillDemo(tb testing.TB, cfg demo.Config, dir string) (st *storage.Store, alerts []alert.Alert, eval, apply time.Duration, cuts int) {
 	tb.Helper()
 	sc := demo.Generate(cfg)
-	c, err := NewCounting(delta.Undirected, 4)
-	if err != nil {
-		tb.Fatal(err)
-	}
-	rules, err := demo.AlertConfig(c.Catalog)
-	if err != nil {
-		tb.Fatal(err)
-	}
+	c, rules := demoRules(tb)
+	var err error
 	if st, err = storage.Open(dir, storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: c.Catalog.NumOrbits()}); err != nil {
 		tb.Fatal(err)
 	}
@@ -66,11 +60,7 @@ func backfillDemo(tb testing.TB, cfg demo.Config, dir string) (st *storage.Store
 func TestEvaluateStoredEqualsBackfill(t *testing.T) {
 	st, want, _, _, _ := backfillDemo(t, demo.SmallConfig(), t.TempDir())
 	defer st.Close()
-	c := mustCounting(t, delta.Undirected, 4)
-	rules, err := demo.AlertConfig(c.Catalog)
-	if err != nil {
-		t.Fatal(err)
-	}
+	c, rules := demoRules(t)
 	res, err := EvaluateStored(st, c, alert.New(rules, c.Catalog), 0, st.Seq(), nil)
 	if err != nil {
 		t.Fatal(err)
@@ -126,14 +116,7 @@ func TestEvaluateStoredEqualsBackfill(t *testing.T) {
 func BenchmarkEvaluateStoredDemoDay(b *testing.B) {
 	st, alerts, eval, apply, cuts := backfillDemo(b, demo.DefaultConfig(), b.TempDir())
 	defer st.Close()
-	c, err := NewCounting(delta.Undirected, 4)
-	if err != nil {
-		b.Fatal(err)
-	}
-	rules, err := demo.AlertConfig(c.Catalog)
-	if err != nil {
-		b.Fatal(err)
-	}
+	c, rules := demoRules(b)
 	b.ResetTimer()
 	for range b.N {
 		res, err := EvaluateStored(st, c, alert.New(rules, c.Catalog), 0, st.Seq(), nil)
@@ -159,14 +142,7 @@ func BenchmarkEvaluateStoredDemoDay(b *testing.B) {
 // the full sweep against none.
 func BenchmarkSweepAddsAlerts(b *testing.B) {
 	sc := demo.Generate(demo.SmallConfig())
-	c, err := NewCounting(delta.Undirected, 4)
-	if err != nil {
-		b.Fatal(err)
-	}
-	rules, err := demo.AlertConfig(c.Catalog)
-	if err != nil {
-		b.Fatal(err)
-	}
+	c, rules := demoRules(b)
 	run := func(sweep time.Duration) (map[string]bool, time.Duration) {
 		cfg := rules
 		cfg.Sweep = sweep

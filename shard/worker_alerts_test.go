@@ -32,11 +32,7 @@ func TestWorkersAlertOnOwnedNodes(t *testing.T) {
 	dir := t.TempDir()
 	var ws []*runningWorker
 	for i := range shards {
-		c := mustCounting(t, delta.Undirected, 4)
-		cfg, err := demo.AlertConfig(c.Catalog)
-		if err != nil {
-			t.Fatal(err)
-		}
+		c, cfg := demoRules(t)
 		nc, _ := connect(t, srv.URL())
 		st, err := storage.Open(filepath.Join(dir, fmt.Sprint(i)), storage.Settings{Kind: delta.Undirected, MaxNodes: 4, NumOrbits: c.Catalog.NumOrbits()})
 		if err != nil {
@@ -107,14 +103,7 @@ func TestWorkersAlertOnOwnedNodes(t *testing.T) {
 // again and again; changed/cut reports the nodes it scores.
 func BenchmarkAlertStageCut(b *testing.B) {
 	sc := demo.Generate(demo.SmallConfig())
-	c, err := NewCounting(delta.Undirected, 4)
-	if err != nil {
-		b.Fatal(err)
-	}
-	cfg, err := demo.AlertConfig(c.Catalog)
-	if err != nil {
-		b.Fatal(err)
-	}
+	c, cfg := demoRules(b)
 	a := NewApplier(c, 0, demoCuts)
 	stage := NewAlertStage(alert.New(cfg, c.Catalog), c)
 	var last *storage.Checkpoint
@@ -167,4 +156,16 @@ func structural(sc *demo.Scenario, i int) bool {
 		}
 	}
 	return true
+}
+
+// demoRules returns undirected 2–4 counting and the demo's alert rules
+// over its catalog.
+func demoRules(tb testing.TB) (*Counting, alert.Config) {
+	tb.Helper()
+	c := mustCounting(tb, delta.Undirected, 4)
+	rules, err := demo.AlertConfig(c.Catalog)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return c, rules
 }
