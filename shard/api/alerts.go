@@ -10,7 +10,6 @@ import (
 	"slices"
 	"strconv"
 	"strings"
-	"sync"
 
 	"orbitwatch/storage"
 	"orbitwatch/stream"
@@ -131,14 +130,9 @@ func (a *api) gatherAlerts(r *http.Request, out *alertsJSON, limit int) {
 	q.Del("local")
 	answers := make([]alertsJSON, len(a.opts.Peers))
 	errs := make([]error, len(a.opts.Peers))
-	var wg sync.WaitGroup
-	for i, p := range a.opts.Peers {
-		if i == out.Shard || p == "" {
-			continue
-		}
-		wg.Go(func() { errs[i] = a.peerGet(r.Context(), p, "/v1/alerts", maps.Clone(q), &answers[i]) })
-	}
-	wg.Wait()
+	a.eachPeer(func(i int, base string) {
+		errs[i] = a.peerGet(r.Context(), base, "/v1/alerts", maps.Clone(q), &answers[i])
+	})
 	type entry struct {
 		seq  uint64
 		id   string

@@ -85,14 +85,7 @@ func (a *api) status(w http.ResponseWriter, r *http.Request) {
 	out := statusJSON{Version: a.opts.Version, Shard: self.Shard, ShardCount: self.ShardCount, Shards: []workerJSON{self}}
 	if !local && len(a.opts.Peers) > 0 {
 		peers := make([]workerJSON, len(a.opts.Peers))
-		var wg sync.WaitGroup
-		for i, p := range a.opts.Peers {
-			if i == self.Shard || p == "" {
-				continue
-			}
-			wg.Go(func() { peers[i] = a.peerStatus(r.Context(), i, p) })
-		}
-		wg.Wait()
+		a.eachPeer(func(i int, base string) { peers[i] = a.peerStatus(r.Context(), i, base) })
 		for i, p := range peers {
 			if i == self.Shard || a.opts.Peers[i] == "" {
 				continue
@@ -119,6 +112,19 @@ func (a *api) peerStatus(ctx context.Context, i int, base string) workerJSON {
 		return fail(fmt.Errorf("it reported %d shards for a local status, want 1", len(st.Shards)))
 	}
 	return st.Shards[0]
+}
+
+// eachPeer calls f, each call on its own goroutine, for every shard i of
+// Peers but this one that has a URL, and returns when all have returned.
+func (a *api) eachPeer(f func(i int, base string)) {
+	self, _ := a.v.Shard()
+	var wg sync.WaitGroup
+	for i, p := range a.opts.Peers {
+		if i != self && p != "" {
+			wg.Go(func() { f(i, p) })
+		}
+	}
+	wg.Wait()
 }
 
 // peerGet asks the worker at base for path with query q and local=true

@@ -12,7 +12,6 @@ import (
 	"net/url"
 	"slices"
 	"strings"
-	"sync"
 	"time"
 
 	"orbitwatch/storage"
@@ -267,21 +266,13 @@ func (a *api) triage(w http.ResponseWriter, r *http.Request) {
 // the nodes it owns) and returns the shard of the first that has it and
 // its answer to GET /v1/alerts/{id}; shard -1 when none that answered has.
 func (a *api) peerAlert(r *http.Request, id string) (int, json.RawMessage) {
-	self, _ := a.v.Shard()
 	found := make([]json.RawMessage, len(a.opts.Peers))
-	var wg sync.WaitGroup
-	for i, p := range a.opts.Peers {
-		if i == self || p == "" {
-			continue
+	a.eachPeer(func(i int, base string) {
+		var m json.RawMessage
+		if a.peerGet(r.Context(), base, "/v1/alerts/"+url.PathEscape(id), url.Values{}, &m) == nil {
+			found[i] = m
 		}
-		wg.Go(func() {
-			var m json.RawMessage
-			if a.peerGet(r.Context(), p, "/v1/alerts/"+url.PathEscape(id), url.Values{}, &m) == nil {
-				found[i] = m
-			}
-		})
-	}
-	wg.Wait()
+	})
 	for i, m := range found {
 		if m != nil {
 			return i, m
