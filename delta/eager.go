@@ -3,7 +3,6 @@ package delta
 import (
 	"encoding/binary"
 	"fmt"
-	"math/bits"
 )
 
 // eager is the Counter of a kind with no factored form: its record is the
@@ -16,7 +15,7 @@ type eager struct {
 	vec     *Vectors
 	emit    Emit
 	fault   error
-	changed []uint64 // bitset of nodes whose vector changed since Changed
+	changed Bits // bitset of nodes whose vector changed since Changed
 }
 
 // NewEager returns the Counter that keeps every node's orbit vector as its
@@ -47,14 +46,12 @@ func (c *eager) add(x uint32, o int, d int64) {
 		c.fault = err
 		return
 	}
-	c.changed[x>>6] |= 1 << (x & 63)
+	c.changed.Set(x)
 }
 
 func (c *eager) grow(n int) {
 	c.vec.Grow(n)
-	for len(c.changed)*64 < n {
-		c.changed = append(c.changed, 0)
-	}
+	c.changed.Grow(n)
 }
 
 func (c *eager) Insert(g *Graph, u, v uint32, neg bool) error {
@@ -82,12 +79,7 @@ func (c *eager) Vector(x uint32, dst []uint64) ([]uint64, error) {
 }
 
 func (c *eager) Changed(visit func(x uint32)) {
-	for w, word := range c.changed {
-		for ; word != 0; word &= word - 1 {
-			visit(uint32(w<<6 + bits.TrailingZeros64(word)))
-		}
-	}
-	clear(c.changed)
+	c.changed.Drain(visit)
 }
 
 func (c *eager) AppendRecord(dst []byte, x uint32) []byte {

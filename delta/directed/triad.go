@@ -3,7 +3,6 @@ package directed
 import (
 	"encoding/binary"
 	"fmt"
-	"math/bits"
 	"slices"
 	"sync"
 
@@ -56,7 +55,7 @@ type Triads struct {
 	// pattern's diagonal A[o][o].
 	triOrbit [numTriOrbits]int
 	recs     []triadRecord
-	changed  []uint64
+	changed  delta.Bits
 	fault    error
 	// Update scratch: the smaller endpoint's neighbours.
 	it      roaring.ManyIntIterator
@@ -123,12 +122,10 @@ func (c *Triads) grow(n int) {
 		}
 		c.recs = c.recs[:n]
 	}
-	for len(c.changed)*64 < n {
-		c.changed = append(c.changed, 0)
-	}
+	c.changed.Grow(n)
 }
 
-func (c *Triads) mark(x uint32) { c.changed[x>>6] |= 1 << (x & 63) }
+func (c *Triads) mark(x uint32) { c.changed.Set(x) }
 
 // Insert updates the records for adding the arc u→v to g, which lacks it.
 func (c *Triads) Insert(g *delta.Graph, u, v uint32, _ bool) error {
@@ -390,12 +387,7 @@ func (c *Triads) solve(s *readScratch, x uint32, d *[3]int64, tri *[numTriOrbits
 // Changed calls visit for every node whose record changed since the last
 // call (or Restore), in increasing id order, and forgets them.
 func (c *Triads) Changed(visit func(x uint32)) {
-	for w, word := range c.changed {
-		for ; word != 0; word &= word - 1 {
-			visit(uint32(w<<6 + bits.TrailingZeros64(word)))
-		}
-	}
-	clear(c.changed)
+	c.changed.Drain(visit)
 }
 
 // AppendRecord appends x's record: 18 uvarints (out-only, in-only and

@@ -2,7 +2,6 @@ package factored
 
 import (
 	"fmt"
-	"math/bits"
 	"slices"
 
 	"orbitwatch/delta"
@@ -67,12 +66,12 @@ type Counter struct {
 	hv     []*heavy   // non-nil exactly for the nodes assigned heavy
 
 	// dirty marks the nodes whose record may have changed since Changed.
-	dirty []uint64
+	dirty delta.Bits
 	// marks[0], marks[1] hold N(u), N(v) of the event in progress when
 	// that endpoint is light; inW marks the common neighbours. All zero
 	// between events.
-	marks  [2][]uint64
-	inW    []uint64
+	marks  [2]delta.Bits
+	inW    delta.Bits
 	common []uint32
 	fault  error
 }
@@ -124,17 +123,14 @@ func (c *Counter) grow(n int) {
 	c.adj = append(c.adj, make([]adjacency, n-len(c.adj))...)
 	c.heavyN = append(c.heavyN, make([][]uint32, n-len(c.heavyN))...)
 	c.hv = append(c.hv, make([]*heavy, n-len(c.hv))...)
-	words := (n + 63) / 64
-	for _, b := range []*[]uint64{&c.dirty, &c.marks[0], &c.marks[1], &c.inW} {
-		if len(*b) < words {
-			*b = append(*b, make([]uint64, words-len(*b))...)
-		}
+	for _, b := range []*delta.Bits{&c.dirty, &c.marks[0], &c.marks[1], &c.inW} {
+		b.Grow(n)
 	}
 }
 
 func (c *Counter) isHeavy(x uint32) bool { return c.hv[x] != nil }
 
-func (c *Counter) touch(x uint32) { c.dirty[x>>6] |= 1 << (x & 63) }
+func (c *Counter) touch(x uint32) { c.dirty.Set(x) }
 
 // Insert updates the records for adding uv to g, which lacks it (see
 // delta.Counter). The Counter keeps its own adjacency, so it panics when
@@ -161,12 +157,7 @@ func (c *Counter) Delete(g *delta.Graph, u, v uint32) error {
 // Changed calls visit, in increasing id order, for every node whose record
 // may have changed since the last call, and forgets them.
 func (c *Counter) Changed(visit func(x uint32)) {
-	for w, word := range c.dirty {
-		for ; word != 0; word &= word - 1 {
-			visit(uint32(w<<6 + bits.TrailingZeros64(word)))
-		}
-	}
-	clear(c.dirty)
+	c.dirty.Drain(visit)
 }
 
 // change applies inserting (s = +1) or deleting (s = −1) the edge uv. The

@@ -2,7 +2,6 @@ package five
 
 import (
 	"fmt"
-	"math/bits"
 	"sync"
 
 	"orbitwatch/delta"
@@ -39,7 +38,7 @@ type Counter struct {
 	fault error
 	// changed is a bitset of nodes whose vector changed in a recount
 	// since the last Changed.
-	changed []uint64
+	changed delta.Bits
 	opt     Options
 }
 
@@ -102,13 +101,11 @@ func (c *Counter) fresh() error {
 		return err
 	}
 	n := next.NumNodes()
-	for len(c.changed)*64 < n {
-		c.changed = append(c.changed, 0)
-	}
+	c.changed.Grow(n)
 	old := c.vec
 	for x := range uint32(n) {
 		if int(x) >= old.NumNodes() || !equalRows(old.Row(x), next.Row(x)) {
-			c.changed[x>>6] |= 1 << (x & 63)
+			c.changed.Set(x)
 		}
 	}
 	c.vec, c.dirty = next, false
@@ -143,12 +140,7 @@ func (c *Counter) Vector(x uint32, dst []uint64) ([]uint64, error) {
 // Vector).
 func (c *Counter) Changed(visit func(x uint32)) {
 	_ = c.fresh()
-	for w, word := range c.changed {
-		for ; word != 0; word &= word - 1 {
-			visit(uint32(w<<6 + bits.TrailingZeros64(word)))
-		}
-	}
-	clear(c.changed)
+	c.changed.Drain(visit)
 }
 
 // AppendRecord appends x's vector as uvarints (delta.AppendCounts).

@@ -2,7 +2,6 @@ package signed
 
 import (
 	"fmt"
-	"math/bits"
 
 	"github.com/RoaringBitmap/roaring/v2"
 
@@ -44,7 +43,7 @@ type Counter struct {
 	nodes  []node
 	heavy  []bool
 	heavyN [][]peer // heavy neighbours of each node, unordered
-	dirty  []uint64
+	dirty  delta.Bits
 	fault  error
 	// Event scratch: a walked node's neighbours with their signs, and the
 	// common neighbours of the changed pair with the signs of their ties
@@ -88,12 +87,10 @@ func (c *Counter) grow(n int) {
 	c.nodes = append(c.nodes, make([]node, n-len(c.nodes))...)
 	c.heavy = append(c.heavy, make([]bool, n-len(c.heavy))...)
 	c.heavyN = append(c.heavyN, make([][]peer, n-len(c.heavyN))...)
-	for len(c.dirty)*64 < n {
-		c.dirty = append(c.dirty, 0)
-	}
+	c.dirty.Grow(n)
 }
 
-func (c *Counter) touch(x uint32) { c.dirty[x>>6] |= 1 << (x & 63) }
+func (c *Counter) touch(x uint32) { c.dirty.Set(x) }
 
 func (n *node) degree() int64 { return n.d[0] + n.d[1] }
 
@@ -330,12 +327,7 @@ func load(it *roaring.ManyIntIterator, buf []uint32, b *roaring.Bitmap) []uint32
 // Changed calls visit, in increasing id order, for every node whose record
 // may have changed since the last call, and forgets them.
 func (c *Counter) Changed(visit func(x uint32)) {
-	for w, word := range c.dirty {
-		for ; word != 0; word &= word - 1 {
-			visit(uint32(w<<6 + bits.TrailingZeros64(word)))
-		}
-	}
-	clear(c.dirty)
+	c.dirty.Drain(visit)
 }
 
 // gather returns x's local quantities from the in-memory records: O(H)
