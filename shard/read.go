@@ -53,8 +53,8 @@ func (w *Worker) readNow(node string) ReadReply {
 func ReadStored(st *storage.Store, c delta.Counter, counting *Counting, req ReadRequest) ReadReply {
 	cat := counting.Catalog
 	rep := ReadReply{Node: req.Node, Kind: cat.Kind.String(), MaxNodes: cat.MaxNodes}
-	seq, status, msg := cutOf(st, req.At, req.Seq)
-	if status != 0 {
+	seq, status, msg := CutFor(st, req.At, req.Seq)
+	if status != http.StatusOK {
 		rep.Status, rep.Error = status, msg
 		return rep
 	}
@@ -74,12 +74,12 @@ func ReadStored(st *storage.Store, c delta.Counter, counting *Counting, req Read
 	return rep
 }
 
-// cutOf returns the seq an as-of read of st reads at: seq itself when at
-// is zero, else the latest cut whose event-time watermark is ≤ at; or a
-// status (404, 410) and why there is none.
-func cutOf(st *storage.Store, at time.Time, seq uint64) (uint64, int, string) {
+// CutFor returns the sequence an as-of read names: seq itself, or for a
+// non-zero at the latest cut whose event-time watermark is ≤ at; the
+// status is 200, or 404 / 410 with the reason.
+func CutFor(st *storage.Store, at time.Time, seq uint64) (uint64, int, string) {
 	if at.IsZero() {
-		return seq, 0, ""
+		return seq, http.StatusOK, ""
 	}
 	s, ok := st.SeqAtTime(at)
 	switch {
@@ -88,7 +88,7 @@ func cutOf(st *storage.Store, at time.Time, seq uint64) (uint64, int, string) {
 	case !ok:
 		return 0, http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", at.Format(time.RFC3339Nano))
 	}
-	return s, 0, ""
+	return s, http.StatusOK, ""
 }
 
 // DeriveStored returns node's orbit vector as of the latest complete cut

@@ -450,23 +450,6 @@ func (s *StoredSignatures) Similar(req SimilarRequest) SimilarReply {
 	return s.sig.Similar(req.Node, req.K, req.MinDegree)
 }
 
-// CutFor returns the sequence an as-of read names: seq itself, or for a
-// non-zero at the latest cut whose event-time watermark is ≤ at; the
-// status is 200, or 404 / 410 with the reason.
-func CutFor(st *storage.Store, at time.Time, seq uint64) (uint64, int, string) {
-	if at.IsZero() {
-		return seq, http.StatusOK, ""
-	}
-	s, ok := st.SeqAtTime(at)
-	switch {
-	case !ok && s > 0:
-		return 0, http.StatusGone, fmt.Sprintf("the latest cut at or before %s (seq %d) is before the retained history (floor %d)", at.Format(time.RFC3339Nano), s, st.Floor())
-	case !ok:
-		return 0, http.StatusNotFound, fmt.Sprintf("no complete cut with an event-time watermark at or before %s", at.Format(time.RFC3339Nano))
-	}
-	return s, http.StatusOK, ""
-}
-
 // CheckpointAt returns st's latest complete checkpoint with Seq ≤ seq,
 // or an error wrapping storage.ErrNoCheckpoint or storage.ErrRetention.
 func CheckpointAt(st *storage.Store, seq uint64) (storage.CheckpointInfo, error) {

@@ -134,8 +134,8 @@ func NeighborhoodNow(ctx context.Context, a *Applier, q NeighborQuery) Neighbors
 // (the degrees shown stay exact).
 func NeighborhoodStored(ctx context.Context, st *storage.Store, q NeighborQuery) Neighbors {
 	r := Neighbors{Node: q.Node, Kind: st.Settings().Kind.String()}
-	seq, status, msg := cutOf(st, q.At, q.Seq)
-	if status != 0 {
+	seq, status, msg := CutFor(st, q.At, q.Seq)
+	if status != http.StatusOK {
 		r.Status, r.Error = status, msg
 		return r
 	}
