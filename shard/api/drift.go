@@ -142,6 +142,16 @@ func FormatSpan(d time.Duration) string {
 	return s
 }
 
+// storedCuts returns st's complete cuts, answering 404 when there is none
+// yet.
+func storedCuts(w http.ResponseWriter, st *storage.Store) ([]storage.CheckpointInfo, bool) {
+	cps := st.Checkpoints()
+	if len(cps) == 0 {
+		writeError(w, http.StatusNotFound, "no complete cut in the store yet")
+	}
+	return cps, len(cps) > 0
+}
+
 // drift answers GET /v1/drift?from=TIME&to=TIME (or from_seq, to_seq):
 // the drift between the cuts they name, by default the first and the
 // last stored.
@@ -151,9 +161,8 @@ func (a *api) drift(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	st := a.v.Store()
-	cps := st.Checkpoints()
-	if len(cps) == 0 {
-		writeError(w, http.StatusNotFound, "no complete cut in the store yet")
+	cps, ok := storedCuts(w, st)
+	if !ok {
 		return
 	}
 	from, ok := a.cutParam(w, q, "from", cps[0].Seq)
@@ -193,9 +202,8 @@ func (a *api) driftSeries(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	st := a.v.Store()
-	cps := st.Checkpoints()
-	if len(cps) == 0 {
-		writeError(w, http.StatusNotFound, "no complete cut in the store yet")
+	cps, ok := storedCuts(w, st)
+	if !ok {
 		return
 	}
 	bound := [2]time.Time{cps[0].Watermark, cps[len(cps)-1].Watermark}
