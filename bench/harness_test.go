@@ -122,3 +122,19 @@ func TestNetworkxTrianglesAgree(t *testing.T) {
 		t.Fatalf("networkx time %v", sec)
 	}
 }
+
+// A star one leaf past NetworkxMaxDegree is skipped before any Python
+// runs (no interpreter is named here, so running one would fail).
+func TestNetworkxSkipsHubs(t *testing.T) {
+	var star []gen.Edge
+	for leaf := range uint32(NetworkxMaxDegree + 1) {
+		star = append(star, gen.Edge{U: 0, V: leaf + 1})
+	}
+	r, err := TimeNetworkxTriangles("", star)
+	if err != nil || !r.Skipped || r.Wall != 0 {
+		t.Fatalf("star of %d leaves: %+v, %v; want skipped", len(star), r, err)
+	}
+	if _, err := TimeNetworkxTriangles("", star[:NetworkxMaxDegree]); err == nil {
+		t.Fatal("a star at the bound was not run (running no interpreter must fail)")
+	}
+}

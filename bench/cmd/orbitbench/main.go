@@ -228,23 +228,14 @@ func measureGraph(stderr io.Writer, name string, edges []gen.Edge, namer gen.Nam
 		t0 := time.Now()
 		c.Recount.Recount(p.Applier.Graph())
 		r.recount = time.Since(t0)
-		// networkx.triangles builds the set of a node's neighbours for
-		// every neighbour it visits, d² steps for a hub of degree d:
-		// it is not timed on a graph with a hub.
-		if r.maxDeg <= nxMaxDegree {
-			nx, err := bench.TimeNetworkxTriangles(python, edges)
-			if err != nil {
-				return r, nil, err
-			}
-			r.networkx = nx.Wall
+		nx, err := bench.TimeNetworkxTriangles(python, edges)
+		if err != nil {
+			return r, nil, err
 		}
+		r.networkx = nx.Wall
 	}
 	return r, p, nil
 }
-
-// nxMaxDegree is the largest degree of a graph networkx.triangles is timed
-// on.
-const nxMaxDegree = 10000
 
 type merchantResult struct {
 	plain, heavy bench.Cost
@@ -368,6 +359,6 @@ func writeRecount(w io.Writer, rows []row) {
 		}
 		fmt.Fprintf(w, "| %s | %.2f | %.2f | %.1f× |\n", r.name, r.recount.Seconds(), r.networkx.Seconds(), r.networkx.Seconds()/r.recount.Seconds())
 	}
-	fmt.Fprintf(w, "\nnetworkx is not timed (–) on a graph with a node of degree above %d.\n", nxMaxDegree)
+	fmt.Fprintf(w, "\nnetworkx is not timed (–) on a graph with a node of degree above %d.\n", bench.NetworkxMaxDegree)
 	fmt.Fprintln(w)
 }
