@@ -19,6 +19,7 @@ import (
 
 	"github.com/nats-io/nats.go"
 
+	"orbitwatch/bench"
 	"orbitwatch/bench/demo"
 	"orbitwatch/delta"
 	"orbitwatch/shard"
@@ -326,13 +327,11 @@ func TestDemoOtherKinds(t *testing.T) {
 // chromiumPath finds Debian's chromium; the test fails without it.
 func chromiumPath(t *testing.T) string {
 	t.Helper()
-	for _, name := range []string{"chromium", "chromium-browser"} {
-		if p, err := exec.LookPath(name); err == nil {
-			return p
-		}
+	p, err := bench.Chromium()
+	if err != nil {
+		t.Fatal(err)
 	}
-	t.Fatal("chromium not found on PATH: install Debian's chromium package (apt-get install -y chromium); CI installs it")
-	return ""
+	return p
 }
 
 // headless runs chromium on u at 1280×800 with the given output flag.

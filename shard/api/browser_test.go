@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"orbitwatch/bench"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -47,13 +48,11 @@ type cdpEvent struct {
 // chromium finds Debian's chromium; the test fails without it.
 func chromium(t *testing.T) string {
 	t.Helper()
-	for _, name := range []string{"chromium", "chromium-browser"} {
-		if p, err := exec.LookPath(name); err == nil {
-			return p
-		}
+	p, err := bench.Chromium()
+	if err != nil {
+		t.Fatal(err)
 	}
-	t.Fatal("chromium not found on PATH: install Debian's chromium package (apt-get install -y chromium); CI installs it")
-	return ""
+	return p
 }
 
 // newBrowser starts Chromium and opens one page; the test's end stops it.
