@@ -400,3 +400,30 @@ func TestDirectedMillionArcs(t *testing.T) {
 		t.Fatalf("%d distinct arcs in 1.3M events, want at least 1M", len(seen))
 	}
 }
+
+// Uniform draws m·n distinct edges, no self-loops, ids below n, the same
+// for the same seed; its degrees stay far below a hub's.
+func TestUniform(t *testing.T) {
+	const n, m = 2000, 5
+	edges := Uniform(n, m, 3)
+	if len(edges) != n*m {
+		t.Fatalf("%d edges, want %d", len(edges), n*m)
+	}
+	seen := map[[2]uint32]bool{}
+	deg := make([]int, n)
+	for _, e := range edges {
+		p := [2]uint32{min(e.U, e.V), max(e.U, e.V)}
+		if e.U == e.V || e.U >= n || e.V >= n || seen[p] {
+			t.Fatalf("bad or repeated edge %v", e)
+		}
+		seen[p] = true
+		deg[e.U]++
+		deg[e.V]++
+	}
+	if d := slices.Max(deg); d > 40 {
+		t.Errorf("largest degree %d of a G(2000, 10000), mean 10", d)
+	}
+	if !slices.Equal(edges, Uniform(n, m, 3)) || slices.Equal(edges, Uniform(n, m, 4)) {
+		t.Error("Uniform is not a function of its seed")
+	}
+}

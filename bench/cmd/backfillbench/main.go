@@ -13,9 +13,10 @@
 //	go run ./bench/cmd/backfillbench -merchant 0.2
 //
 // A graph is shape:nodes:seed: ba (Barabási–Albert, -m edges per new
-// node) or payments (the scenario's households, shops and payroll
-// providers); its log is the one bench/cmd/orbitgen writes with the same
-// arguments (every edge added, one second of event time apart). With
+// node), uniform (a uniform random graph, -m edges per node, no hubs) or
+// payments (the scenario's households, shops and payroll providers); its
+// log adds every edge, one second of event time apart (for ba and
+// payments the log bench/cmd/orbitgen writes with the same arguments). With
 // -merchant, each ba graph is measured also with one merchant paid by that
 // share of extra payments, appended after the graph's own adds, and the
 // table compares the cost per event with and without it. networkx is not
@@ -67,7 +68,7 @@ type graph struct {
 func run(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("backfillbench", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	graphs := fs.String("graphs", "ba:200000:1", "comma-separated shape:nodes:seed (shape ba or payments)")
+	graphs := fs.String("graphs", "ba:200000:1", "comma-separated shape:nodes:seed (shape ba, uniform or payments)")
 	m := fs.Int("m", 5, "Barabási–Albert edges per new node")
 	rounds := fs.Int("rounds", 2, "rounds of the three measurements per graph")
 	merchant := fs.Float64("merchant", 0, "also measure each ba graph plus one merchant paid by this share of extra payments (0: no)")
@@ -177,10 +178,12 @@ func parseGraphs(list string, m int, merchant float64) ([]graph, error) {
 		switch {
 		case g.shape == "ba" && n > m:
 			g.name = fmt.Sprintf("BA(%s, %d) seed %d", size(n), m, seed)
+		case g.shape == "uniform" && n > 2*m+1:
+			g.name = fmt.Sprintf("uniform(%s, %d) seed %d", size(n), m, seed)
 		case g.shape == "payments" && n >= 40:
 			g.name = fmt.Sprintf("payments(%s households) seed %d", size(n), seed)
 		default:
-			return nil, fmt.Errorf("-graphs: %q: want ba with nodes above -m or payments with at least 40 households", f)
+			return nil, fmt.Errorf("-graphs: %q: want ba with nodes above -m, uniform with nodes above 2·-m+1, or payments with at least 40 households", f)
 		}
 		out = append(out, g)
 		if merchant > 0 && g.shape == "ba" {
@@ -211,6 +214,9 @@ func (g *graph) generate(dir string, m int, merchant float64) error {
 			g.customers = len(g.edges) - before
 			name = bench.AccountNamer(g.nodes)
 		}
+	case "uniform":
+		g.edges = gen.Uniform(g.nodes, m, g.seed)
+		name = bench.AccountNamer(0)
 	case "payments":
 		var pop gen.Population
 		pop, g.edges = gen.Payments(gen.DefaultPayments(g.nodes), g.seed)
