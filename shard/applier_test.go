@@ -145,6 +145,25 @@ func TestWindowEqualsExplicitRemoves(t *testing.T) {
 
 func isReject(err error) bool { var r *Reject; return errors.As(err, &r) }
 
+// goesOnLike applies log after seq to restored, an applier restored at
+// the cut seq, and the whole log to a fresh applier without cuts, and
+// compares the two with same: a restored applier must end where an
+// uninterrupted one ends. Rejected events are skipped alike.
+func goesOnLike(c *Counting, win time.Duration, log []stream.Event, seq uint64, restored *Applier, same func(want, got *Applier) error) error {
+	for i := seq; i < uint64(len(log)); i++ {
+		if err := restored.Apply(i+1, log[i]); err != nil && !isReject(err) {
+			return err
+		}
+	}
+	end := NewApplier(c, win, Cuts{})
+	for i, e := range log {
+		if err := end.Apply(uint64(i+1), e); err != nil && !isReject(err) {
+			return err
+		}
+	}
+	return same(end, restored)
+}
+
 type placed struct {
 	at int // index of the original log line after which this event applies
 	e  stream.Event

@@ -121,18 +121,7 @@ func TestCheckpointsRebuildState(t *testing.T) {
 				}
 				// The restored applier goes on with the rest of the log and
 				// must end where the live one ends.
-				for i := cp.Seq; i < uint64(len(log)); i++ {
-					if err := restored.Apply(i+1, log[i]); err != nil && !isReject(err) {
-						return err
-					}
-				}
-				end := NewApplier(c, win, Cuts{})
-				for i, e := range log {
-					if err := end.Apply(uint64(i+1), e); err != nil && !isReject(err) {
-						return err
-					}
-				}
-				return sameState(t, end, restored)
+				return goesOnLike(c, win, log, cp.Seq, restored, func(a, b *Applier) error { return sameState(t, a, b) })
 			}
 			for i, e := range log {
 				if err := live.Apply(uint64(i+1), e); err != nil && !isReject(err) {

@@ -117,18 +117,7 @@ func TestSignedCheckpointsRebuildState(t *testing.T) {
 				if err := sameSigned(t, live, restored); err != nil {
 					return fmt.Errorf("cut %d at seq %d: %w", cuts, cp.Seq, err)
 				}
-				for i := cp.Seq; i < uint64(len(log)); i++ {
-					if err := restored.Apply(i+1, log[i]); err != nil && !isReject(err) {
-						return err
-					}
-				}
-				end := NewApplier(c, win, Cuts{})
-				for i, e := range log {
-					if err := end.Apply(uint64(i+1), e); err != nil && !isReject(err) {
-						return err
-					}
-				}
-				return sameSigned(t, end, restored)
+				return goesOnLike(c, win, log, cp.Seq, restored, func(a, b *Applier) error { return sameSigned(t, a, b) })
 			}
 			for i, e := range log {
 				if err := live.Apply(uint64(i+1), e); err != nil && !isReject(err) {
